@@ -1,0 +1,86 @@
+// Reading delimited matrices (CSV/TSV, optionally gzip-compressed) and sample sheets, and writing
+// outputs through temporary files that are renamed into place only when complete.
+#pragma once
+
+#include <cstdint>      // std::int64_t
+#include <string>       // std::string
+#include <string_view>  // std::string_view
+#include <vector>       // std::vector
+
+#include "pare/matrix.h"
+
+namespace pare {
+
+/// The tokens read as a missing value by default: empty, NA, NaN, nan, null, ?.
+std::vector<std::string> default_na_tokens();
+
+/// How to read a delimited matrix.
+struct ReadOptions {
+  Layout layout = Layout::kRowsAreSamples;
+  char delimiter = 0;                                ///< 0: detect from the header line
+  std::vector<std::string> na_tokens = default_na_tokens();
+  bool allow_inf = false;                            ///< accept inf/-inf as values
+  std::string label_column;                          ///< column (or row, rows=features) of labels
+  int threads = 0;                                   ///< 0: OpenMP's default
+};
+
+/// Reads a whole matrix. Throws Error(kInput) with file:line:column on malformed input.
+FeatureTable read_table(const std::string& path, const ReadOptions& options);
+
+/// Sample id -> label, as read from a sample sheet.
+struct SampleSheet {
+  std::string path;
+  std::string column;                   ///< the label column used
+  std::vector<std::string> ids;         ///< in file order
+  std::vector<std::string> labels;      ///< one per id
+  std::vector<std::int64_t> lines;      ///< 1-based line of each id
+};
+
+/// Reads `spec` = `FILE[:COLUMN]`: first column sample ids, COLUMN (default: the second column)
+/// the labels. The delimiter is detected from the header line unless given.
+SampleSheet read_sample_sheet(const std::string& spec, char delimiter = 0);
+
+/// Sets `table.labels` from `sheet`, matched by sample id. Every sample of the table must appear in
+/// the sheet; sheet rows for other samples are ignored.
+void attach_labels(FeatureTable& table, const SampleSheet& sheet);
+
+/// Reads a file whole, inflating it when it starts with the gzip magic bytes.
+std::string read_file_text(const std::string& path);
+
+/// Detects the delimiter of a header line: tab, comma or semicolon, whichever occurs most outside
+/// quotes (comma when none does).
+char detect_delimiter(std::string_view header_line);
+
+/// Splits one delimited line (no line break) into fields, undoing CSV quoting.
+std::vector<std::string> split_fields(std::string_view line, char delimiter);
+
+/// A file written under a temporary name in the same folder and renamed to its final name by
+/// commit(). Destroyed without commit(), it removes the temporary file, so a failed run leaves no
+/// half-written output under a final name.
+class OutputFile {
+ public:
+  explicit OutputFile(std::string path);
+  OutputFile(const OutputFile&) = delete;
+  OutputFile& operator=(const OutputFile&) = delete;
+  ~OutputFile();
+
+  void write(std::string_view bytes);
+  /// Writes `bytes` gzip-compressed (the whole content at once).
+  void write_gzip(std::string_view bytes, int level = 6);
+  void commit();
+  const std::string& path() const { return path_; }
+
+ private:
+  std::string path_;
+  std::string temp_path_;
+  int fd_ = -1;
+  bool committed_ = false;
+};
+
+/// Writes `content` to `path` through an OutputFile.
+void write_file_atomically(const std::string& path, std::string_view content);
+
+/// Creates the folder (and its parents) if needed. Throws Error(kOutput) on failure.
+void ensure_directory(const std::string& path);
+
+}  // namespace pare

@@ -1,0 +1,111 @@
+#include "cli/options.h"
+
+#include <sstream>  // std::ostringstream
+
+#include "pare/error.h"
+
+namespace pare::cli {
+
+void add_common_options(po::options_description& desc, CommonOptions& common,
+                        const std::string& default_out) {
+  common.out = default_out;
+  desc.add_options()
+      ("out", po::value(&common.out)->default_value(default_out), "folder for the output files")
+      ("threads", po::value(&common.threads)->default_value(0),
+       "worker threads (0 = all cores); results do not depend on it")
+      ("seed", po::value(&common.seed)->default_value(1), "seed for anything random")
+      ("quiet", po::bool_switch(&common.quiet), "print nothing but errors")
+      ("help", "show this help");
+}
+
+void add_input_options(po::options_description& desc, InputOptions& input) {
+  desc.add_options()
+      ("layout", po::value(&input.layout)->default_value("rows=samples"),
+       "rows=samples (a sample per line) or rows=features (a feature per line)")
+      ("delimiter", po::value(&input.delimiter),
+       "field separator: comma, tab or semicolon (default: detected from the header)")
+      ("label", po::value(&input.label),
+       "column (rows=samples) or line (rows=features) holding the class labels")
+      ("labels", po::value(&input.labels),
+       "sample sheet FILE[:COLUMN]: sample ids, then labels (default: its second column)")
+      ("na", po::value(&input.na),
+       "comma-separated missing-value tokens (default: empty,NA,NaN,nan,null,?)")
+      ("allow-inf", po::bool_switch(&input.allow_inf), "accept inf and -inf as values");
+}
+
+bool parse_command_line(const std::vector<std::string>& args, const po::options_description& desc,
+                        const po::positional_options_description& positional, std::string& help) {
+  po::variables_map vm;
+  try {
+    po::store(po::command_line_parser(args).options(desc).positional(positional).run(), vm);
+    if (vm.count("help")) {
+      std::ostringstream text;
+      text << desc;
+      help = text.str();
+      return false;
+    }
+    po::notify(vm);
+  } catch (const po::error& e) {
+    throw_usage_error(e.what(), "see --help");
+  }
+  return true;
+}
+
+namespace {
+
+char parse_delimiter(const std::string& text) {
+  if (text.empty()) return 0;
+  if (text == "," || text == "comma") return ',';
+  if (text == "\t" || text == "\\t" || text == "tab") return '\t';
+  if (text == ";" || text == "semicolon") return ';';
+  throw_usage_error("--delimiter " + text + " is not one of comma, tab, semicolon");
+}
+
+std::vector<std::string> parse_na(const std::string& text) {
+  std::vector<std::string> tokens;
+  std::string token;
+  for (char c : text) {
+    if (c == ',') {
+      tokens.push_back(token);
+      token.clear();
+    } else {
+      token += c;
+    }
+  }
+  tokens.push_back(token);
+  return tokens;
+}
+
+}  // namespace
+
+ReadOptions read_options_from(const InputOptions& input, const CommonOptions& common) {
+  ReadOptions r;
+  if (common.threads < 0) throw_usage_error("--threads must be 1 or more (0 = all cores)");
+  r.threads = common.threads;
+  if (input.layout == "rows=samples" || input.layout == "samples") {
+    r.layout = Layout::kRowsAreSamples;
+  } else if (input.layout == "rows=features" || input.layout == "features") {
+    r.layout = Layout::kRowsAreFeatures;
+  } else {
+    throw_usage_error("--layout " + input.layout + " is not rows=samples or rows=features");
+  }
+  r.delimiter = parse_delimiter(input.delimiter);
+  if (!input.na.empty() || input.na_given) r.na_tokens = parse_na(input.na);
+  r.allow_inf = input.allow_inf;
+  if (!input.label.empty() && !input.labels.empty())
+    throw_usage_error("give --label or --labels, not both");
+  r.label_column = input.label;
+  return r;
+}
+
+FeatureTable load_table(const InputOptions& input, const CommonOptions& common) {
+  const ReadOptions options = read_options_from(input, common);
+  // The sheet is small: read it first so its mistakes show before a long read of the data.
+  SampleSheet sheet;
+  if (!input.labels.empty()) sheet = read_sample_sheet(input.labels);
+  FeatureTable table = read_table(input.data, options);
+  if (!input.labels.empty()) attach_labels(table, sheet);
+  return table;
+}
+
+}  // namespace pare::cli

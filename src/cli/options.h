@@ -1,0 +1,52 @@
+// Command-line options shared by the commands, parsed with Boost.Program_options.
+#pragma once
+
+#include <boost/program_options.hpp>
+
+#include <cstdint>  // std::uint64_t
+#include <string>   // std::string
+#include <vector>   // std::vector
+
+#include "pare/io.h"
+
+namespace pare::cli {
+
+namespace po = boost::program_options;
+
+/// Options every command takes.
+struct CommonOptions {
+  std::string out = ".";
+  int threads = 0;
+  std::uint64_t seed = 1;
+  bool quiet = false;
+};
+
+/// Options of the commands that read a data file.
+struct InputOptions {
+  std::string data;
+  std::string layout = "rows=samples";
+  std::string delimiter;
+  std::string label;
+  std::string labels;
+  std::string na;
+  bool na_given = false;
+  bool allow_inf = false;
+};
+
+void add_common_options(po::options_description& desc, CommonOptions& common,
+                        const std::string& default_out);
+void add_input_options(po::options_description& desc, InputOptions& input);
+
+/// Parses `args` (the words after the command name). Returns false when --help was given (the help
+/// text is then in `help`). Throws Error(kUsage) on an unknown option or a bad value.
+bool parse_command_line(const std::vector<std::string>& args, const po::options_description& desc,
+                        const po::positional_options_description& positional, std::string& help);
+
+/// Checks and converts the shared options: --threads >= 1 when given, --layout, --delimiter, --na,
+/// and that --label and --labels are not both given.
+ReadOptions read_options_from(const InputOptions& input, const CommonOptions& common);
+
+/// Reads the data file and attaches labels from --labels when given.
+FeatureTable load_table(const InputOptions& input, const CommonOptions& common);
+
+}  // namespace pare::cli

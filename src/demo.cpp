@@ -1,0 +1,217 @@
+#include "pare/demo.h"
+
+#include <algorithm>  // std::swap
+#include <cmath>      // std::exp, std::sqrt
+#include <cstdio>     // std::snprintf
+#include <vector>     // std::vector
+
+#include "internal/format.h"
+#include "internal/random.h"
+#include "pare/error.h"
+#include "pare/io.h"
+
+namespace pare {
+
+namespace {
+
+enum class Role { kBackground, kInformative, kCopy, kNearConstant, kConstant, kMostlyMissing };
+
+const char* role_name(Role r) {
+  switch (r) {
+    case Role::kInformative: return "informative";
+    case Role::kCopy: return "redundant_copy";
+    case Role::kNearConstant: return "near_constant";
+    case Role::kConstant: return "constant";
+    case Role::kMostlyMissing: return "mostly_missing";
+    case Role::kBackground: break;
+  }
+  return "background";
+}
+
+struct FeaturePlan {
+  Role role = Role::kBackground;
+  std::int64_t module = -1;    // informative: its module
+  std::int64_t copy_of = -1;   // copy: the informative feature it copies
+  double loading = 0;          // informative: weight on the module factor
+  double batch_shift = 0;      // in sd units, applied to batch B
+  double missing_rate = 0;
+};
+
+template <typename T>
+void shuffle(std::vector<T>& v, internal::Rng& rng) {
+  for (std::size_t i = v.size(); i > 1; --i) std::swap(v[i - 1], v[rng.below(i)]);
+}
+
+std::string name_of(const char* prefix, std::int64_t i, int width) {
+  char buffer[32];
+  std::snprintf(buffer, sizeof buffer, "%s%0*lld", prefix, width, static_cast<long long>(i + 1));
+  return buffer;
+}
+
+}  // namespace
+
+DemoFiles write_demo(const std::string& dir, std::uint64_t seed, const DemoScenario& s) {
+  const std::int64_t n = s.samples, p = s.features;
+  const std::int64_t n_informative = s.modules * s.module_size;
+  const auto n_near_constant = static_cast<std::int64_t>(s.near_constant_fraction * static_cast<double>(p) + 0.5);
+  if (s.tolerant <= 0 || s.tolerant >= n || n_informative + s.copies + n_near_constant + s.mostly_missing > p)
+    throw Error(ErrorKind::kUsage, "demo scenario does not fit its feature count");
+  ensure_directory(dir);
+  internal::Rng rng(seed, 0);
+
+  // Samples: which are tolerant, which batch. Independent draws, so batch and class are not
+  // confounded.
+  std::vector<int> tolerant(static_cast<std::size_t>(n), 0), batch_b(static_cast<std::size_t>(n), 0);
+  for (std::int64_t i = 0; i < s.tolerant; ++i) tolerant[static_cast<std::size_t>(i)] = 1;
+  shuffle(tolerant, rng);
+  for (std::int64_t i = 0; i < n / 2; ++i) batch_b[static_cast<std::size_t>(i)] = 1;
+  shuffle(batch_b, rng);
+
+  // Module factors: a class effect plus noise, standardised to unit variance over the samples.
+  std::vector<std::vector<double>> factor(static_cast<std::size_t>(s.modules));
+  const double share = static_cast<double>(s.tolerant) / static_cast<double>(n);
+  for (auto& f : factor) {
+    const double effect = rng.uniform(1.0, 2.2);
+    f.resize(static_cast<std::size_t>(n));
+    for (std::int64_t i = 0; i < n; ++i)
+      f[static_cast<std::size_t>(i)] = effect * (tolerant[static_cast<std::size_t>(i)] - share) + rng.normal();
+    const double sd = std::sqrt(effect * effect * share * (1 - share) + 1.0);
+    for (auto& x : f) x /= sd;
+  }
+
+  // Roles, scattered over the feature order.
+  std::vector<std::int64_t> order(static_cast<std::size_t>(p));
+  for (std::int64_t j = 0; j < p; ++j) order[static_cast<std::size_t>(j)] = j;
+  shuffle(order, rng);
+  std::vector<FeaturePlan> plan(static_cast<std::size_t>(p));
+  std::size_t next = 0;
+  std::vector<std::int64_t> informative;
+  for (std::int64_t m = 0; m < s.modules; ++m)
+    for (std::int64_t k = 0; k < s.module_size; ++k) {
+      FeaturePlan& f = plan[static_cast<std::size_t>(order[next++])];
+      f.role = Role::kInformative;
+      f.module = m;
+      // Two members with loadings a, b correlate at a*b: 0.78..0.9 gives r of about 0.6..0.8.
+      f.loading = rng.uniform(0.78, 0.9);
+      informative.push_back(order[next - 1]);
+    }
+  for (std::int64_t c = 0; c < s.copies; ++c) {
+    FeaturePlan& f = plan[static_cast<std::size_t>(order[next++])];
+    f.role = Role::kCopy;
+    f.copy_of = informative[static_cast<std::size_t>(c) % informative.size()];
+  }
+  for (std::int64_t c = 0; c < n_near_constant; ++c)
+    plan[static_cast<std::size_t>(order[next++])].role = c % 4 == 0 ? Role::kConstant : Role::kNearConstant;
+  double planted_missing = 0;
+  for (std::int64_t c = 0; c < s.mostly_missing; ++c) {
+    FeaturePlan& f = plan[static_cast<std::size_t>(order[next++])];
+    f.role = Role::kMostlyMissing;
+    f.missing_rate = rng.uniform(0.3, 0.6);
+    planted_missing += f.missing_rate;
+  }
+  // The remaining cells get a uniform rate so that the total comes to missing_fraction.
+  const double background_rate =
+      std::max(0.0, (s.missing_fraction * static_cast<double>(p) - planted_missing) /
+                        static_cast<double>(p - s.mostly_missing));
+  for (auto& f : plan) {
+    if (f.role != Role::kMostlyMissing) f.missing_rate = background_rate;
+    if (f.role == Role::kBackground && rng.uniform() < s.batch_fraction)
+      f.batch_shift = rng.uniform(0.4, 1.0) * (rng.uniform() < 0.5 ? -1 : 1);
+  }
+
+  // Values: feature j draws from its own stream, so lines can be generated in parallel and still
+  // be identical for a given seed. Levels are log-normal: exp(mu + sd * z).
+  std::vector<std::string> lines(static_cast<std::size_t>(p));
+  std::vector<std::vector<double>> latent(static_cast<std::size_t>(p));
+  const auto z_of = [&](std::int64_t j, internal::Rng& r) {
+    const FeaturePlan& f = plan[static_cast<std::size_t>(j)];
+    std::vector<double> z(static_cast<std::size_t>(n));
+    const double noise = std::sqrt(1 - f.loading * f.loading);
+    for (std::int64_t i = 0; i < n; ++i) {
+      const auto ii = static_cast<std::size_t>(i);
+      z[ii] = f.role == Role::kInformative ? f.loading * factor[static_cast<std::size_t>(f.module)][ii] + noise * r.normal()
+                                           : r.normal();
+      z[ii] += f.batch_shift * batch_b[ii];
+    }
+    return z;
+  };
+  // Informative latents first: the copies need them.
+  for (const auto j : informative) {
+    internal::Rng r(seed, 1000 + static_cast<std::uint64_t>(j));
+    latent[static_cast<std::size_t>(j)] = z_of(j, r);
+  }
+#pragma omp parallel for schedule(dynamic, 64)
+  for (std::int64_t j = 0; j < p; ++j) {
+    const FeaturePlan& f = plan[static_cast<std::size_t>(j)];
+    internal::Rng r(seed, 1000 + static_cast<std::uint64_t>(j));
+    std::vector<double> z;
+    if (f.role == Role::kInformative) {
+      z = latent[static_cast<std::size_t>(j)];
+      for (std::int64_t i = 0; i < n; ++i) r.normal();  // keep the stream where z_of left it
+    } else if (f.role == Role::kCopy) {
+      const auto& src = latent[static_cast<std::size_t>(f.copy_of)];
+      z.resize(static_cast<std::size_t>(n));
+      constexpr double kR = 0.97, kNoise = 0.2431049156;  // sqrt(1 - 0.97^2)
+      for (std::int64_t i = 0; i < n; ++i) z[static_cast<std::size_t>(i)] = kR * src[static_cast<std::size_t>(i)] + kNoise * r.normal();
+    } else {
+      z = z_of(j, r);
+    }
+    const double mu = r.uniform(1.5, 7.0);
+    const double sd = (f.role == Role::kInformative || f.role == Role::kCopy) ? r.uniform(0.25, 0.6)
+                                                                               : r.uniform(0.2, 1.0);
+    std::string& line = lines[static_cast<std::size_t>(j)];
+    line = name_of("TR", j, 5);
+    for (std::int64_t i = 0; i < n; ++i) {
+      line += ',';
+      const bool missing = r.uniform() < f.missing_rate;
+      double value;
+      switch (f.role) {
+        case Role::kConstant: value = std::exp(mu); break;
+        case Role::kNearConstant: value = std::exp(mu) * (1 + 1e-5 * z[static_cast<std::size_t>(i)]); break;
+        default: value = std::exp(mu + sd * z[static_cast<std::size_t>(i)]); break;
+      }
+      if (!missing) internal::append_rounded(line, value, 7);
+    }
+    line += '\n';
+  }
+
+  DemoFiles files{dir + "/greenhouse-expression.csv.gz", dir + "/greenhouse-samples.csv",
+                  dir + "/greenhouse-truth.tsv"};
+  {
+    std::string text = "transcript";
+    for (std::int64_t i = 0; i < n; ++i) text += ',' + name_of("P", i, 3);
+    text += '\n';
+    std::size_t total = text.size();
+    for (const auto& l : lines) total += l.size();
+    text.reserve(total);
+    for (auto& l : lines) {
+      text += l;
+      std::string().swap(l);
+    }
+    OutputFile out(files.data);
+    out.write_gzip(text, 6);
+    out.commit();
+  }
+  {
+    std::string text = "sample,condition,batch\n";
+    for (std::int64_t i = 0; i < n; ++i)
+      text += name_of("P", i, 3) + (tolerant[static_cast<std::size_t>(i)] ? ",tolerant," : ",sensitive,") +
+              (batch_b[static_cast<std::size_t>(i)] ? "B" : "A") + '\n';
+    write_file_atomically(files.samples, text);
+  }
+  {
+    std::string text = "feature\trole\tmodule\tcopy_of\tbatch_shift\n";
+    for (std::int64_t j = 0; j < p; ++j) {
+      const FeaturePlan& f = plan[static_cast<std::size_t>(j)];
+      text += name_of("TR", j, 5) + '\t' + role_name(f.role) + '\t' +
+              (f.module >= 0 ? "M" + std::to_string(f.module + 1) : std::string()) + '\t' +
+              (f.copy_of >= 0 ? name_of("TR", f.copy_of, 5) : std::string()) + '\t';
+      internal::append_rounded(text, f.batch_shift, 3);
+      text += '\n';
+    }
+    write_file_atomically(files.truth, text);
+  }
+  return files;
+}
+
+}  // namespace pare

@@ -1,0 +1,93 @@
+#include "internal/gzip.h"
+
+#include <zlib.h>
+
+#include <algorithm>  // std::min
+#include <cstdint>    // std::uint32_t
+#include <cstring>    // std::memcpy
+
+#include "pare/error.h"
+
+namespace pare::internal {
+
+bool is_gzip(std::string_view bytes) {
+  return bytes.size() >= 2 && static_cast<unsigned char>(bytes[0]) == 0x1f &&
+         static_cast<unsigned char>(bytes[1]) == 0x8b;
+}
+
+std::string gunzip(std::string_view compressed, const std::string& path) {
+  std::string out;
+  // The trailer's ISIZE (size mod 2^32 of the last member) is a good first guess for one member.
+  if (compressed.size() >= 18) {
+    std::uint32_t isize = 0;
+    std::memcpy(&isize, compressed.data() + compressed.size() - 4, 4);
+    out.reserve(std::min<std::size_t>(isize, std::size_t{1} << 34));
+  }
+  z_stream zs{};
+  if (inflateInit2(&zs, 15 + 16) != Z_OK) throw Error(ErrorKind::kOther, "zlib init failed");
+  const auto* next = reinterpret_cast<const Bytef*>(compressed.data());
+  std::size_t left = compressed.size();
+  std::size_t produced = 0;
+  int status = Z_OK;
+  constexpr std::size_t kStep = std::size_t{1} << 22;
+  while (true) {
+    if (out.size() - produced < kStep / 2) out.resize(std::max(out.size() * 3 / 2, produced + kStep));
+    const uInt in_now = static_cast<uInt>(std::min<std::size_t>(left, 1u << 30));
+    const uInt out_now = static_cast<uInt>(std::min<std::size_t>(out.size() - produced, 1u << 30));
+    zs.next_in = const_cast<Bytef*>(next);
+    zs.avail_in = in_now;
+    zs.next_out = reinterpret_cast<Bytef*>(out.data() + produced);
+    zs.avail_out = out_now;
+    status = inflate(&zs, Z_NO_FLUSH);
+    const std::size_t used = in_now - zs.avail_in;
+    next += used;
+    left -= used;
+    produced += out_now - zs.avail_out;
+    if (status == Z_STREAM_END) {
+      // Another member may follow (files concatenated with cat); trailing zero padding is ignored.
+      while (left > 0 && *next == 0) { ++next; --left; }
+      if (left == 0) break;
+      if (!is_gzip(std::string_view(reinterpret_cast<const char*>(next), left))) {
+        inflateEnd(&zs);
+        throw_input_error({path}, "unexpected bytes after the end of the gzip data",
+                          "the file is damaged or is not one gzip file");
+      }
+      inflateReset(&zs);
+      continue;
+    }
+    if (status == Z_BUF_ERROR && left == 0) {
+      inflateEnd(&zs);
+      throw_input_error({path},
+                        "gzip data ends early after " + std::to_string(produced) +
+                            " bytes of text",
+                        "the file is truncated; copy or download it again");
+    }
+    if (status != Z_OK && status != Z_BUF_ERROR) {
+      const std::string why = zs.msg ? zs.msg : "corrupt data";
+      inflateEnd(&zs);
+      throw_input_error({path}, "corrupt gzip data: " + why, "the file is damaged");
+    }
+  }
+  inflateEnd(&zs);
+  out.resize(produced);
+  return out;
+}
+
+std::string gzip(std::string_view bytes, int level) {
+  z_stream zs{};
+  if (deflateInit2(&zs, level, Z_DEFLATED, 15 + 16, 8, Z_DEFAULT_STRATEGY) != Z_OK)
+    throw Error(ErrorKind::kOther, "zlib init failed");
+  std::string out(deflateBound(&zs, static_cast<uLong>(bytes.size())) + 64, '\0');
+  zs.next_in = reinterpret_cast<Bytef*>(const_cast<char*>(bytes.data()));
+  zs.avail_in = static_cast<uInt>(bytes.size());
+  zs.next_out = reinterpret_cast<Bytef*>(out.data());
+  zs.avail_out = static_cast<uInt>(out.size());
+  const int status = deflate(&zs, Z_FINISH);
+  const std::size_t produced = zs.total_out;
+  deflateEnd(&zs);
+  if (status != Z_STREAM_END) throw Error(ErrorKind::kOther, "gzip compression failed");
+  out.resize(produced);
+  return out;
+}
+
+}  // namespace pare::internal

@@ -1,0 +1,858 @@
+#include "pare/io.h"
+
+#include <fast_float/fast_float.h>
+#include <fcntl.h>
+#include <sys/stat.h>
+#include <unistd.h>
+
+#include <algorithm>      // std::max, std::min, std::sort
+#include <atomic>         // std::atomic
+#include <cerrno>         // errno
+#include <cmath>          // std::isinf, std::isnan
+#include <cstring>        // std::memchr, std::strerror
+#include <filesystem>     // std::filesystem::create_directories
+#include <limits>         // std::numeric_limits
+#include <unordered_map>  // std::unordered_map
+#include <unordered_set>  // std::unordered_set
+
+#include "internal/gzip.h"
+#include "internal/omp.h"
+#include "pare/error.h"
+
+namespace pare {
+
+namespace {
+
+constexpr float kMissing = std::numeric_limits<float>::quiet_NaN();
+// Chunks are cut by size, not by thread count, so which lines a chunk holds never depends on
+// --threads; each line writes only its own row (or column), so the result cannot either.
+constexpr std::size_t kChunkBytes = std::size_t{4} << 20;
+// Rows of a rows=samples chunk parsed into a small column-major buffer before they are copied out,
+// so each copy writes whole cache lines of the big column-major matrix instead of one float.
+constexpr std::int64_t kRowBlock = 16;
+
+std::string in_quotes(std::string_view s) {
+  std::string out = "\"";
+  out.append(s.substr(0, 60));
+  if (s.size() > 60) out += "...";
+  out += '"';
+  return out;
+}
+
+std::string_view strip_cr(std::string_view line) {
+  if (!line.empty() && line.back() == '\r') line.remove_suffix(1);
+  return line;
+}
+
+// Position just past the end of the record starting at `p`: the next line break outside quotes.
+// Only the header is read this way; data lines end at the next line break.
+const char* header_end(const char* p, const char* end) {
+  bool in_quotes = false;
+  for (; p < end; ++p) {
+    if (*p == '"') in_quotes = !in_quotes;
+    else if (*p == '\n' && !in_quotes) return p;
+  }
+  return end;
+}
+
+// Reads the text field at `p` (stopping at `delim` or `end`), undoing CSV quoting; leaves `p` at
+// the delimiter or at `end`.
+void read_text_field(const char*& p, const char* end, char delim, std::string& out) {
+  out.clear();
+  if (p < end && *p == '"') {
+    ++p;
+    while (p < end) {
+      if (*p == '"') {
+        if (p + 1 < end && p[1] == '"') {
+          out += '"';
+          p += 2;
+          continue;
+        }
+        ++p;
+        break;
+      }
+      out += *p++;
+    }
+    // Anything between the closing quote and the delimiter is kept as written.
+    while (p < end && *p != delim) out += *p++;
+    return;
+  }
+  const char* stop = static_cast<const char*>(std::memchr(p, delim, static_cast<std::size_t>(end - p)));
+  if (!stop) stop = end;
+  out.assign(p, stop);
+  p = stop;
+}
+
+struct Failure {
+  bool set = false;
+  std::int64_t line = 0;
+  std::int64_t column = 0;
+  std::string what;
+  std::string hint;
+};
+
+void fail(Failure& f, std::int64_t line, std::int64_t column, std::string what,
+          std::string hint = {}) {
+  if (f.set) return;
+  f = Failure{true, line, column, std::move(what), std::move(hint)};
+}
+
+// The set of missing-value tokens, for the slow path of cell parsing.
+class NaTokens {
+ public:
+  explicit NaTokens(const std::vector<std::string>& tokens) : tokens_(tokens.begin(), tokens.end()) {
+    for (const auto& t : tokens) empty_is_missing_ |= t.empty();
+  }
+  bool contains(std::string_view s) const {
+    if (s.empty()) return empty_is_missing_;
+    return tokens_.count(std::string(s)) > 0;
+  }
+  std::string describe() const {
+    std::vector<std::string> sorted(tokens_.begin(), tokens_.end());
+    std::sort(sorted.begin(), sorted.end());
+    std::string out;
+    for (const auto& t : sorted) {
+      if (!out.empty()) out += ", ";
+      out += t.empty() ? "an empty field" : t;
+    }
+    return out;
+  }
+
+ private:
+  std::unordered_set<std::string> tokens_;
+  bool empty_is_missing_ = false;
+};
+
+enum class CellStatus { kOk, kNotNumber, kInfinite };
+
+struct CellContext {
+  char delim;
+  const NaTokens* na;
+  bool allow_inf;
+};
+
+bool parse_whole(const char* b, const char* e, float& value) {
+  if (b < e && *b == '+') ++b;
+  if (b == e) return false;
+  const auto r = fast_float::from_chars(b, e, value);
+  return r.ec == std::errc() && r.ptr == e;
+}
+
+// Parses one numeric cell at `p` on a line ending at `e`. Leaves `p` at the delimiter or `e`.
+// The fast path is one fast_float call; everything unusual (missing tokens, quotes, spaces, '+',
+// inf) goes through the slow path.
+CellStatus parse_cell(const char*& p, const char* e, const CellContext& ctx, float& value) {
+  {
+    const char* q = p;
+    if (q < e && *q == '+') ++q;
+    const auto r = fast_float::from_chars(q, e, value);
+    if (r.ec == std::errc() && (r.ptr == e || *r.ptr == ctx.delim) && std::isfinite(value)) {
+      p = r.ptr;
+      return CellStatus::kOk;
+    }
+  }
+  // Slow path: find the field's extent first.
+  const char* b = p;
+  const char* f = p;
+  if (f < e && *f == '"') {
+    ++f;
+    while (f < e && *f != '"') ++f;
+    if (f < e) ++f;
+  }
+  const char* stop = static_cast<const char*>(std::memchr(f, ctx.delim, static_cast<std::size_t>(e - f)));
+  if (!stop) stop = e;
+  p = stop;
+  const char* te = stop;
+  while (b < te && (*b == ' ' || *b == '\t') && *b != ctx.delim) ++b;
+  while (te > b && (te[-1] == ' ' || te[-1] == '\t') && te[-1] != ctx.delim) --te;
+  if (te - b >= 2 && *b == '"' && te[-1] == '"') {
+    ++b;
+    --te;
+  }
+  const std::string_view token(b, static_cast<std::size_t>(te - b));
+  if (ctx.na->contains(token)) {
+    value = kMissing;
+    return CellStatus::kOk;
+  }
+  if (!parse_whole(b, te, value) || std::isnan(value)) return CellStatus::kNotNumber;
+  if (std::isinf(value) && !ctx.allow_inf) return CellStatus::kInfinite;
+  return CellStatus::kOk;
+}
+
+std::string cell_text(const char* begin, const char* end) {
+  return in_quotes(std::string_view(begin, static_cast<std::size_t>(end - begin)));
+}
+
+// Reports a bad cell; `begin`..`end` is the field, `line_begin` its line's start.
+void fail_cell(Failure& f, CellStatus status, std::int64_t line, const char* line_begin,
+               const char* begin, const char* end, const std::string& column_name,
+               const NaTokens& na) {
+  const std::int64_t column = begin - line_begin + 1;
+  if (status == CellStatus::kInfinite) {
+    fail(f, line, column,
+         "infinite value " + cell_text(begin, end) + " in column " + in_quotes(column_name),
+         "pass --allow-inf to accept infinite values, or fix the export");
+  } else {
+    fail(f, line, column,
+         "cannot read " + cell_text(begin, end) + " in column " + in_quotes(column_name) +
+             " as a number",
+         "missing values must be one of: " + na.describe() + "; --na sets the list");
+  }
+}
+
+struct Chunk {
+  const char* begin = nullptr;
+  const char* end = nullptr;
+  std::int64_t lines = 0;      // line breaks (= lines) in the chunk
+  std::int64_t records = 0;    // non-blank lines that are data records
+  std::int64_t label_line = 0;  // 1-based line within the chunk of the label row, 0 if none
+  std::int64_t first_line = 0;  // 1-based file line of the chunk's first line
+  std::int64_t first_record = 0;
+  Failure failure;
+};
+
+std::vector<Chunk> cut_chunks(const char* begin, const char* end) {
+  std::vector<Chunk> chunks;
+  const char* p = begin;
+  while (p < end) {
+    const char* stop = p + std::min<std::size_t>(kChunkBytes, static_cast<std::size_t>(end - p));
+    if (stop < end) {
+      const char* nl = static_cast<const char*>(std::memchr(stop, '\n', static_cast<std::size_t>(end - stop)));
+      stop = nl ? nl + 1 : end;
+    }
+    Chunk c;
+    c.begin = p;
+    c.end = stop;
+    chunks.push_back(c);
+    p = stop;
+  }
+  return chunks;
+}
+
+// Calls fn(line_begin, line_end, line_number_within_chunk) for each line of the chunk, the '\r'
+// of a CRLF line break removed.
+template <typename Fn>
+void for_each_line(const Chunk& chunk, Fn&& fn) {
+  const char* p = chunk.begin;
+  std::int64_t line = 0;
+  while (p < chunk.end) {
+    const char* nl = static_cast<const char*>(std::memchr(p, '\n', static_cast<std::size_t>(chunk.end - p)));
+    const char* e = nl ? nl : chunk.end;
+    ++line;
+    const char* le = (e > p && e[-1] == '\r') ? e - 1 : e;
+    if (!fn(p, le, line)) return;
+    p = nl ? nl + 1 : chunk.end;
+  }
+}
+
+// True when the line's first field is `name` (plain or quoted) followed by the delimiter.
+bool starts_with_field(const char* b, const char* e, std::string_view name, char delim) {
+  const char* p = b;
+  std::string field;
+  read_text_field(p, e, delim, field);
+  return field == name;
+}
+
+int open_for_reading(const std::string& path) {
+  const int fd = ::open(path.c_str(), O_RDONLY | O_CLOEXEC);
+  if (fd < 0) {
+    const int err = errno;
+    throw_input_error({path}, std::string("cannot open the file: ") + std::strerror(err),
+                      err == ENOENT ? "check the path" : "check the file's permissions");
+  }
+  return fd;
+}
+
+}  // namespace
+
+std::vector<std::string> default_na_tokens() { return {"", "NA", "NaN", "nan", "null", "?"}; }
+
+std::string read_file_text(const std::string& path) {
+  const int fd = open_for_reading(path);
+  struct stat st {};
+  if (::fstat(fd, &st) != 0 || S_ISDIR(st.st_mode)) {
+    ::close(fd);
+    throw_input_error({path}, "is a folder, not a file", "give the path of a data file");
+  }
+  std::string text;
+  text.resize(static_cast<std::size_t>(st.st_size));
+  std::size_t have = 0;
+  while (true) {
+    if (have == text.size()) text.resize(std::max<std::size_t>(text.size() * 2, 1 << 16));
+    const ssize_t got = ::read(fd, text.data() + have, text.size() - have);
+    if (got < 0) {
+      if (errno == EINTR) continue;
+      const int err = errno;
+      ::close(fd);
+      throw_input_error({path}, std::string("cannot read the file: ") + std::strerror(err));
+    }
+    if (got == 0) break;
+    have += static_cast<std::size_t>(got);
+  }
+  ::close(fd);
+  text.resize(have);
+  if (internal::is_gzip(text)) return internal::gunzip(text, path);
+  return text;
+}
+
+char detect_delimiter(std::string_view header_line) {
+  std::int64_t tabs = 0, commas = 0, semicolons = 0;
+  bool in_quotes = false;
+  for (char c : header_line) {
+    if (c == '"') in_quotes = !in_quotes;
+    if (in_quotes) continue;
+    tabs += c == '\t';
+    commas += c == ',';
+    semicolons += c == ';';
+  }
+  if (tabs > commas && tabs >= semicolons) return '\t';
+  if (semicolons > commas) return ';';
+  return ',';
+}
+
+std::vector<std::string> split_fields(std::string_view line, char delimiter) {
+  std::vector<std::string> fields;
+  const char* p = line.data();
+  const char* end = line.data() + line.size();
+  std::string field;
+  while (true) {
+    read_text_field(p, end, delimiter, field);
+    fields.push_back(field);
+    if (p >= end) break;
+    ++p;  // the delimiter
+  }
+  return fields;
+}
+
+namespace {
+
+struct Header {
+  std::vector<std::string> fields;
+  const char* data_begin;  // first byte after the header line
+  char delimiter;
+};
+
+Header read_header(const std::string& path, const std::string& text, char delimiter) {
+  const char* begin = text.data();
+  const char* end = text.data() + text.size();
+  if (text.size() >= 3 && static_cast<unsigned char>(text[0]) == 0xEF &&
+      static_cast<unsigned char>(text[1]) == 0xBB && static_cast<unsigned char>(text[2]) == 0xBF)
+    begin += 3;  // UTF-8 byte-order mark
+  if (begin == end)
+    throw_input_error({path, 1, 1}, "the file is empty", "expected a header line naming the columns");
+  const char* he = header_end(begin, end);
+  const std::string_view line = strip_cr(std::string_view(begin, static_cast<std::size_t>(he - begin)));
+  if (line.empty())
+    throw_input_error({path, 1, 1}, "the header line is empty",
+                      "the first line must name the columns");
+  Header h;
+  h.delimiter = delimiter ? delimiter : detect_delimiter(line);
+  h.fields = split_fields(line, h.delimiter);
+  h.data_begin = he < end ? he + 1 : end;
+  return h;
+}
+
+std::string header_names_hint(const std::vector<std::string>& fields) {
+  std::string out = "the header has: ";
+  for (std::size_t i = 0; i < fields.size() && i < 8; ++i) {
+    if (i) out += ", ";
+    out += in_quotes(fields[i]);
+  }
+  if (fields.size() > 8) out += ", ... (" + std::to_string(fields.size()) + " columns)";
+  return out;
+}
+
+// First pass over the chunks: count lines and records, find the label row (rows=features).
+void count_records(std::vector<Chunk>& chunks, const std::string& label_row, char delim,
+                   int threads) {
+#pragma omp parallel for schedule(dynamic, 1) num_threads(threads)
+  for (std::int64_t i = 0; i < static_cast<std::int64_t>(chunks.size()); ++i) {
+    Chunk& c = chunks[static_cast<std::size_t>(i)];
+    for_each_line(c, [&](const char* b, const char* e, std::int64_t line) {
+      c.lines = line;
+      if (b == e) return true;
+      if (!label_row.empty() && c.label_line == 0 && starts_with_field(b, e, label_row, delim)) {
+        c.label_line = line;
+        return true;
+      }
+      ++c.records;
+      return true;
+    });
+  }
+}
+
+std::int64_t number_chunks(std::vector<Chunk>& chunks, std::int64_t first_line) {
+  std::int64_t line = first_line, record = 0;
+  for (auto& c : chunks) {
+    c.first_line = line;
+    c.first_record = record;
+    line += c.lines;
+    record += c.records;
+  }
+  return record;
+}
+
+[[noreturn]] void rethrow_first(const std::string& path, const std::vector<Chunk>& chunks) {
+  for (const auto& c : chunks)
+    if (c.failure.set)
+      throw_input_error({path, c.failure.line, c.failure.column}, c.failure.what, c.failure.hint);
+  throw Error(ErrorKind::kOther, "internal: rethrow_first without a failure");
+}
+
+bool any_failure(const std::vector<Chunk>& chunks) {
+  for (const auto& c : chunks)
+    if (c.failure.set) return true;
+  return false;
+}
+
+void check_unique_sample_ids(const std::string& path, const std::vector<std::string>& ids,
+                             const std::vector<std::int64_t>& lines,
+                             const std::vector<std::int64_t>& columns) {
+  std::unordered_map<std::string_view, std::size_t> seen;
+  seen.reserve(ids.size() * 2);
+  for (std::size_t i = 0; i < ids.size(); ++i) {
+    const auto [it, fresh] = seen.emplace(ids[i], i);
+    if (!fresh) {
+      const std::string first = columns.empty()
+                                    ? "first seen on line " + std::to_string(lines[it->second])
+                                    : "first seen in column " + std::to_string(columns[it->second]);
+      throw_input_error({path, lines[i], columns.empty() ? 1 : columns[i]},
+                        "duplicate sample id " + in_quotes(ids[i]) + " (" + first + ")",
+                        "sample ids must be unique");
+    }
+  }
+}
+
+void check_labels_present(const std::string& path, const std::vector<std::string>& labels,
+                          const std::vector<std::string>& ids, const NaTokens& na,
+                          const std::vector<std::int64_t>& lines,
+                          const std::vector<std::int64_t>& columns) {
+  for (std::size_t i = 0; i < labels.size(); ++i)
+    if (na.contains(labels[i]))
+      throw_input_error({path, lines[i], columns[i]},
+                        "sample " + in_quotes(ids[i]) + " has no label",
+                        "give every sample a class, or leave the sample out");
+}
+
+FeatureTable read_rows_are_samples(const std::string& path, const std::string& text,
+                                   const Header& h, const ReadOptions& options) {
+  const char delim = h.delimiter;
+  const int threads = internal::thread_count(options.threads);
+  const NaTokens na(options.na_tokens);
+  const auto n_fields = static_cast<std::int64_t>(h.fields.size());
+
+  std::int64_t label_field = -1;
+  if (!options.label_column.empty()) {
+    for (std::int64_t j = 1; j < n_fields && label_field < 0; ++j)
+      if (h.fields[static_cast<std::size_t>(j)] == options.label_column) label_field = j;
+    if (label_field < 0)
+      throw_input_error({path, 1}, "no column named " + in_quotes(options.label_column) +
+                                       " for --label",
+                        header_names_hint(h.fields));
+  }
+  FeatureTable t;
+  t.source = path;
+  t.delimiter = delim;
+  t.layout = Layout::kRowsAreSamples;
+  t.label_name = options.label_column;
+  // field index -> feature index (-1 for the id and the label column)
+  std::vector<std::int64_t> feature_of(static_cast<std::size_t>(n_fields), -1);
+  for (std::int64_t j = 1; j < n_fields; ++j) {
+    if (j == label_field) continue;
+    feature_of[static_cast<std::size_t>(j)] = static_cast<std::int64_t>(t.feature_names.size());
+    t.feature_names.push_back(h.fields[static_cast<std::size_t>(j)]);
+  }
+  const auto p = static_cast<std::int64_t>(t.feature_names.size());
+  if (p == 0)
+    throw_input_error({path, 1}, "the header names no feature columns",
+                      "the first column holds sample ids, the others features");
+
+  const char* end = text.data() + text.size();
+  auto chunks = cut_chunks(h.data_begin, end);
+  count_records(chunks, {}, delim, threads);
+  const std::int64_t n = number_chunks(chunks, 2);
+  if (n == 0)
+    throw_input_error({path, 2, 1}, "no data lines after the header",
+                      "each sample needs a line of values");
+
+  t.values.resize(n, p);
+  t.sample_ids.resize(static_cast<std::size_t>(n));
+  if (label_field >= 0) t.labels.resize(static_cast<std::size_t>(n));
+  std::vector<std::int64_t> record_lines(static_cast<std::size_t>(n));
+  std::vector<std::int64_t> label_columns(label_field >= 0 ? static_cast<std::size_t>(n) : 0);
+  const CellContext ctx{delim, &na, options.allow_inf};
+  float* const out = t.values.data();
+
+#pragma omp parallel for schedule(dynamic, 1) num_threads(threads)
+  for (std::int64_t ci = 0; ci < static_cast<std::int64_t>(chunks.size()); ++ci) {
+    Chunk& c = chunks[static_cast<std::size_t>(ci)];
+    std::vector<float> block(static_cast<std::size_t>(kRowBlock * p));
+    std::int64_t block_first = c.first_record;  // record index of block row 0
+    std::int64_t in_block = 0;
+    auto flush = [&]() {
+      for (std::int64_t j = 0; j < p; ++j)
+        std::copy_n(block.data() + j * kRowBlock, in_block, out + j * n + block_first);
+      block_first += in_block;
+      in_block = 0;
+    };
+    std::int64_t record = c.first_record;
+    for_each_line(c, [&](const char* b, const char* e, std::int64_t local_line) {
+      if (b == e) return true;
+      const std::int64_t line = c.first_line + local_line - 1;
+      record_lines[static_cast<std::size_t>(record)] = line;
+      const char* q = b;
+      read_text_field(q, e, delim, t.sample_ids[static_cast<std::size_t>(record)]);
+      float* row = block.data() + in_block;
+      for (std::int64_t j = 1; j < n_fields; ++j) {
+        if (q >= e) {
+          fail(c.failure, line, q - b + 1,
+               "line has " + std::to_string(j) + " fields, the header has " +
+                   std::to_string(n_fields),
+               "every line needs one field per header column");
+          return false;
+        }
+        ++q;  // the delimiter
+        const std::int64_t f = feature_of[static_cast<std::size_t>(j)];
+        if (f < 0) {
+          label_columns[static_cast<std::size_t>(record)] = q - b + 1;
+          read_text_field(q, e, delim, t.labels[static_cast<std::size_t>(record)]);
+          continue;
+        }
+        const char* cell = q;
+        float v;
+        const CellStatus s = parse_cell(q, e, ctx, v);
+        if (s != CellStatus::kOk) {
+          fail_cell(c.failure, s, line, b, cell, q, t.feature_names[static_cast<std::size_t>(f)], na);
+          return false;
+        }
+        row[f * kRowBlock] = v;
+      }
+      if (q < e) {
+        fail(c.failure, line, q - b + 1,
+             "line has more fields than the header's " + std::to_string(n_fields),
+             "every line needs one field per header column");
+        return false;
+      }
+      ++record;
+      if (++in_block == kRowBlock) flush();
+      return true;
+    });
+    if (!c.failure.set && in_block > 0) flush();
+  }
+  if (any_failure(chunks)) rethrow_first(path, chunks);
+  check_unique_sample_ids(path, t.sample_ids, record_lines, {});
+  if (label_field >= 0) check_labels_present(path, t.labels, t.sample_ids, na, record_lines, label_columns);
+  return t;
+}
+
+FeatureTable read_rows_are_features(const std::string& path, const std::string& text,
+                                    const Header& h, const ReadOptions& options) {
+  const char delim = h.delimiter;
+  const int threads = internal::thread_count(options.threads);
+  const NaTokens na(options.na_tokens);
+  const auto n_fields = static_cast<std::int64_t>(h.fields.size());
+  const std::int64_t n = n_fields - 1;
+  if (n <= 0)
+    throw_input_error({path, 1}, "the header names no sample columns",
+                      "with --layout rows=features the header lists the sample ids");
+
+  FeatureTable t;
+  t.source = path;
+  t.delimiter = delim;
+  t.layout = Layout::kRowsAreFeatures;
+  t.label_name = options.label_column;
+  t.sample_ids.assign(h.fields.begin() + 1, h.fields.end());
+  {
+    std::vector<std::int64_t> lines(static_cast<std::size_t>(n), 1), columns(static_cast<std::size_t>(n));
+    // Column of each header field, counted in bytes from the line start.
+    std::int64_t col = 1;
+    for (std::int64_t j = 0; j < n_fields; ++j) {
+      if (j > 0) columns[static_cast<std::size_t>(j - 1)] = col;
+      col += static_cast<std::int64_t>(h.fields[static_cast<std::size_t>(j)].size()) + 1;
+    }
+    check_unique_sample_ids(path, t.sample_ids, lines, columns);
+  }
+
+  const char* end = text.data() + text.size();
+  auto chunks = cut_chunks(h.data_begin, end);
+  count_records(chunks, options.label_column, delim, threads);
+  const std::int64_t p = number_chunks(chunks, 2);
+  std::int64_t label_line = 0;
+  const Chunk* label_chunk = nullptr;
+  for (const auto& c : chunks) {
+    if (c.label_line == 0) continue;
+    if (label_line != 0)
+      throw_input_error({path, c.first_line + c.label_line - 1, 1},
+                        "a second line of labels named " + in_quotes(options.label_column),
+                        "first seen on line " + std::to_string(label_line));
+    label_line = c.first_line + c.label_line - 1;
+    label_chunk = &c;
+  }
+  if (!options.label_column.empty() && label_line == 0)
+    throw_input_error({path}, "no line starts with " + in_quotes(options.label_column) + " for --label",
+                      "with --layout rows=features the labels are a line whose first field is "
+                      "that name");
+  if (p == 0)
+    throw_input_error({path, 2, 1}, "no data lines after the header",
+                      "each feature needs a line of values");
+
+  t.values.resize(n, p);
+  t.feature_names.resize(static_cast<std::size_t>(p));
+  const CellContext ctx{delim, &na, options.allow_inf};
+  float* const out = t.values.data();
+  std::vector<std::int64_t> label_columns;
+
+#pragma omp parallel for schedule(dynamic, 1) num_threads(threads)
+  for (std::int64_t ci = 0; ci < static_cast<std::int64_t>(chunks.size()); ++ci) {
+    Chunk& c = chunks[static_cast<std::size_t>(ci)];
+    std::int64_t record = c.first_record;
+    for_each_line(c, [&](const char* b, const char* e, std::int64_t local_line) {
+      if (b == e) return true;
+      const std::int64_t line = c.first_line + local_line - 1;
+      const char* q = b;
+      if (&c == label_chunk && local_line == c.label_line) {
+        std::vector<std::string> fields = split_fields(std::string_view(b, static_cast<std::size_t>(e - b)), delim);
+        if (static_cast<std::int64_t>(fields.size()) != n_fields) {
+          fail(c.failure, line, e - b + 1,
+               "the label line has " + std::to_string(fields.size()) + " fields, the header has " +
+                   std::to_string(n_fields),
+               "give one label per sample");
+          return false;
+        }
+        t.labels.assign(fields.begin() + 1, fields.end());
+        label_columns.assign(static_cast<std::size_t>(n), 1);
+        std::int64_t col = static_cast<std::int64_t>(fields[0].size()) + 2;
+        for (std::int64_t j = 0; j < n; ++j) {
+          label_columns[static_cast<std::size_t>(j)] = col;
+          col += static_cast<std::int64_t>(fields[static_cast<std::size_t>(j + 1)].size()) + 1;
+        }
+        return true;
+      }
+      std::string& name = t.feature_names[static_cast<std::size_t>(record)];
+      read_text_field(q, e, delim, name);
+      float* column = out + record * n;
+      for (std::int64_t i = 0; i < n; ++i) {
+        if (q >= e) {
+          fail(c.failure, line, q - b + 1,
+               "line has " + std::to_string(i + 1) + " fields, the header has " +
+                   std::to_string(n_fields),
+               "every line needs one value per sample in the header");
+          return false;
+        }
+        ++q;
+        const char* cell = q;
+        const CellStatus s = parse_cell(q, e, ctx, column[i]);
+        if (s != CellStatus::kOk) {
+          fail_cell(c.failure, s, line, b, cell, q, name, na);
+          return false;
+        }
+      }
+      if (q < e) {
+        fail(c.failure, line, q - b + 1,
+             "line has more fields than the header's " + std::to_string(n_fields),
+             "every line needs one value per sample in the header");
+        return false;
+      }
+      ++record;
+      return true;
+    });
+  }
+  if (any_failure(chunks)) rethrow_first(path, chunks);
+  if (!t.labels.empty()) {
+    std::vector<std::int64_t> lines(static_cast<std::size_t>(n), label_line);
+    check_labels_present(path, t.labels, t.sample_ids, na, lines, label_columns);
+  }
+  return t;
+}
+
+}  // namespace
+
+FeatureTable read_table(const std::string& path, const ReadOptions& options) {
+  const std::string text = read_file_text(path);
+  const Header h = read_header(path, text, options.delimiter);
+  if (options.layout == Layout::kRowsAreSamples)
+    return read_rows_are_samples(path, text, h, options);
+  return read_rows_are_features(path, text, h, options);
+}
+
+SampleSheet read_sample_sheet(const std::string& spec, char delimiter) {
+  SampleSheet sheet;
+  sheet.path = spec;
+  // FILE[:COLUMN]: a path that exists as written wins over splitting at the last colon.
+  std::error_code ec;
+  if (!std::filesystem::exists(spec, ec)) {
+    const auto colon = spec.rfind(':');
+    if (colon != std::string::npos && colon > 0) {
+      sheet.path = spec.substr(0, colon);
+      sheet.column = spec.substr(colon + 1);
+    }
+  }
+  const std::string text = read_file_text(sheet.path);
+  const Header h = read_header(sheet.path, text, delimiter);
+  if (h.fields.size() < 2)
+    throw_input_error({sheet.path, 1}, "a sample sheet needs at least two columns",
+                      "first the sample id, then the label");
+  std::size_t label_field = 1;
+  if (!sheet.column.empty()) {
+    const auto it = std::find(h.fields.begin() + 1, h.fields.end(), sheet.column);
+    if (it == h.fields.end())
+      throw_input_error({sheet.path, 1}, "the sample sheet has no column named " + in_quotes(sheet.column),
+                        header_names_hint(h.fields));
+    label_field = static_cast<std::size_t>(it - h.fields.begin());
+  } else {
+    sheet.column = h.fields[1];
+  }
+  const NaTokens na(default_na_tokens());
+  const char* p = h.data_begin;
+  const char* end = text.data() + text.size();
+  std::int64_t line = 1;
+  std::unordered_map<std::string, std::int64_t> seen;
+  while (p < end) {
+    const char* nl = static_cast<const char*>(std::memchr(p, '\n', static_cast<std::size_t>(end - p)));
+    const char* e = nl ? nl : end;
+    ++line;
+    const std::string_view text_line = strip_cr(std::string_view(p, static_cast<std::size_t>(e - p)));
+    p = nl ? nl + 1 : end;
+    if (text_line.empty()) continue;
+    auto fields = split_fields(text_line, h.delimiter);
+    if (fields.size() != h.fields.size())
+      throw_input_error({sheet.path, line, static_cast<std::int64_t>(text_line.size()) + 1},
+                        "line has " + std::to_string(fields.size()) + " fields, the header has " +
+                            std::to_string(h.fields.size()),
+                        "every line needs one field per header column");
+    const auto [it, fresh] = seen.emplace(fields[0], line);
+    if (!fresh)
+      throw_input_error({sheet.path, line, 1},
+                        "duplicate sample id " + in_quotes(fields[0]) + " (first seen on line " +
+                            std::to_string(it->second) + ")",
+                        "each sample may appear once in the sample sheet");
+    if (na.contains(fields[label_field]))
+      throw_input_error({sheet.path, line, 1}, "sample " + in_quotes(fields[0]) + " has no label in column " +
+                                                   in_quotes(sheet.column),
+                        "give every sample a class, or leave the sample out");
+    sheet.ids.push_back(std::move(fields[0]));
+    sheet.labels.push_back(std::move(fields[label_field]));
+    sheet.lines.push_back(line);
+  }
+  if (sheet.ids.empty())
+    throw_input_error({sheet.path, 2, 1}, "the sample sheet has no lines after the header",
+                      "one line per sample: id, then label");
+  return sheet;
+}
+
+void attach_labels(FeatureTable& table, const SampleSheet& sheet) {
+  std::unordered_map<std::string_view, std::size_t> by_id;
+  by_id.reserve(sheet.ids.size() * 2);
+  for (std::size_t i = 0; i < sheet.ids.size(); ++i) by_id.emplace(sheet.ids[i], i);
+  std::vector<std::string> labels(table.sample_ids.size());
+  std::vector<std::string> unmatched;
+  std::size_t n_unmatched = 0;
+  for (std::size_t i = 0; i < table.sample_ids.size(); ++i) {
+    const auto it = by_id.find(table.sample_ids[i]);
+    if (it == by_id.end()) {
+      if (unmatched.size() < 5) unmatched.push_back(in_quotes(table.sample_ids[i]));
+      ++n_unmatched;
+      continue;
+    }
+    labels[i] = sheet.labels[it->second];
+  }
+  if (n_unmatched == table.sample_ids.size())
+    throw_input_error({sheet.path}, "no sample id in the sample sheet matches a sample of " + table.source,
+                      "sheet ids look like " + in_quotes(sheet.ids.front()) + ", data ids like " +
+                          in_quotes(table.sample_ids.front()) +
+                          "; check the layout and the sheet's first column");
+  if (n_unmatched > 0) {
+    std::string names;
+    for (const auto& u : unmatched) names += (names.empty() ? "" : ", ") + u;
+    if (n_unmatched > unmatched.size()) names += ", ...";
+    throw_input_error({sheet.path},
+                      std::to_string(n_unmatched) + " of " + std::to_string(table.sample_ids.size()) +
+                          " samples of " + table.source + " are not in the sample sheet: " + names,
+                      "add them to the sheet or remove them from the data");
+  }
+  table.labels = std::move(labels);
+  table.label_name = sheet.column;
+}
+
+ClassCodes encode_classes(const std::vector<std::string>& labels) {
+  ClassCodes codes;
+  codes.classes = labels;
+  std::sort(codes.classes.begin(), codes.classes.end());
+  codes.classes.erase(std::unique(codes.classes.begin(), codes.classes.end()), codes.classes.end());
+  codes.counts.assign(codes.classes.size(), 0);
+  codes.codes.reserve(labels.size());
+  for (const auto& l : labels) {
+    const auto k = static_cast<int>(
+        std::lower_bound(codes.classes.begin(), codes.classes.end(), l) - codes.classes.begin());
+    codes.codes.push_back(k);
+    ++codes.counts[static_cast<std::size_t>(k)];
+  }
+  return codes;
+}
+
+// ---- output ----------------------------------------------------------------------------------
+
+namespace {
+std::atomic<unsigned> temp_counter{0};
+}
+
+OutputFile::OutputFile(std::string path) : path_(std::move(path)) {
+  const std::filesystem::path final_path(path_);
+  const std::string base = final_path.filename().string();
+  temp_path_ = (final_path.parent_path() /
+                ("." + base + ".part-" + std::to_string(::getpid()) + "-" +
+                 std::to_string(temp_counter++)))
+                   .string();
+  fd_ = ::open(temp_path_.c_str(), O_WRONLY | O_CREAT | O_EXCL | O_CLOEXEC, 0644);
+  if (fd_ < 0)
+    throw_output_error(path_, std::string("cannot create the output file: ") + std::strerror(errno),
+                       "check that the folder exists and is writable");
+}
+
+OutputFile::~OutputFile() {
+  if (committed_) return;
+  if (fd_ >= 0) ::close(fd_);
+  ::unlink(temp_path_.c_str());
+}
+
+void OutputFile::write(std::string_view bytes) {
+  while (!bytes.empty()) {
+    const ssize_t put = ::write(fd_, bytes.data(), bytes.size());
+    if (put < 0) {
+      if (errno == EINTR) continue;
+      throw_output_error(path_, std::string("cannot write: ") + std::strerror(errno),
+                         "check free disk space");
+    }
+    bytes.remove_prefix(static_cast<std::size_t>(put));
+  }
+}
+
+void OutputFile::write_gzip(std::string_view bytes, int level) { write(internal::gzip(bytes, level)); }
+
+void OutputFile::commit() {
+  if (::close(fd_) != 0) {
+    fd_ = -1;
+    throw_output_error(path_, std::string("cannot finish writing: ") + std::strerror(errno));
+  }
+  fd_ = -1;
+  if (::rename(temp_path_.c_str(), path_.c_str()) != 0)
+    throw_output_error(path_, std::string("cannot move the finished file into place: ") +
+                                  std::strerror(errno));
+  committed_ = true;
+}
+
+void write_file_atomically(const std::string& path, std::string_view content) {
+  OutputFile f(path);
+  f.write(content);
+  f.commit();
+}
+
+void ensure_directory(const std::string& path) {
+  std::error_code ec;
+  std::filesystem::create_directories(path, ec);
+  if (ec) throw_output_error(path, "cannot create the output folder: " + ec.message());
+  if (!std::filesystem::is_directory(path, ec))
+    throw_output_error(path, "is not a folder", "choose another --out");
+}
+
+}  // namespace pare
