@@ -2,6 +2,7 @@
 
 #include <algorithm>  // std::max_element, std::min_element
 #include <chrono>     // std::chrono::steady_clock
+#include <cmath>      // std::isinf, std::abs
 #include <cstdio>     // std::snprintf
 #include <new>        // std::bad_alloc
 
@@ -10,6 +11,7 @@
 #include "pare/error.h"
 #include "pare/io.h"
 #include "pare/profile.h"
+#include "pare/ranking.h"
 
 namespace pare::cli {
 
@@ -22,6 +24,7 @@ constexpr const char* kUsage =
     "\n"
     "commands:\n"
     "  scan DATA   profile a matrix: missingness, variance, flagged features, class balance\n"
+    "  rank DATA   score every feature against the class label and rank them\n"
     "  demo        generate the greenhouse drought-trial demo data and scan it\n"
     "\n"
     "'pare COMMAND --help' lists a command's options; 'pare --version' prints the version.\n";
@@ -159,6 +162,116 @@ int command_demo(const std::vector<std::string>& args, std::ostream& out) {
   return scan_and_report(input, common, out);
 }
 
+std::string short_number(double v) {
+  std::string out;
+  char buffer[32];
+  if (std::isinf(v)) return "inf";
+  if (v != 0 && (std::abs(v) < 1e-3 || std::abs(v) >= 1e6))
+    std::snprintf(buffer, sizeof buffer, "%.3g", v);
+  else
+    std::snprintf(buffer, sizeof buffer, "%.4g", v);
+  return buffer;
+}
+
+// Prints rows as a table, each column padded to its widest cell; the first `left` columns are
+// left-aligned, the rest right-aligned.
+void print_table(std::ostream& out, const std::vector<std::vector<std::string>>& rows, std::size_t left) {
+  std::vector<std::size_t> width;
+  for (const auto& row : rows)
+    for (std::size_t c = 0; c < row.size(); ++c) {
+      if (width.size() <= c) width.push_back(0);
+      width[c] = std::max(width[c], row[c].size());
+    }
+  for (const auto& row : rows) {
+    out << " ";
+    for (std::size_t c = 0; c < row.size(); ++c) {
+      const std::string pad(width[c] - row[c].size(), ' ');
+      out << "  " << (c < left ? row[c] + pad : pad + row[c]);
+    }
+    out << "\n";
+  }
+}
+
+int command_rank(const std::vector<std::string>& args, std::ostream& out) {
+  CommonOptions common;
+  InputOptions input;
+  std::string rank_by = "mi", estimator = "binned";
+  double fdr = 1.0;
+  std::int64_t keep = 0;
+  ScoreOptions score;
+  po::options_description desc(
+      "pare rank DATA (--label COLUMN | --labels SHEET[:COLUMN]) [options]\n\n"
+      "Scores every feature against the class label (binned mutual information, chi-square test,\n"
+      "one-way ANOVA F, Benjamini-Hochberg q-values) and writes ranking.tsv, best first.\n\noptions");
+  desc.add_options()("data", po::value(&input.data)->required(), "the data file (CSV/TSV, may be gzip)")
+      ("rank-by", po::value(&rank_by)->default_value("mi"), "mi, chi2, chi2-counts, f or variance")
+      ("fdr", po::value(&fdr), "keep features whose q-value for the ranking test is at most Q")
+      ("keep", po::value(&keep)->default_value(0), "keep the first K features (0 = all)")
+      ("bins", po::value(&score.bins)->default_value(10), "equal-frequency bins for mi and chi2")
+      ("mi-estimator", po::value(&estimator)->default_value("binned"), "binned or knn")
+      ("neighbors", po::value(&score.neighbors)->default_value(3), "k of the knn estimator");
+  add_input_options(desc, input);
+  add_common_options(desc, common, ".");
+  po::positional_options_description positional;
+  positional.add("data", 1);
+  std::string help;
+  if (!parse_command_line(args, desc, positional, help)) {
+    out << help;
+    return 0;
+  }
+  const Criterion criterion = parse_criterion(rank_by);
+  if (estimator == "knn") score.mi = MiEstimator::kKnn;
+  else if (estimator != "binned") throw_usage_error("--mi-estimator " + estimator + " is not binned or knn");
+  if (!(fdr > 0 && fdr <= 1)) throw_usage_error("--fdr must be in (0, 1]");
+  if (keep < 0) throw_usage_error("--keep must be 0 (all) or more");
+  if (input.label.empty() && input.labels.empty())
+    throw_usage_error("rank needs class labels", "give --label COLUMN or --labels SHEET.csv[:COLUMN]");
+  score.counts_chi2 = criterion == Criterion::kChi2Counts;
+  score.threads = common.threads;
+
+  const FeatureTable table = load_table(input, common);
+  const ClassCodes classes = encode_classes(table.labels);
+  std::vector<std::int64_t> all(static_cast<std::size_t>(table.n_features()));
+  for (std::size_t j = 0; j < all.size(); ++j) all[j] = static_cast<std::int64_t>(j);
+  const FeatureScores scores = score_features(table.values, all, classes, score);
+  std::vector<std::size_t> order;
+  for (std::size_t i : rank_order(scores, criterion)) {
+    if (criterion != Criterion::kVariance && criterion_q(scores, criterion, i) > fdr) continue;
+    if (keep > 0 && static_cast<std::int64_t>(order.size()) >= keep) break;
+    order.push_back(i);
+  }
+  ensure_directory(common.out);
+  const std::string path = join_path(common.out, "ranking.tsv");
+  write_file_atomically(path, ranking_tsv(scores, order, table.feature_names, score.counts_chi2));
+  if (common.quiet) return 0;
+
+  out << "pare rank: " << table.source << " - " << thousands(table.n_features()) << " features, "
+      << thousands(table.n_samples()) << " samples, " << classes.classes.size() << " classes, ranked by "
+      << criterion_name(criterion) << "\n";
+  std::vector<std::vector<std::string>> rows;
+  rows.push_back({"rank", "feature", "mi", "chi2", "chi2_q", "f", "f_q"});
+  if (score.counts_chi2) rows.front().insert(rows.front().end(), {"chi2_counts", "counts_q"});
+  for (std::size_t r = 0; r < order.size() && r < 20; ++r) {
+    const std::size_t i = order[r];
+    std::vector<std::string> row{std::to_string(r + 1), table.feature_names[static_cast<std::size_t>(scores.feature[i])],
+                                 short_number(scores.mi[i]), short_number(scores.chi2[i]),
+                                 short_number(scores.chi2_q[i]), short_number(scores.f[i]), short_number(scores.f_q[i])};
+    if (score.counts_chi2) {
+      row.push_back(short_number(scores.counts[i]));
+      row.push_back(short_number(scores.counts_q[i]));
+    }
+    rows.push_back(std::move(row));
+  }
+  print_table(out, rows, 2);
+  std::int64_t flagged = 0;
+  for (auto f : scores.flags) flagged += (f & (kScoreFewValues | kScoreConstant)) != 0;
+  out << "  kept " << thousands(static_cast<std::int64_t>(order.size())) << " of " << thousands(table.n_features());
+  if (fdr < 1) out << " (q <= " << short_number(fdr) << ")";
+  out << "; " << thousands(flagged) << " constant or too sparse to score (scores 0, p 1)\n";
+  out << "  wrote " << path << "\n";
+  return 0;
+}
+
 }  // namespace
 
 int run(const std::vector<std::string>& args, std::ostream& out, std::ostream& err) {
@@ -178,8 +291,9 @@ int run(const std::vector<std::string>& args, std::ostream& out, std::ostream& e
       return 0;
     }
     if (command == "scan") return command_scan(rest, out);
+    if (command == "rank") return command_rank(rest, out);
     if (command == "demo") return command_demo(rest, out);
-    throw_usage_error("unknown command '" + command + "'", "commands: scan, demo; see pare --help");
+    throw_usage_error("unknown command '" + command + "'", "commands: scan, rank, demo; see pare --help");
   } catch (const Error& e) {
     err << "pare: error: " << e.what() << "\n";
     return static_cast<int>(e.kind());

@@ -1,0 +1,102 @@
+// Scoring every feature against a class label, multiple-testing control and ranking.
+#pragma once
+
+#include <cstdint>  // std::int64_t, std::uint8_t
+#include <span>     // std::span
+#include <string>   // std::string
+#include <vector>   // std::vector
+
+#include "pare/matrix.h"
+#include "pare/stats.h"
+
+namespace pare {
+
+/// What to rank features by.
+enum class Criterion { kMi, kChi2, kChi2Counts, kF, kVariance };
+
+/// Parses mi|chi2|chi2-counts|f|variance; throws Error(kUsage) otherwise.
+Criterion parse_criterion(const std::string& name);
+const char* criterion_name(Criterion c);
+
+/// How mutual information is estimated.
+enum class MiEstimator {
+  kBinned,  ///< plug-in estimate on equal-frequency bins (SPEC §4), nats
+  kKnn,     ///< nearest-neighbour estimator for a continuous feature against a discrete label
+            ///< (Ross 2014, PLoS ONE 9(2): e87357), nats
+};
+
+struct ScoreOptions {
+  int bins = 10;            ///< equal-frequency bins for MI and the chi-square test, >= 2
+  MiEstimator mi = MiEstimator::kBinned;
+  int neighbors = 3;        ///< k of the kNN estimator, >= 1
+  bool counts_chi2 = false; ///< also compute the counts chi-square (non-negative features only)
+  int threads = 0;
+};
+
+/// Flags of a feature's scores (bits).
+enum ScoreFlag : std::uint8_t {
+  kScoreFewValues = 1,  ///< some class has fewer than 2 observed values: scores 0, p-values 1
+  kScoreConstant = 2,   ///< zero variance over the observed values: scores 0, p-values 1
+  kScoreSeparates = 4,  ///< zero variance inside every class but not overall: F is infinite
+};
+
+/// Scores of the scored features (parallel arrays, one entry per scored feature).
+struct FeatureScores {
+  std::vector<std::int64_t> feature;    ///< column index in the matrix
+  std::vector<double> mi;               ///< nats
+  std::vector<double> chi2, chi2_p, chi2_q, chi2_bonferroni;
+  std::vector<int> chi2_df;
+  std::vector<double> f, f_p, f_q, f_bonferroni;
+  std::vector<double> counts, counts_p, counts_q, counts_bonferroni;  ///< when counts_chi2
+  std::vector<double> variance, missing_rate;
+  std::vector<std::uint8_t> flags;
+  std::size_t size() const { return feature.size(); }
+};
+
+/// Equal-frequency bin of every value (SPEC §4): value x of n gets floor(bins * L(x) / n), L(x) the
+/// number of values strictly less than x, so ties share a bin. `values` must hold no NaN.
+std::vector<int> equal_frequency_bins(std::span<const double> values, int bins);
+
+/// Plug-in mutual information (nats) of a contingency table given row-major, rows x cols.
+double mutual_information(std::span<const double> table, int rows, int cols);
+
+/// Pearson chi-square statistic of a contingency table after dropping empty rows and columns;
+/// `df` receives (rows'-1)(cols'-1).
+double pearson_chi2(std::span<const double> table, int rows, int cols, int& df);
+
+/// Upper tail of the chi-square distribution with `df` degrees of freedom (Boost.Math).
+double chi2_upper_tail(double statistic, double df);
+/// Upper tail of the F distribution (Boost.Math).
+double f_upper_tail(double statistic, double df1, double df2);
+
+/// The nearest-neighbour MI estimate (nats) of continuous `x` against class codes `y`
+/// (0..classes-1), as CHECKS.md §5 states it; points alone in their class are left out.
+double knn_mutual_information(std::span<const double> x, std::span<const int> y, int classes, int k);
+
+/// Benjamini–Hochberg step-up adjusted p-values (q-values), in the order of `p`.
+std::vector<double> bh_adjust(std::span<const double> p);
+/// Bonferroni-adjusted p-values: min(1, m p).
+std::vector<double> bonferroni_adjust(std::span<const double> p);
+
+/// Scores the columns `features` of `m` against `classes` (one code per row of `m`), in parallel
+/// over features. Results do not depend on the thread count. Needs at least 2 classes.
+FeatureScores score_features(const Matrix& m, std::span<const std::int64_t> features,
+                             const ClassCodes& classes, const ScoreOptions& options);
+
+/// The positions 0..size-1 of `scores` in ranking order for `criterion`: score descending, ties in
+/// input order.
+std::vector<std::size_t> rank_order(const FeatureScores& scores, Criterion criterion);
+
+/// The score and q-value a criterion ranks by and filters on (--fdr): mi uses the chi-square test
+/// on the same bins.
+double criterion_score(const FeatureScores& s, Criterion c, std::size_t i);
+double criterion_q(const FeatureScores& s, Criterion c, std::size_t i);
+
+/// ranking.tsv for the positions `order` (rank = position in `order` + 1).
+std::string ranking_tsv(const FeatureScores& scores, std::span<const std::size_t> order,
+                        const std::vector<std::string>& feature_names, bool with_counts);
+
+/// The flags as text, comma-separated (empty when none).
+std::string score_flag_names(std::uint8_t flags);
+
+}  // namespace pare

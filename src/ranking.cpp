@@ -1,0 +1,474 @@
+#include "pare/ranking.h"
+
+#include <boost/math/distributions/chi_squared.hpp>
+#include <boost/math/distributions/fisher_f.hpp>
+#include <boost/math/special_functions/digamma.hpp>
+
+#include <algorithm>  // std::sort, std::stable_sort, std::partition_point
+#include <bit>        // std::bit_cast
+#include <cmath>      // std::log, std::isnan, std::isinf
+#include <limits>     // std::numeric_limits
+#include <numeric>    // std::iota
+
+#include "internal/format.h"
+#include "internal/omp.h"
+#include "pare/error.h"
+
+namespace pare {
+
+namespace {
+
+constexpr double kInf = std::numeric_limits<double>::infinity();
+
+// Maps a float to an unsigned key with the same order (negative values flipped), so a sort of
+// (key << 32 | row) sorts by value with ties in row order. -0 is folded into +0 first: the two
+// compare equal and must share a bin.
+std::uint32_t order_key(float v) {
+  const auto u = std::bit_cast<std::uint32_t>(v + 0.0f);
+  return (u & 0x80000000u) ? ~u : (u | 0x80000000u);
+}
+
+}  // namespace
+
+Criterion parse_criterion(const std::string& name) {
+  if (name == "mi") return Criterion::kMi;
+  if (name == "chi2") return Criterion::kChi2;
+  if (name == "chi2-counts") return Criterion::kChi2Counts;
+  if (name == "f") return Criterion::kF;
+  if (name == "variance") return Criterion::kVariance;
+  throw_usage_error("--rank-by " + name + " is not one of mi, chi2, chi2-counts, f, variance");
+}
+
+const char* criterion_name(Criterion c) {
+  switch (c) {
+    case Criterion::kMi: return "mi";
+    case Criterion::kChi2: return "chi2";
+    case Criterion::kChi2Counts: return "chi2-counts";
+    case Criterion::kF: return "f";
+    case Criterion::kVariance: break;
+  }
+  return "variance";
+}
+
+std::vector<int> equal_frequency_bins(std::span<const double> values, int bins) {
+  const std::size_t n = values.size();
+  std::vector<std::size_t> order(n);
+  std::iota(order.begin(), order.end(), std::size_t{0});
+  std::stable_sort(order.begin(), order.end(),
+                   [&](std::size_t a, std::size_t b) { return values[a] < values[b]; });
+  std::vector<int> bin(n);
+  std::size_t start = 0;  // L(x): values strictly less than the current run
+  for (std::size_t i = 0; i < n; ++i) {
+    if (i > 0 && values[order[i]] != values[order[i - 1]]) start = i;
+    bin[order[i]] = static_cast<int>(static_cast<std::uint64_t>(bins) * start / n);
+  }
+  return bin;
+}
+
+double mutual_information(std::span<const double> table, int rows, int cols) {
+  std::vector<double> row_sum(static_cast<std::size_t>(rows), 0.0), col_sum(static_cast<std::size_t>(cols), 0.0);
+  double total = 0;
+  for (int r = 0; r < rows; ++r)
+    for (int c = 0; c < cols; ++c) {
+      const double v = table[static_cast<std::size_t>(r * cols + c)];
+      row_sum[static_cast<std::size_t>(r)] += v;
+      col_sum[static_cast<std::size_t>(c)] += v;
+      total += v;
+    }
+  if (total <= 0) return 0;
+  double mi = 0;
+  for (int r = 0; r < rows; ++r)
+    for (int c = 0; c < cols; ++c) {
+      const double v = table[static_cast<std::size_t>(r * cols + c)];
+      if (v <= 0) continue;
+      mi += v / total *
+            std::log(v * total / (row_sum[static_cast<std::size_t>(r)] * col_sum[static_cast<std::size_t>(c)]));
+    }
+  return std::max(0.0, mi);
+}
+
+double pearson_chi2(std::span<const double> table, int rows, int cols, int& df) {
+  std::vector<double> row_sum(static_cast<std::size_t>(rows), 0.0), col_sum(static_cast<std::size_t>(cols), 0.0);
+  double total = 0;
+  for (int r = 0; r < rows; ++r)
+    for (int c = 0; c < cols; ++c) {
+      const double v = table[static_cast<std::size_t>(r * cols + c)];
+      row_sum[static_cast<std::size_t>(r)] += v;
+      col_sum[static_cast<std::size_t>(c)] += v;
+      total += v;
+    }
+  int used_rows = 0, used_cols = 0;
+  for (double v : row_sum) used_rows += v > 0;
+  for (double v : col_sum) used_cols += v > 0;
+  df = std::max(0, (used_rows - 1) * (used_cols - 1));
+  if (df == 0) return 0;
+  double chi2 = 0;
+  for (int r = 0; r < rows; ++r) {
+    if (row_sum[static_cast<std::size_t>(r)] <= 0) continue;
+    for (int c = 0; c < cols; ++c) {
+      if (col_sum[static_cast<std::size_t>(c)] <= 0) continue;
+      const double expected = row_sum[static_cast<std::size_t>(r)] * col_sum[static_cast<std::size_t>(c)] / total;
+      const double d = table[static_cast<std::size_t>(r * cols + c)] - expected;
+      chi2 += d * d / expected;
+    }
+  }
+  return chi2;
+}
+
+double chi2_upper_tail(double statistic, double df) {
+  if (!(df > 0) || !(statistic > 0)) return 1.0;
+  if (std::isinf(statistic)) return 0.0;
+  return boost::math::cdf(boost::math::complement(boost::math::chi_squared_distribution<double>(df), statistic));
+}
+
+double f_upper_tail(double statistic, double df1, double df2) {
+  if (!(df1 > 0) || !(df2 > 0) || !(statistic > 0)) return 1.0;
+  if (std::isinf(statistic)) return 0.0;
+  return boost::math::cdf(boost::math::complement(boost::math::fisher_f_distribution<double>(df1, df2), statistic));
+}
+
+double knn_mutual_information(std::span<const double> x, std::span<const int> y, int classes, int k) {
+  // Points alone in their class carry no neighbour information and are left out (N shrinks).
+  std::vector<std::int64_t> count(static_cast<std::size_t>(classes), 0);
+  for (int c : y) ++count[static_cast<std::size_t>(c)];
+  std::vector<std::vector<double>> by_class(static_cast<std::size_t>(classes));
+  std::vector<double> all;
+  all.reserve(x.size());
+  for (std::size_t i = 0; i < x.size(); ++i) {
+    if (count[static_cast<std::size_t>(y[i])] < 2) continue;
+    by_class[static_cast<std::size_t>(y[i])].push_back(x[i]);
+    all.push_back(x[i]);
+  }
+  const auto n = static_cast<std::int64_t>(all.size());
+  if (n == 0) return 0;
+  std::sort(all.begin(), all.end());
+  for (auto& v : by_class) std::sort(v.begin(), v.end());
+
+  using boost::math::digamma;
+  double sum_psi_k = 0, sum_psi_class = 0, sum_psi_m = 0;
+  for (const auto& members : by_class) {
+    const auto size = static_cast<std::int64_t>(members.size());
+    if (size < 2) continue;
+    const std::int64_t ki = std::min<std::int64_t>(k, size - 1);
+    const double psi_k = digamma(static_cast<double>(ki));
+    const double psi_class = digamma(static_cast<double>(size));
+    for (std::int64_t pos = 0; pos < size; ++pos) {
+      const double xi = members[static_cast<std::size_t>(pos)];
+      // Distance to the ki-th nearest other member: merge outwards from pos.
+      std::int64_t left = pos - 1, right = pos + 1;
+      double d = 0;
+      for (std::int64_t step = 0; step < ki; ++step) {
+        const double dl = left >= 0 ? xi - members[static_cast<std::size_t>(left)] : kInf;
+        const double dr = right < size ? members[static_cast<std::size_t>(right)] - xi : kInf;
+        if (dl <= dr) {
+          d = dl;
+          --left;
+        } else {
+          d = dr;
+          ++right;
+        }
+      }
+      // m_i: points of any class strictly closer than d, the point itself included. At d == 0
+      // (ties) count the points equal to x_i, as a radius query at distance 0 does.
+      std::int64_t m;
+      if (d > 0) {
+        const auto lo = std::partition_point(all.begin(), all.end(), [&](double v) { return v < xi && !(xi - v < d); });
+        const auto hi = std::partition_point(lo, all.end(), [&](double v) { return v <= xi || v - xi < d; });
+        m = hi - lo;
+      } else {
+        m = std::upper_bound(all.begin(), all.end(), xi) - std::lower_bound(all.begin(), all.end(), xi);
+      }
+      sum_psi_k += psi_k;
+      sum_psi_class += psi_class;
+      sum_psi_m += digamma(static_cast<double>(m));
+    }
+  }
+  const double dn = static_cast<double>(n);
+  const double mi = digamma(dn) + (sum_psi_k - sum_psi_class - sum_psi_m) / dn;
+  return std::max(0.0, mi);
+}
+
+std::vector<double> bh_adjust(std::span<const double> p) {
+  const std::size_t m = p.size();
+  std::vector<std::size_t> order(m);
+  std::iota(order.begin(), order.end(), std::size_t{0});
+  std::stable_sort(order.begin(), order.end(), [&](std::size_t a, std::size_t b) { return p[a] < p[b]; });
+  std::vector<double> q(m);
+  double running = 1.0;
+  for (std::size_t r = m; r-- > 0;) {
+    const double value = p[order[r]] * static_cast<double>(m) / static_cast<double>(r + 1);
+    running = std::min(running, value);
+    q[order[r]] = running;
+  }
+  return q;
+}
+
+std::vector<double> bonferroni_adjust(std::span<const double> p) {
+  std::vector<double> out(p.size());
+  for (std::size_t i = 0; i < p.size(); ++i) out[i] = std::min(1.0, p[i] * static_cast<double>(p.size()));
+  return out;
+}
+
+namespace {
+
+// Per-thread scratch space for one feature at a time.
+struct Scratch {
+  std::vector<std::uint64_t> keys;
+  std::vector<double> table;
+  std::vector<double> values;
+  std::vector<int> labels;
+  std::vector<double> class_sum, class_mean;
+  std::vector<std::int64_t> class_count;
+};
+
+struct Result {
+  double mi = 0, chi2 = 0, chi2_p = 1, f = 0, f_p = 1, counts = 0, counts_p = 1, variance = 0, missing_rate = 0;
+  int chi2_df = 0;
+  std::uint8_t flags = 0;
+  bool negative = false;
+};
+
+Result score_one(const float* column, std::int64_t n_rows, const std::vector<int>& codes, int k,
+                 const ScoreOptions& options, Scratch& s) {
+  Result r;
+  const ColumnStats stats = column_stats(std::span<const float>(column, static_cast<std::size_t>(n_rows)));
+  r.variance = stats.n >= 2 ? stats.variance : 0.0;
+  r.missing_rate = stats.missing_rate();
+  const auto ku = static_cast<std::size_t>(k);
+  s.class_count.assign(ku, 0);
+  s.class_sum.assign(ku, 0.0);
+  s.keys.clear();
+  for (std::int64_t i = 0; i < n_rows; ++i) {
+    const float v = column[i];
+    if (std::isnan(v)) continue;
+    const int c = codes[static_cast<std::size_t>(i)];
+    ++s.class_count[static_cast<std::size_t>(c)];
+    s.class_sum[static_cast<std::size_t>(c)] += static_cast<double>(v);
+    s.keys.push_back(static_cast<std::uint64_t>(order_key(v)) << 32 | static_cast<std::uint32_t>(i));
+  }
+  r.negative = stats.n > 0 && stats.min < 0;
+  for (auto count : s.class_count)
+    if (count < 2) r.flags |= kScoreFewValues;
+  if (stats.n == 0 || stats.min == stats.max) r.flags |= kScoreConstant;
+  if (r.flags) return r;  // defined result: scores 0, p-values 1
+
+  const auto n = static_cast<std::int64_t>(s.keys.size());
+  const double dn = static_cast<double>(n);
+
+  // Equal-frequency bins (SPEC §4) and the bin x class table.
+  std::sort(s.keys.begin(), s.keys.end());
+  const int bins = options.bins;
+  s.table.assign(static_cast<std::size_t>(bins) * ku, 0.0);
+  std::int64_t run_start = 0;
+  for (std::int64_t i = 0; i < n; ++i) {
+    const std::uint64_t key = s.keys[static_cast<std::size_t>(i)];
+    if (i > 0 && (key >> 32) != (s.keys[static_cast<std::size_t>(i - 1)] >> 32)) run_start = i;
+    const auto b = static_cast<std::size_t>(static_cast<std::uint64_t>(bins) * static_cast<std::uint64_t>(run_start) /
+                                            static_cast<std::uint64_t>(n));
+    const int c = codes[key & 0xFFFFFFFFu];
+    s.table[b * ku + static_cast<std::size_t>(c)] += 1.0;
+  }
+  if (options.mi == MiEstimator::kBinned) {
+    r.mi = mutual_information(s.table, bins, k);
+  } else {
+    s.values.clear();
+    s.labels.clear();
+    for (std::int64_t i = 0; i < n_rows; ++i) {
+      if (std::isnan(column[i])) continue;
+      s.values.push_back(static_cast<double>(column[i]));
+      s.labels.push_back(codes[static_cast<std::size_t>(i)]);
+    }
+    r.mi = knn_mutual_information(s.values, s.labels, k, options.neighbors);
+  }
+  r.chi2 = pearson_chi2(s.table, bins, k, r.chi2_df);
+  r.chi2_p = chi2_upper_tail(r.chi2, r.chi2_df);
+
+  // One-way ANOVA F: class means first, then the within-class squares about them (two passes, so
+  // no cancellation from sums of squares).
+  s.class_mean.resize(ku);
+  for (std::size_t c = 0; c < ku; ++c) s.class_mean[c] = s.class_sum[c] / static_cast<double>(s.class_count[c]);
+  double between = 0;
+  for (std::size_t c = 0; c < ku; ++c) {
+    const double d = s.class_mean[c] - stats.mean;
+    between += static_cast<double>(s.class_count[c]) * d * d;
+  }
+  double within = 0;
+  for (std::int64_t i = 0; i < n_rows; ++i) {
+    const float v = column[i];
+    if (std::isnan(v)) continue;
+    const double d = static_cast<double>(v) - s.class_mean[static_cast<std::size_t>(codes[static_cast<std::size_t>(i)])];
+    within += d * d;
+  }
+  const double df1 = static_cast<double>(k - 1), df2 = dn - static_cast<double>(k);
+  if (within > 0) {
+    r.f = (between / df1) / (within / df2);
+    r.f_p = f_upper_tail(r.f, df1, df2);
+  } else {
+    r.f = kInf;
+    r.f_p = 0;
+    r.flags |= kScoreSeparates;
+  }
+
+  if (options.counts_chi2 && !r.negative) {
+    // observed = per-class sums, expected = class share x total (CHECKS.md §6).
+    double total = 0;
+    for (double v : s.class_sum) total += v;
+    if (total > 0) {
+      for (std::size_t c = 0; c < ku; ++c) {
+        const double expected = static_cast<double>(s.class_count[c]) / dn * total;
+        const double d = s.class_sum[c] - expected;
+        r.counts += d * d / expected;
+      }
+      r.counts_p = chi2_upper_tail(r.counts, df1);
+    }
+  }
+  return r;
+}
+
+}  // namespace
+
+FeatureScores score_features(const Matrix& m, std::span<const std::int64_t> features,
+                             const ClassCodes& classes, const ScoreOptions& options) {
+  const int k = static_cast<int>(classes.classes.size());
+  if (k < 2)
+    throw Error(ErrorKind::kInput,
+                "the labels have " + std::to_string(k) + " class" + (k == 1 ? " (" + classes.classes[0] + ")" : "") +
+                    "; scoring against a label needs at least two (check the label column)");
+  if (options.bins < 2) throw_usage_error("--bins must be 2 or more");
+  if (options.neighbors < 1) throw_usage_error("--neighbors must be 1 or more");
+  if (static_cast<std::int64_t>(classes.codes.size()) != m.rows())
+    throw Error(ErrorKind::kOther, "internal: one class code per sample expected");
+
+  const std::size_t p = features.size();
+  FeatureScores out;
+  out.feature.assign(features.begin(), features.end());
+  std::vector<Result> results(p);
+#pragma omp parallel num_threads(internal::thread_count(options.threads))
+  {
+    Scratch scratch;
+#pragma omp for schedule(dynamic, 32)
+    for (std::size_t j = 0; j < p; ++j)
+      results[j] = score_one(m.col(features[j]).data(), m.rows(), classes.codes, k, options, scratch);
+  }
+  if (options.counts_chi2)
+    for (std::size_t j = 0; j < p; ++j)
+      if (results[j].negative)
+        throw Error(ErrorKind::kInput,
+                    "chi2-counts needs non-negative counts, but feature " + std::to_string(features[j] + 1) +
+                        " has negative values (rank by chi2, f or mi instead)");
+
+  auto take = [&](auto member) {
+    std::vector<double> v(p);
+    for (std::size_t j = 0; j < p; ++j) v[j] = results[j].*member;
+    return v;
+  };
+  out.mi = take(&Result::mi);
+  out.chi2 = take(&Result::chi2);
+  out.chi2_p = take(&Result::chi2_p);
+  out.f = take(&Result::f);
+  out.f_p = take(&Result::f_p);
+  out.variance = take(&Result::variance);
+  out.missing_rate = take(&Result::missing_rate);
+  out.chi2_df.resize(p);
+  out.flags.resize(p);
+  for (std::size_t j = 0; j < p; ++j) {
+    out.chi2_df[j] = results[j].chi2_df;
+    out.flags[j] = results[j].flags;
+  }
+  out.chi2_q = bh_adjust(out.chi2_p);
+  out.chi2_bonferroni = bonferroni_adjust(out.chi2_p);
+  out.f_q = bh_adjust(out.f_p);
+  out.f_bonferroni = bonferroni_adjust(out.f_p);
+  if (options.counts_chi2) {
+    out.counts = take(&Result::counts);
+    out.counts_p = take(&Result::counts_p);
+    out.counts_q = bh_adjust(out.counts_p);
+    out.counts_bonferroni = bonferroni_adjust(out.counts_p);
+  }
+  return out;
+}
+
+double criterion_score(const FeatureScores& s, Criterion c, std::size_t i) {
+  switch (c) {
+    case Criterion::kMi: return s.mi[i];
+    case Criterion::kChi2: return s.chi2[i];
+    case Criterion::kChi2Counts: return s.counts.empty() ? 0.0 : s.counts[i];
+    case Criterion::kF: return s.f[i];
+    case Criterion::kVariance: break;
+  }
+  return s.variance[i];
+}
+
+double criterion_q(const FeatureScores& s, Criterion c, std::size_t i) {
+  switch (c) {
+    case Criterion::kMi:
+    case Criterion::kChi2: return s.chi2_q[i];
+    case Criterion::kChi2Counts: return s.counts_q.empty() ? 1.0 : s.counts_q[i];
+    case Criterion::kF: return s.f_q[i];
+    case Criterion::kVariance: break;
+  }
+  return 1.0;
+}
+
+std::vector<std::size_t> rank_order(const FeatureScores& scores, Criterion criterion) {
+  std::vector<std::size_t> order(scores.size());
+  std::iota(order.begin(), order.end(), std::size_t{0});
+  std::stable_sort(order.begin(), order.end(), [&](std::size_t a, std::size_t b) {
+    return criterion_score(scores, criterion, a) > criterion_score(scores, criterion, b);
+  });
+  return order;
+}
+
+std::string score_flag_names(std::uint8_t flags) {
+  std::string out;
+  auto add = [&](std::uint8_t bit, const char* name) {
+    if (!(flags & bit)) return;
+    if (!out.empty()) out += ',';
+    out += name;
+  };
+  add(kScoreFewValues, "few_values");
+  add(kScoreConstant, "constant");
+  add(kScoreSeparates, "separates_classes");
+  return out;
+}
+
+std::string ranking_tsv(const FeatureScores& s, std::span<const std::size_t> order,
+                        const std::vector<std::string>& feature_names, bool with_counts) {
+  std::string out = "rank\tfeature\tmi\tchi2\tchi2_p\tchi2_q\tf\tf_p\tf_q\tvariance\tmissing_rate";
+  if (with_counts) out += "\tchi2_counts\tchi2_counts_p\tchi2_counts_q";
+  out += "\tchi2_bonferroni\tf_bonferroni";
+  if (with_counts) out += "\tchi2_counts_bonferroni";
+  out += "\tchi2_df\tindex\tflags\n";
+  auto num = [&](double v) {
+    out += '\t';
+    internal::append_number(out, v);
+  };
+  for (std::size_t r = 0; r < order.size(); ++r) {
+    const std::size_t i = order[r];
+    out += std::to_string(r + 1);
+    out += '\t';
+    internal::append_field(out, feature_names[static_cast<std::size_t>(s.feature[i])], '\t');
+    num(s.mi[i]);
+    num(s.chi2[i]);
+    num(s.chi2_p[i]);
+    num(s.chi2_q[i]);
+    num(s.f[i]);
+    num(s.f_p[i]);
+    num(s.f_q[i]);
+    num(s.variance[i]);
+    num(s.missing_rate[i]);
+    if (with_counts) {
+      num(s.counts[i]);
+      num(s.counts_p[i]);
+      num(s.counts_q[i]);
+    }
+    num(s.chi2_bonferroni[i]);
+    num(s.f_bonferroni[i]);
+    if (with_counts) num(s.counts_bonferroni[i]);
+    out += '\t' + std::to_string(s.chi2_df[i]) + '\t' + std::to_string(s.feature[i] + 1) + '\t' +
+           score_flag_names(s.flags[i]) + '\n';
+  }
+  return out;
+}
+
+}  // namespace pare
