@@ -8,7 +8,7 @@ packages=(
   cmake make g++ pkg-config ccache
   libeigen3-dev libspectra-dev libomp-dev
   libboost-program-options-dev libboost-math-dev libboost-iostreams-dev
-  catch2 libfast-float-dev nlohmann-json3-dev zlib1g-dev
+  catch2 libfast-float-dev nlohmann-json3-dev zlib1g-dev libssl-dev
   # reference checks and benchmarks (general-purpose libraries, Debian's builds)
   python3 python3-numpy python3-scipy python3-sklearn python3-pandas libopenblas0
   time

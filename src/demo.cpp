@@ -1,6 +1,7 @@
 #include "pare/demo.h"
 
-#include <algorithm>  // std::swap
+#include <algorithm>      // std::swap
+#include <unordered_map>  // std::unordered_map
 #include <cmath>      // std::exp, std::sqrt
 #include <cstdio>     // std::snprintf
 #include <vector>     // std::vector
@@ -71,7 +72,7 @@ DemoFiles write_demo(const std::string& dir, std::uint64_t seed, const DemoScena
   std::vector<std::vector<double>> factor(static_cast<std::size_t>(s.modules));
   const double share = static_cast<double>(s.tolerant) / static_cast<double>(n);
   for (auto& f : factor) {
-    const double effect = rng.uniform(1.0, 2.2);
+    const double effect = rng.uniform(1.4, 2.4);
     f.resize(static_cast<std::size_t>(n));
     for (std::int64_t i = 0; i < n; ++i)
       f[static_cast<std::size_t>(i)] = effect * (tolerant[static_cast<std::size_t>(i)] - share) + rng.normal();
@@ -149,15 +150,28 @@ DemoFiles write_demo(const std::string& dir, std::uint64_t seed, const DemoScena
       z = latent[static_cast<std::size_t>(j)];
       for (std::int64_t i = 0; i < n; ++i) r.normal();  // keep the stream where z_of left it
     } else if (f.role == Role::kCopy) {
+      // A near-copy tracks its original at r = 0.97 but carries more of the original's own
+      // (technical) noise and less of the biology: with z = a L + s e (L the module factor, e the
+      // original's noise), copy = 0.97 z + 0.2431 (0.8 (a e - s L) + 0.6 u), u fresh noise. The
+      // added part is orthogonal to z, so r(copy, z) = 0.97 exactly in expectation, while the
+      // copy's correlation with L drops from a to about 0.97 a - 0.19 s. Pruning should keep the
+      // original and drop the copy, naming the original.
+      const FeaturePlan& o = plan[static_cast<std::size_t>(f.copy_of)];
       const auto& src = latent[static_cast<std::size_t>(f.copy_of)];
+      const auto& factor_l = factor[static_cast<std::size_t>(o.module)];
+      const double a = o.loading, s = std::sqrt(1 - a * a);
+      constexpr double kR = 0.97, kAside = 0.2431049156;  // sqrt(1 - 0.97^2)
       z.resize(static_cast<std::size_t>(n));
-      constexpr double kR = 0.97, kNoise = 0.2431049156;  // sqrt(1 - 0.97^2)
-      for (std::int64_t i = 0; i < n; ++i) z[static_cast<std::size_t>(i)] = kR * src[static_cast<std::size_t>(i)] + kNoise * r.normal();
+      for (std::int64_t i = 0; i < n; ++i) {
+        const auto ii = static_cast<std::size_t>(i);
+        const double e = (src[ii] - a * factor_l[ii]) / s;
+        z[ii] = kR * src[ii] + kAside * (0.8 * (a * e - s * factor_l[ii]) + 0.6 * r.normal());
+      }
     } else {
       z = z_of(j, r);
     }
     const double mu = r.uniform(1.5, 7.0);
-    const double sd = (f.role == Role::kInformative || f.role == Role::kCopy) ? r.uniform(0.25, 0.6)
+    const double sd = (f.role == Role::kInformative || f.role == Role::kCopy) ? r.uniform(0.2, 0.5)
                                                                                : r.uniform(0.2, 1.0);
     std::string& line = lines[static_cast<std::size_t>(j)];
     line = name_of("TR", j, 5);
@@ -166,8 +180,10 @@ DemoFiles write_demo(const std::string& dir, std::uint64_t seed, const DemoScena
       const bool missing = r.uniform() < f.missing_rate;
       double value;
       switch (f.role) {
-        case Role::kConstant: value = std::exp(mu); break;
-        case Role::kNearConstant: value = std::exp(mu) * (1 + 1e-5 * z[static_cast<std::size_t>(i)]); break;
+        // (Near-)constant transcripts sit at a low detection floor; the near-constant ones jitter
+        // by about 1e-5, far below any biological variation.
+        case Role::kConstant: value = std::exp(mu - 5.0); break;
+        case Role::kNearConstant: value = std::exp(mu - 5.0) + 1e-5 * z[static_cast<std::size_t>(i)]; break;
         default: value = std::exp(mu + sd * z[static_cast<std::size_t>(i)]); break;
       }
       if (!missing) internal::append_rounded(line, value, 7);
@@ -212,6 +228,60 @@ DemoFiles write_demo(const std::string& dir, std::uint64_t seed, const DemoScena
     write_file_atomically(files.truth, text);
   }
   return files;
+}
+
+}  // namespace pare
+
+namespace pare {
+
+DemoRecovery evaluate_demo(const std::string& truth_path, const FeatureTable& table, const Reduction& r) {
+  const std::string text = read_file_text(truth_path);
+  struct Truth {
+    std::string role, module, copy_of;
+  };
+  std::unordered_map<std::string, Truth> truth;
+  std::size_t pos = text.find('\n');  // skip the header
+  while (pos != std::string::npos && pos + 1 < text.size()) {
+    const std::size_t end = text.find('\n', pos + 1);
+    const auto fields = split_fields(std::string_view(text).substr(pos + 1, end - pos - 1), '\t');
+    if (fields.size() >= 4) truth[fields[0]] = {fields[1], fields[2], fields[3]};
+    pos = end;
+  }
+  DemoRecovery d;
+  d.kept = static_cast<std::int64_t>(r.kept.size());
+  for (std::size_t j = 0; j < table.feature_names.size(); ++j) {
+    const auto it = truth.find(table.feature_names[j]);
+    if (it == truth.end()) continue;
+    const Truth& t = it->second;
+    const Decision& dec = r.decisions[j];
+    if (t.role == "informative") {
+      ++d.informative;
+      if (dec.kept) ++d.informative_kept;
+    } else if (t.role == "redundant_copy") {
+      ++d.copies;
+      if (dec.step == "redundancy") {
+        ++d.copies_redundant;
+        const std::string twin = table.feature_names[static_cast<std::size_t>(dec.partner)];
+        const auto tw = truth.find(twin);
+        const auto original = truth.find(t.copy_of);
+        if (twin == t.copy_of ||
+            (tw != truth.end() && original != truth.end() && !tw->second.module.empty() &&
+             tw->second.module == original->second.module))
+          ++d.copies_named_twin;
+      }
+    } else if (t.role == "near_constant" || t.role == "constant") {
+      ++d.near_constant;
+      if (dec.step == "variance") ++d.near_constant_variance;
+    } else if (t.role == "mostly_missing") {
+      ++d.mostly_missing;
+      if (dec.step == "missing") ++d.mostly_missing_missing;
+    }
+  }
+  for (const std::int64_t j : r.kept) {
+    const auto it = truth.find(table.feature_names[static_cast<std::size_t>(j)]);
+    if (it != truth.end() && it->second.role == "informative") ++d.kept_planted;
+  }
+  return d;
 }
 
 }  // namespace pare

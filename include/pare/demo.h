@@ -35,3 +35,25 @@ struct DemoFiles {
 DemoFiles write_demo(const std::string& dir, std::uint64_t seed, const DemoScenario& scenario = {});
 
 }  // namespace pare
+
+#include <vector>  // std::vector
+
+#include "pare/matrix.h"
+#include "pare/reduce.h"
+
+namespace pare {
+
+/// How much of the planted truth a reduction recovered.
+struct DemoRecovery {
+  std::int64_t informative = 0, informative_kept = 0;   ///< recall = kept / planted
+  std::int64_t kept = 0, kept_planted = 0;              ///< precision = planted among kept
+  std::int64_t copies = 0, copies_redundant = 0;        ///< near-copies dropped as redundant
+  std::int64_t copies_named_twin = 0;                   ///< ... naming their original or a module-mate
+  std::int64_t near_constant = 0, near_constant_variance = 0;  ///< (near-)constant dropped by variance
+  std::int64_t mostly_missing = 0, mostly_missing_missing = 0; ///< mostly-missing dropped by missing
+};
+
+/// Compares `reduction` of `table` with the planted truth in `truth_path` (greenhouse-truth.tsv).
+DemoRecovery evaluate_demo(const std::string& truth_path, const FeatureTable& table, const Reduction& reduction);
+
+}  // namespace pare

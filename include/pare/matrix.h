@@ -26,6 +26,7 @@ struct FeatureTable {
   std::vector<std::string> sample_ids;     ///< one per row of `values`
   std::vector<std::string> labels;         ///< one per sample, or empty when unlabelled
   std::string label_name;                  ///< the label column's name, or empty
+  std::string id_name;                     ///< the header of the id column, or empty
   std::string source;                      ///< the path it was read from
   char delimiter = ',';                    ///< the delimiter the file used
   Layout layout = Layout::kRowsAreSamples;

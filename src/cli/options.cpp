@@ -28,13 +28,15 @@ void add_input_options(po::options_description& desc, InputOptions& input) {
        "column (rows=samples) or line (rows=features) holding the class labels")
       ("labels", po::value(&input.labels),
        "sample sheet FILE[:COLUMN]: sample ids, then labels (default: its second column)")
-      ("na", po::value(&input.na),
+      ("na",
+       po::value(&input.na)->notifier([&input](const std::string&) { input.na_given = true; }),
        "comma-separated missing-value tokens (default: empty,NA,NaN,nan,null,?)")
       ("allow-inf", po::bool_switch(&input.allow_inf), "accept inf and -inf as values");
 }
 
 bool parse_command_line(const std::vector<std::string>& args, const po::options_description& desc,
-                        const po::positional_options_description& positional, std::string& help) {
+                        const po::positional_options_description& positional, std::string& help,
+                        po::variables_map* values) {
   po::variables_map vm;
   try {
     po::store(po::command_line_parser(args).options(desc).positional(positional).run(), vm);
@@ -45,6 +47,7 @@ bool parse_command_line(const std::vector<std::string>& args, const po::options_
       return false;
     }
     po::notify(vm);
+    if (values) *values = vm;
   } catch (const po::error& e) {
     throw_usage_error(e.what(), "see --help");
   }

@@ -39,8 +39,10 @@ void add_input_options(po::options_description& desc, InputOptions& input);
 
 /// Parses `args` (the words after the command name). Returns false when --help was given (the help
 /// text is then in `help`). Throws Error(kUsage) on an unknown option or a bad value.
+/// `values`, when given, receives the parsed map (to tell given options from defaults).
 bool parse_command_line(const std::vector<std::string>& args, const po::options_description& desc,
-                        const po::positional_options_description& positional, std::string& help);
+                        const po::positional_options_description& positional, std::string& help,
+                        po::variables_map* values = nullptr);
 
 /// Checks and converts the shared options: --threads >= 1 when given, --layout, --delimiter, --na,
 /// and that --label and --labels are not both given.

@@ -1,0 +1,66 @@
+// plan.json: the record of a reduction run and everything `apply` needs to replay it on new
+// samples without refitting (kept names in order, fill values, transform, centre and scale).
+#pragma once
+
+#include <cstdint>  // std::int64_t, std::uint64_t
+#include <string>   // std::string
+#include <vector>   // std::vector
+
+#include "pare/io.h"
+#include "pare/matrix.h"
+#include "pare/reduce.h"
+
+namespace pare {
+
+/// Facts about the run that are not part of the reduction itself.
+struct RunRecord {
+  std::vector<std::string> command_line;  ///< the full command line, program name first
+  std::string input_path;
+  std::string input_sha256;
+  std::string sheet_path;                 ///< empty when labels did not come from a sheet
+  std::string sheet_sha256;
+  std::string sheet_column;
+  std::string layout;                     ///< rows=samples or rows=features
+  std::string label;                      ///< --label, or empty
+  std::vector<std::string> na_tokens;
+  bool allow_inf = false;
+  std::uint64_t seed = 1;
+};
+
+/// A plan as loaded from plan.json.
+struct Plan {
+  std::string path;
+  std::string layout;
+  char delimiter = ',';
+  std::string label;
+  std::vector<std::string> na_tokens;
+  bool allow_inf = false;
+  bool log2 = false;
+  bool scale = false;
+  std::vector<std::string> names;  ///< kept features in order
+  std::vector<float> fill;         ///< raw-scale fill value per kept feature
+  std::vector<double> center, spread;
+};
+
+/// The plan.json text of a finished reduction.
+std::string plan_json(const FeatureTable& table, const Reduction& reduction, const ReduceOptions& options,
+                      const RunRecord& run);
+
+/// Loads and checks plan.json. Throws Error(kInput) naming the file and the field on any problem.
+Plan load_plan(const std::string& path);
+
+/// What apply did.
+struct ApplyReport {
+  std::vector<std::string> absent;      ///< plan features not in the new data (filled entirely)
+  std::vector<std::int64_t> filled;     ///< per kept feature: cells filled with the training value
+  std::int64_t extra = 0;               ///< features of the new data the plan does not use
+};
+
+/// Replays `plan` on `data`: selects the plan's features by name, fills gaps with the training
+/// fill values, applies the same transform. Returns the reduced table (plan order, the data's ids,
+/// labels, layout and delimiter). Features absent from `data` are an error listing how many and
+/// the first ten, unless `allow_missing` (then they are filled with the training value).
+FeatureTable apply_plan(const Plan& plan, const FeatureTable& data, bool allow_missing,
+                        ApplyReport& report, int threads = 0);
+
+}  // namespace pare

@@ -1,0 +1,304 @@
+#include "cli/pipeline.h"
+
+#include <algorithm>   // std::find
+#include <chrono>      // std::chrono::steady_clock
+#include <filesystem>  // std::filesystem::equivalent
+#include <future>      // std::async
+#include <memory>      // std::unique_ptr
+
+#include "cli/text.h"
+#include "internal/sha256.h"
+#include "pare/error.h"
+#include "pare/io.h"
+#include "pare/demo.h"
+#include "pare/plan.h"
+#include "pare/reduce.h"
+
+namespace pare::cli {
+
+namespace {
+
+// The output files of a run: opened under temporary names, all renamed only at the very end, so a
+// failed run leaves none of them under a final name.
+class OutputSet {
+ public:
+  OutputSet(std::string dir, std::vector<std::string> inputs) : dir_(std::move(dir)), inputs_(std::move(inputs)) {
+    ensure_directory(dir_);
+  }
+
+  void add(const std::string& name, std::string_view content) {
+    const std::string path = join_path(dir_, name);
+    std::error_code ec;
+    for (const auto& input : inputs_)
+      if (std::filesystem::equivalent(path, input, ec))
+        throw_output_error(path, "is the input file " + input, "choose another --out folder");
+    auto file = std::make_unique<OutputFile>(path);
+    file->write(content);
+    files_.push_back(std::move(file));
+  }
+
+  void commit() {
+    for (auto& f : files_) f->commit();
+  }
+
+  std::string path(const std::string& name) const { return join_path(dir_, name); }
+
+ private:
+  std::string dir_;
+  std::vector<std::string> inputs_;
+  std::vector<std::unique_ptr<OutputFile>> files_;
+};
+
+std::string sheet_path_of(const std::string& spec) {
+  std::error_code ec;
+  if (std::filesystem::exists(spec, ec)) return spec;
+  const auto colon = spec.rfind(':');
+  return colon == std::string::npos || colon == 0 ? spec : spec.substr(0, colon);
+}
+
+void print_steps(std::ostream& out, const Reduction& r) {
+  std::vector<std::vector<std::string>> rows{{"step", "in", "out", "seconds"}};
+  for (const auto& s : r.steps)
+    rows.push_back({s.name, thousands(s.in), thousands(s.out), fixed(s.seconds, 2)});
+  print_table(out, rows, 1);
+}
+
+struct ReduceRun {
+  FeatureTable table;
+  Reduction reduction;
+  std::string out_dir;
+};
+
+// Reads, reduces and writes; shared by `reduce` and `demo`.
+ReduceRun reduce_and_write(const InputOptions& input, const CommonOptions& common, const ReduceOptions& options,
+                           const std::vector<std::string>& command_line, std::ostream& out) {
+  // Hash the inputs while they are parsed.
+  auto data_hash = std::async(std::launch::async, [&] { return internal::sha256_file(input.data); });
+  const std::string sheet = input.labels.empty() ? std::string() : sheet_path_of(input.labels);
+  const auto start = std::chrono::steady_clock::now();
+  ReduceRun run;
+  run.table = load_table(input, common);
+  const double read_seconds = seconds_since(start);
+  if (!common.quiet && !run.table.has_labels())
+    out << "pare reduce: no labels given, so features are ranked by variance and the supervised steps "
+           "(relevance, --fdr) are skipped\n";
+  RunRecord record;
+  record.command_line = command_line;
+  record.input_path = input.data;
+  record.input_sha256 = data_hash.get();
+  if (!sheet.empty()) {
+    record.sheet_path = sheet;
+    record.sheet_sha256 = internal::sha256_file(sheet);
+    record.sheet_column = run.table.label_name;
+  }
+  const ReadOptions read = read_options_from(input, common);
+  record.layout = layout_name(read.layout);
+  record.label = input.label;
+  record.na_tokens = read.na_tokens;
+  record.allow_inf = read.allow_inf;
+  record.seed = common.seed;
+
+  run.reduction = reduce(run.table, options);
+  run.reduction.steps.insert(run.reduction.steps.begin(),
+                             StepRecord{"read", run.table.n_features(), run.table.n_features(), read_seconds});
+  const Reduction& r = run.reduction;
+  std::vector<std::string> names;
+  for (const std::int64_t j : r.kept) names.push_back(run.table.feature_names[static_cast<std::size_t>(j)]);
+
+  std::vector<std::string> inputs{input.data};
+  if (!sheet.empty()) inputs.push_back(sheet);
+  OutputSet files(common.out, inputs);
+  files.add("ranking.tsv", reduction_ranking_tsv(run.table, r));
+  files.add("selection-log.tsv", selection_log_tsv(run.table, r));
+  files.add("reduced.csv", reduced_matrix_text(run.table, r.kept, names));
+  files.add("plan.json", plan_json(run.table, r, options, record));
+  files.commit();
+  run.out_dir = common.out;
+
+  if (!common.quiet) {
+    out << "pare reduce: " << run.table.source << " - " << thousands(run.table.n_samples()) << " samples x "
+        << thousands(run.table.n_features()) << " features -> " << thousands(static_cast<std::int64_t>(r.kept.size()))
+        << " kept, ranked by " << criterion_name(r.criterion) << "\n";
+    print_steps(out, r);
+    out << "  top:";
+    for (std::size_t k = 0; k < names.size() && k < 10; ++k) out << (k ? ", " : " ") << names[k];
+    out << (names.size() > 10 ? ", ...\n" : "\n");
+    out << "  wrote " << files.path("ranking.tsv") << ", selection-log.tsv, reduced.csv, plan.json\n";
+  }
+  return run;
+}
+
+void add_reduce_options(po::options_description& desc, ReduceOptions& o, std::string& impute, std::string& rank_by,
+                        std::string& estimator, bool& no_missing, bool& no_variance, bool& no_prune) {
+  desc.add_options()
+      ("max-missing", po::value(&o.max_missing)->default_value(0.2), "1. drop features missing more than this fraction")
+      ("no-missing-filter", po::bool_switch(&no_missing), "   skip step 1")
+      ("impute", po::value(&impute)->default_value("mean"), "2. fill gaps with the feature's mean, median or zero")
+      ("log2", po::bool_switch(&o.log2), "3. transform values to log2(x + 1)")
+      ("scale", po::bool_switch(&o.scale), "3. z-score the kept features in the output")
+      ("min-variance", po::value(&o.min_variance)->default_value(1e-8), "4. drop features with variance below this")
+      ("drop-low-variance", po::value(&o.drop_low_variance)->default_value(0.0),
+       "4. also drop this lowest fraction by variance")
+      ("no-variance-filter", po::bool_switch(&no_variance), "   skip step 4")
+      ("rank-by", po::value(&rank_by)->default_value("mi"), "5. mi, chi2, chi2-counts, f or variance")
+      ("fdr", po::value(&o.fdr)->default_value(1.0), "5. keep features with q <= Q for the ranking test")
+      ("bins", po::value(&o.score.bins)->default_value(10), "5. equal-frequency bins for mi and chi2")
+      ("mi-estimator", po::value(&estimator)->default_value("binned"), "5. binned or knn")
+      ("neighbors", po::value(&o.score.neighbors)->default_value(3), "5. k of the knn estimator")
+      ("max-corr", po::value(&o.max_corr)->default_value(0.9),
+       "6. drop a feature whose |r| with a kept one is above this")
+      ("no-prune", po::bool_switch(&no_prune), "   skip step 6")
+      ("keep", po::value(&o.keep)->default_value(0), "7. keep the first K survivors (0 = all)");
+}
+
+void finish_reduce_options(ReduceOptions& o, const std::string& impute, const std::string& rank_by,
+                           const std::string& estimator, bool no_missing, bool no_variance, bool no_prune,
+                           const CommonOptions& common) {
+  o.impute = parse_impute(impute);
+  o.rank_by = parse_criterion(rank_by);
+  if (estimator == "knn") o.score.mi = MiEstimator::kKnn;
+  else if (estimator != "binned") throw_usage_error("--mi-estimator " + estimator + " is not binned or knn");
+  o.missing_filter = !no_missing;
+  o.variance_filter = !no_variance;
+  o.prune = !no_prune;
+  o.threads = common.threads;
+}
+
+}  // namespace
+
+int command_reduce(const std::vector<std::string>& args, std::ostream& out) {
+  CommonOptions common;
+  InputOptions input;
+  ReduceOptions options;
+  std::string impute, rank_by, estimator;
+  bool no_missing = false, no_variance = false, no_prune = false;
+  po::options_description desc(
+      "pare reduce DATA [--label COLUMN | --labels SHEET[:COLUMN]] --out DIR [options]\n\n"
+      "Runs the reduction pipeline (steps 1-7 below, in order) and writes ranking.tsv,\n"
+      "selection-log.tsv (one line per input feature: kept or dropped, by which step, why),\n"
+      "reduced.csv and plan.json (replayable with pare apply).\n\noptions");
+  desc.add_options()("data", po::value(&input.data)->required(), "the data file (CSV/TSV, may be gzip)");
+  add_reduce_options(desc, options, impute, rank_by, estimator, no_missing, no_variance, no_prune);
+  add_input_options(desc, input);
+  add_common_options(desc, common, "pare-reduce");
+  po::positional_options_description positional;
+  positional.add("data", 1);
+  std::string help;
+  if (!parse_command_line(args, desc, positional, help)) {
+    out << help;
+    return 0;
+  }
+  finish_reduce_options(options, impute, rank_by, estimator, no_missing, no_variance, no_prune, common);
+  std::vector<std::string> command_line{"pare", "reduce"};
+  command_line.insert(command_line.end(), args.begin(), args.end());
+  reduce_and_write(input, common, options, command_line, out);
+  return 0;
+}
+
+int command_apply(const std::vector<std::string>& args, std::ostream& out) {
+  CommonOptions common;
+  InputOptions input;
+  std::string plan_path;
+  bool allow_missing = false;
+  po::options_description desc(
+      "pare apply PLAN.json NEWDATA --out DIR [options]\n\n"
+      "Replays a saved reduction on new samples: selects the plan's features by name, fills gaps with\n"
+      "the training values, applies the same transform, and writes reduced.csv and apply-log.tsv.\n"
+      "Reading options default to those recorded in the plan.\n\noptions");
+  desc.add_options()("plan", po::value(&plan_path)->required(), "plan.json written by pare reduce")
+      ("data", po::value(&input.data)->required(), "the new data file")
+      ("allow-missing-features", po::bool_switch(&allow_missing),
+       "fill features the new data lacks with their training values instead of stopping");
+  add_input_options(desc, input);
+  add_common_options(desc, common, "pare-apply");
+  po::positional_options_description positional;
+  positional.add("plan", 1).add("data", 1);
+  std::string help;
+  po::variables_map values;
+  if (!parse_command_line(args, desc, positional, help, &values)) {
+    out << help;
+    return 0;
+  }
+  const Plan plan = load_plan(plan_path);
+  // Reading options the command line did not set come from the plan.
+  const auto given = [&](const char* name) { return values.count(name) > 0 && !values[name].defaulted(); };
+  if (!given("layout")) input.layout = plan.layout;
+  if (!given("delimiter")) input.delimiter = std::string(1, plan.delimiter) == "\t" ? "tab" : std::string(1, plan.delimiter);
+  if (!given("label") && !given("labels")) input.label = plan.label;
+  if (!given("na")) {
+    input.na.clear();
+    for (std::size_t i = 0; i < plan.na_tokens.size(); ++i) input.na += (i ? "," : "") + plan.na_tokens[i];
+    input.na_given = true;
+  }
+  if (!given("allow-inf")) input.allow_inf = plan.allow_inf;
+
+  const FeatureTable data = load_table(input, common);
+  ApplyReport report;
+  const FeatureTable reduced = apply_plan(plan, data, allow_missing, report, common.threads);
+
+  std::string log = "feature\tstatus\tfilled_cells\n";
+  for (std::size_t i = 0; i < plan.names.size(); ++i) {
+    const bool absent = std::find(report.absent.begin(), report.absent.end(), plan.names[i]) != report.absent.end();
+    log += plan.names[i] + '\t' + (absent ? "absent: filled with the training value" : "present") + '\t' +
+           std::to_string(report.filled[i]) + '\n';
+  }
+  OutputSet files(common.out, {input.data, plan_path});
+  files.add("reduced.csv", reduced_matrix_text(reduced, [&] {
+              std::vector<std::int64_t> all(plan.names.size());
+              for (std::size_t i = 0; i < all.size(); ++i) all[i] = static_cast<std::int64_t>(i);
+              return all;
+            }(), plan.names));
+  files.add("apply-log.tsv", log);
+  files.commit();
+  if (!common.quiet) {
+    std::int64_t filled = 0;
+    for (auto f : report.filled) filled += f;
+    out << "pare apply: " << data.source << " - " << thousands(data.n_samples()) << " samples, "
+        << thousands(static_cast<std::int64_t>(plan.names.size())) << " features of the plan ("
+        << thousands(report.extra) << " other features ignored)\n";
+    out << "  filled " << thousands(filled) << " missing cells with training values";
+    if (!report.absent.empty())
+      out << "; " << report.absent.size() << " features absent from the data, filled entirely (see apply-log.tsv)";
+    out << "\n  wrote " << files.path("reduced.csv") << ", apply-log.tsv\n";
+  }
+  return 0;
+}
+
+int demo_reduce(const std::string& data, const std::string& samples, const std::string& truth,
+                const CommonOptions& common, std::ostream& out) {
+  InputOptions input;
+  input.data = data;
+  input.layout = "rows=features";
+  input.labels = samples + ":condition";
+  ReduceOptions options;
+  // Transcript abundances are log-normal; analysing them on the log scale is common practice, and
+  // it keeps a few mean-imputed cells in a long right tail from weakening correlations.
+  options.log2 = true;
+  options.max_corr = 0.9;
+  options.keep = 200;
+  options.threads = common.threads;
+  CommonOptions reduce_common = common;
+  reduce_common.out = join_path(common.out, "reduce");
+  const std::vector<std::string> command_line{"pare", "reduce", data, "--layout", "rows=features", "--labels",
+                                              input.labels, "--log2", "--max-corr", "0.9", "--keep", "200",
+                                              "--out", reduce_common.out};
+  if (!common.quiet) out << "\n";
+  const ReduceRun run = reduce_and_write(input, reduce_common, options, command_line, out);
+  const DemoRecovery d = evaluate_demo(truth, run.table, run.reduction);
+  if (!common.quiet) {
+    out << "\nplanted truth (" << truth << "):\n";
+    out << "  informative transcripts kept   " << d.informative_kept << " of " << d.informative
+        << " (recall " << fixed(d.informative ? static_cast<double>(d.informative_kept) / static_cast<double>(d.informative) : 0, 2)
+        << ")\n";
+    out << "  kept that are informative      " << d.kept_planted << " of " << d.kept << " (precision "
+        << fixed(d.kept ? static_cast<double>(d.kept_planted) / static_cast<double>(d.kept) : 0, 2)
+        << "; the rest are background picked to fill --keep 200)\n";
+    out << "  near-copies dropped redundant  " << d.copies_redundant << " of " << d.copies << " ("
+        << d.copies_named_twin << " naming their original or a module-mate)\n";
+    out << "  (near-)constant by variance    " << d.near_constant_variance << " of " << d.near_constant << "\n";
+    out << "  mostly-missing by missing      " << d.mostly_missing_missing << " of " << d.mostly_missing << "\n";
+  }
+  return 0;
+}
+
+}  // namespace pare::cli

@@ -1,0 +1,77 @@
+#include "cli/text.h"
+
+#include <algorithm>  // std::max
+#include <cmath>      // std::isinf, std::abs
+#include <cstdio>     // std::snprintf
+
+namespace pare::cli {
+
+std::string thousands(std::int64_t v) {
+  std::string digits = std::to_string(v < 0 ? -v : v);
+  std::string out;
+  const int lead = static_cast<int>(digits.size() % 3);
+  for (std::size_t i = 0; i < digits.size(); ++i) {
+    if (i > 0 && (static_cast<int>(i) - lead) % 3 == 0) out += ',';
+    out += digits[i];
+  }
+  return v < 0 ? "-" + out : out;
+}
+
+std::string fixed(double v, int decimals) {
+  char buffer[64];
+  std::snprintf(buffer, sizeof buffer, "%.*f", decimals, v);
+  return buffer;
+}
+
+std::string percent(double fraction) {
+  return fixed(100.0 * fraction, fraction > 0 && fraction < 0.001 ? 3 : 1) + "%";
+}
+
+const char* layout_name(Layout l) {
+  return l == Layout::kRowsAreSamples ? "rows=samples" : "rows=features";
+}
+
+const char* delimiter_name(char d) {
+  return d == '\t' ? "tab" : d == ';' ? "semicolon" : "comma";
+}
+
+double seconds_since(std::chrono::steady_clock::time_point start) {
+  return std::chrono::duration<double>(std::chrono::steady_clock::now() - start).count();
+}
+
+std::string join_path(const std::string& dir, const std::string& name) {
+  if (dir.empty() || dir == ".") return name;
+  return dir.back() == '/' ? dir + name : dir + "/" + name;
+}
+
+std::string short_number(double v) {
+  std::string out;
+  char buffer[32];
+  if (std::isinf(v)) return "inf";
+  if (v != 0 && (std::abs(v) < 1e-3 || std::abs(v) >= 1e6))
+    std::snprintf(buffer, sizeof buffer, "%.3g", v);
+  else
+    std::snprintf(buffer, sizeof buffer, "%.4g", v);
+  return buffer;
+}
+
+// Prints rows as a table, each column padded to its widest cell; the first `left` columns are
+// left-aligned, the rest right-aligned.
+void print_table(std::ostream& out, const std::vector<std::vector<std::string>>& rows, std::size_t left) {
+  std::vector<std::size_t> width;
+  for (const auto& row : rows)
+    for (std::size_t c = 0; c < row.size(); ++c) {
+      if (width.size() <= c) width.push_back(0);
+      width[c] = std::max(width[c], row[c].size());
+    }
+  for (const auto& row : rows) {
+    out << " ";
+    for (std::size_t c = 0; c < row.size(); ++c) {
+      const std::string pad(width[c] - row[c].size(), ' ');
+      out << "  " << (c < left ? row[c] + pad : pad + row[c]);
+    }
+    out << "\n";
+  }
+}
+
+}  // namespace pare::cli

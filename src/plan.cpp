@@ -1,0 +1,250 @@
+#include "pare/plan.h"
+
+#include <nlohmann/json.hpp>
+
+#include <cmath>          // std::isnan
+#include <unordered_map>  // std::unordered_map
+
+#include "internal/omp.h"
+#include "pare/error.h"
+
+namespace pare {
+
+namespace {
+
+using nlohmann::json;
+
+constexpr int kPlanFormat = 1;
+
+// JSON has no NaN: undefined numbers are written as null.
+json number_or_null(double v) { return std::isnan(v) ? json(nullptr) : json(v); }
+
+std::string delimiter_text(char d) { return std::string(1, d); }
+
+}  // namespace
+
+std::string plan_json(const FeatureTable& t, const Reduction& r, const ReduceOptions& o, const RunRecord& run) {
+  json plan;
+  plan["pare_plan"] = kPlanFormat;
+  plan["pare_version"] = PARE_VERSION;
+  plan["command_line"] = run.command_line;
+  plan["seed"] = run.seed;
+  json input = {{"path", run.input_path},
+                {"sha256", run.input_sha256},
+                {"samples", t.n_samples()},
+                {"features", t.n_features()}};
+  if (!run.sheet_path.empty())
+    input["sample_sheet"] = {{"path", run.sheet_path}, {"sha256", run.sheet_sha256}, {"column", run.sheet_column}};
+  plan["input"] = input;
+  plan["read"] = {{"layout", run.layout},
+                  {"delimiter", delimiter_text(t.delimiter)},
+                  {"label", run.label},
+                  {"na", run.na_tokens},
+                  {"allow_inf", run.allow_inf}};
+  plan["parameters"] = {
+      {"missing_filter", o.missing_filter},
+      {"max_missing", o.max_missing},
+      {"impute", impute_name(o.impute)},
+      {"log2", o.log2},
+      {"scale", o.scale},
+      {"variance_filter", o.variance_filter},
+      {"min_variance", o.min_variance},
+      {"drop_low_variance", o.drop_low_variance},
+      {"supervised", r.supervised},
+      {"rank_by", criterion_name(r.criterion)},
+      {"fdr", o.fdr},
+      {"bins", o.score.bins},
+      {"mi_estimator", o.score.mi == MiEstimator::kKnn ? "knn" : "binned"},
+      {"neighbors", o.score.neighbors},
+      {"prune", o.prune},
+      {"max_corr", o.max_corr},
+      {"keep", o.keep},
+  };
+  json steps = json::array();
+  for (const auto& s : r.steps) steps.push_back({{"step", s.name}, {"in", s.in}, {"out", s.out}, {"seconds", s.seconds}});
+  plan["steps"] = steps;
+  json names = json::array(), index = json::array(), fill = json::array(), center = json::array(),
+       spread = json::array();
+  for (std::size_t k = 0; k < r.kept.size(); ++k) {
+    const auto j = static_cast<std::size_t>(r.kept[k]);
+    names.push_back(t.feature_names[j]);
+    index.push_back(j + 1);
+    fill.push_back(static_cast<double>(r.fill[j]));
+    center.push_back(number_or_null(r.center[k]));
+    spread.push_back(number_or_null(r.scale[k]));
+  }
+  plan["transform"] = {{"impute", impute_name(o.impute)}, {"log2", o.log2}, {"scale", o.scale}};
+  plan["kept"] = {{"count", r.kept.size()},
+                  {"names", names},
+                  {"input_index", index},
+                  {"fill", fill},
+                  {"center", center},
+                  {"scale", spread}};
+  plan["outputs"] = {{"ranking", "ranking.tsv"}, {"selection_log", "selection-log.tsv"}, {"reduced", "reduced.csv"}};
+  return plan.dump(1) + "\n";
+}
+
+namespace {
+
+[[noreturn]] void bad_plan(const std::string& path, const std::string& what) {
+  throw_input_error({path}, what, "use a plan.json written by pare reduce, unedited");
+}
+
+const json& member(const std::string& path, const json& object, const char* key, const char* where) {
+  if (!object.is_object()) bad_plan(path, std::string(where) + " must be an object");
+  const auto it = object.find(key);
+  if (it == object.end()) bad_plan(path, std::string("missing field ") + where + "." + key);
+  return *it;
+}
+
+template <typename T>
+T typed(const std::string& path, const json& value, const std::string& field, const char* type_name) {
+  try {
+    return value.get<T>();
+  } catch (const json::exception&) {
+    bad_plan(path, "field " + field + " must be " + type_name);
+  }
+}
+
+}  // namespace
+
+Plan load_plan(const std::string& path) {
+  const std::string text = read_file_text(path);
+  json plan;
+  try {
+    plan = json::parse(text);
+  } catch (const json::parse_error& e) {
+    // nlohmann reports a byte offset; turn it into line and column.
+    std::int64_t line = 1, column = 1;
+    for (std::size_t i = 0; i + 1 < e.byte && i < text.size(); ++i) {
+      if (text[i] == '\n') {
+        ++line;
+        column = 1;
+      } else {
+        ++column;
+      }
+    }
+    throw_input_error({path, line, column}, "not valid JSON", "use a plan.json written by pare reduce, unedited");
+  }
+  if (!plan.is_object()) bad_plan(path, "the top level must be an object");
+  const json& format = member(path, plan, "pare_plan", "plan");
+  if (!format.is_number_integer() || format.get<int>() != kPlanFormat)
+    bad_plan(path, "not a pare plan of format " + std::to_string(kPlanFormat));
+  Plan p;
+  p.path = path;
+  const json& read = member(path, plan, "read", "plan");
+  p.layout = typed<std::string>(path, member(path, read, "layout", "read"), "read.layout", "a string");
+  if (p.layout != "rows=samples" && p.layout != "rows=features")
+    bad_plan(path, "field read.layout must be rows=samples or rows=features");
+  const auto delimiter = typed<std::string>(path, member(path, read, "delimiter", "read"), "read.delimiter", "a string");
+  if (delimiter.size() != 1) bad_plan(path, "field read.delimiter must be one character");
+  p.delimiter = delimiter[0];
+  p.label = typed<std::string>(path, member(path, read, "label", "read"), "read.label", "a string");
+  p.na_tokens = typed<std::vector<std::string>>(path, member(path, read, "na", "read"), "read.na", "an array of strings");
+  p.allow_inf = typed<bool>(path, member(path, read, "allow_inf", "read"), "read.allow_inf", "true or false");
+  const json& transform = member(path, plan, "transform", "plan");
+  p.log2 = typed<bool>(path, member(path, transform, "log2", "transform"), "transform.log2", "true or false");
+  p.scale = typed<bool>(path, member(path, transform, "scale", "transform"), "transform.scale", "true or false");
+  const json& kept = member(path, plan, "kept", "plan");
+  p.names = typed<std::vector<std::string>>(path, member(path, kept, "names", "kept"), "kept.names", "an array of strings");
+  const auto fill = typed<std::vector<double>>(path, member(path, kept, "fill", "kept"), "kept.fill", "an array of numbers");
+  // centre and scale may hold null for a feature whose value was undefined; they are only used
+  // with transform.scale, where they are always defined.
+  auto optional_numbers = [&](const char* key) {
+    const json& a = member(path, kept, key, "kept");
+    if (!a.is_array()) bad_plan(path, std::string("field kept.") + key + " must be an array of numbers");
+    std::vector<double> out;
+    for (const auto& v : a) {
+      if (v.is_null()) out.push_back(std::numeric_limits<double>::quiet_NaN());
+      else if (v.is_number()) out.push_back(v.get<double>());
+      else bad_plan(path, std::string("field kept.") + key + " must be an array of numbers");
+    }
+    return out;
+  };
+  p.center = optional_numbers("center");
+  p.spread = optional_numbers("scale");
+  const std::size_t k = p.names.size();
+  if (k == 0) bad_plan(path, "field kept.names is empty");
+  if (fill.size() != k || p.center.size() != k || p.spread.size() != k)
+    bad_plan(path, "fields kept.names, kept.fill, kept.center and kept.scale must have the same length");
+  for (std::size_t i = 0; i < k; ++i) {
+    p.fill.push_back(static_cast<float>(fill[i]));
+    if (p.scale && (std::isnan(p.center[i]) || !(p.spread[i] > 0)))
+      bad_plan(path, "kept.center and kept.scale must be numbers (scale > 0) for feature " + p.names[i]);
+  }
+  return p;
+}
+
+FeatureTable apply_plan(const Plan& plan, const FeatureTable& data, bool allow_missing, ApplyReport& report,
+                        int threads) {
+  std::unordered_map<std::string_view, std::int64_t> column_of;
+  column_of.reserve(static_cast<std::size_t>(data.n_features()) * 2);
+  std::unordered_map<std::string_view, int> used;
+  for (std::int64_t j = 0; j < data.n_features(); ++j) {
+    const auto [it, fresh] = column_of.emplace(data.feature_names[static_cast<std::size_t>(j)], j);
+    if (!fresh) it->second = -2;  // duplicate name: ambiguous
+  }
+  const std::size_t k = plan.names.size();
+  std::vector<std::int64_t> source(k, -1);
+  report = ApplyReport{};
+  for (std::size_t i = 0; i < k; ++i) {
+    const auto it = column_of.find(plan.names[i]);
+    if (it == column_of.end()) {
+      report.absent.push_back(plan.names[i]);
+      continue;
+    }
+    if (it->second == -2)
+      throw_input_error({data.source}, "feature " + plan.names[i] + " of the plan appears more than once in the data",
+                        "feature names must be unique to be matched");
+    source[i] = it->second;
+  }
+  if (!report.absent.empty() && !allow_missing) {
+    std::string names;
+    for (std::size_t i = 0; i < report.absent.size() && i < 10; ++i) names += (i ? ", " : "") + report.absent[i];
+    if (report.absent.size() > 10) names += ", ...";
+    throw_input_error({data.source},
+                      std::to_string(report.absent.size()) + " of the plan's " + std::to_string(k) +
+                          " features are not in the data: " + names,
+                      "check the layout and the names, or pass --allow-missing-features to fill them with the "
+                      "training values");
+  }
+  report.extra = data.n_features() - static_cast<std::int64_t>(k - report.absent.size());
+
+  FeatureTable out;
+  const Eigen::Index n = data.values.rows();
+  out.values.resize(n, static_cast<Eigen::Index>(k));
+  out.feature_names = plan.names;
+  out.sample_ids = data.sample_ids;
+  out.labels = data.labels;
+  out.label_name = data.label_name;
+  out.id_name = data.id_name;
+  out.source = data.source;
+  out.delimiter = data.delimiter;
+  out.layout = data.layout;
+  report.filled.assign(k, 0);
+#pragma omp parallel for schedule(dynamic, 16) num_threads(internal::thread_count(threads))
+  for (std::size_t i = 0; i < k; ++i) {
+    float* y = out.values.col(static_cast<Eigen::Index>(i)).data();
+    const float* x = source[i] >= 0 ? data.values.col(source[i]).data() : nullptr;
+    std::int64_t filled = 0;
+    for (Eigen::Index s = 0; s < n; ++s) {
+      float v = x ? x[s] : std::numeric_limits<float>::quiet_NaN();
+      if (std::isnan(v)) {
+        v = plan.fill[i];
+        ++filled;
+      }
+      v = transform_value(v, plan.log2);
+      if (plan.scale) v = static_cast<float>((static_cast<double>(v) - plan.center[i]) / plan.spread[i]);
+      y[s] = v;
+    }
+    report.filled[i] = filled;
+  }
+  if (plan.log2)
+    for (std::size_t i = 0; i < k; ++i)
+      if (source[i] >= 0 && (data.values.col(source[i]).array() < 0).any())
+        throw_input_error({data.source}, "feature " + plan.names[i] + " has negative values, but the plan applies log2",
+                          "the new data must be on the same scale as the training data");
+  return out;
+}
+
+}  // namespace pare

@@ -1,0 +1,168 @@
+#include "pare/prune.h"
+
+#include <algorithm>  // std::max, std::min
+#include <cmath>      // std::abs, std::sqrt
+
+#include "internal/omp.h"
+#include "pare/error.h"
+
+namespace pare {
+
+namespace {
+
+// Mean and root of the centred sum of squares of a column, in double.
+struct Moments {
+  double mean = 0;
+  double norm = 0;  // sqrt(sum (x - mean)^2); 0 for a constant column
+};
+
+Moments moments_of(const float* x, Eigen::Index n) {
+  double sum = 0;
+  for (Eigen::Index i = 0; i < n; ++i) sum += static_cast<double>(x[i]);
+  Moments m;
+  m.mean = sum / static_cast<double>(n);
+  double ss = 0;
+  for (Eigen::Index i = 0; i < n; ++i) {
+    const double d = static_cast<double>(x[i]) - m.mean;
+    ss += d * d;
+  }
+  m.norm = std::sqrt(ss);
+  return m;
+}
+
+// Pearson r of two columns, in double.
+double exact_r(const float* a, const Moments& ma, const float* b, const Moments& mb, Eigen::Index n) {
+  if (ma.norm == 0 || mb.norm == 0) return 0;
+  double s = 0;
+  for (Eigen::Index i = 0; i < n; ++i)
+    s += (static_cast<double>(a[i]) - ma.mean) * (static_cast<double>(b[i]) - mb.mean);
+  return s / (ma.norm * mb.norm);
+}
+
+}  // namespace
+
+PruneResult prune_correlated(const Matrix& m, std::span<const std::int64_t> candidates,
+                             const PruneOptions& options) {
+  if (!(options.max_corr >= 0 && options.max_corr <= 1))
+    throw_usage_error("--max-corr must be between 0 and 1");
+  const Eigen::Index n = m.rows();
+  const auto count = static_cast<std::int64_t>(candidates.size());
+  const double limit = options.max_corr;
+  // A float32 dot product of two unit vectors of length n is within about n * 2^-24 of the exact
+  // value (a generous bound; the typical error is sqrt(n) times smaller). Pairs inside this margin
+  // of the threshold are decided in double.
+  const double margin = 1e-6 + 2.0 * static_cast<double>(n) * 5.96e-8;
+  const int threads = internal::thread_count(options.threads);
+  Eigen::setNbThreads(threads);
+
+  PruneResult out;
+  out.partner.assign(static_cast<std::size_t>(count), -1);
+  out.r.assign(static_cast<std::size_t>(count), 0.0);
+  out.kept.assign(static_cast<std::size_t>(count), 0);
+
+  std::vector<Moments> moments(static_cast<std::size_t>(count));
+  std::vector<std::int64_t> kept_positions;  // candidate positions of the kept features, in order
+  Matrix zk(n, 0);                           // their standardised columns (first kept_positions.size())
+  const std::int64_t block = std::max<std::int64_t>(1, options.block);
+  auto col = [&](std::int64_t position) { return m.col(candidates[static_cast<std::size_t>(position)]).data(); };
+
+  // Decides whether candidate `c` is dropped by the pairs (kept position, float r) given, and by whom.
+  auto decide = [&](std::int64_t c, std::int64_t best, float best_r, const std::vector<std::int64_t>& near) {
+    const auto ci = static_cast<std::size_t>(c);
+    if (std::abs(best_r) > limit + margin) {
+      out.partner[ci] = best;
+      out.r[ci] = exact_r(col(best), moments[static_cast<std::size_t>(best)], col(c), moments[ci], n);
+      return true;
+    }
+    // Within the margin: the exact r of every near pair decides; the first (in rank order) of the
+    // largest |r| is named.
+    double top = -1;
+    std::int64_t who = -1;
+    for (const std::int64_t k : near) {
+      const double r = exact_r(col(k), moments[static_cast<std::size_t>(k)], col(c), moments[ci], n);
+      if (std::abs(r) > limit && std::abs(r) > top) {
+        top = std::abs(r);
+        who = k;
+        out.r[ci] = r;
+      }
+    }
+    if (who < 0) return false;
+    out.partner[ci] = who;
+    return true;
+  };
+
+  for (std::int64_t start = 0; start < count; start += block) {
+    if (options.max_kept > 0 && static_cast<std::int64_t>(kept_positions.size()) >= options.max_kept) break;
+    const std::int64_t width = std::min(block, count - start);
+    // Standardise the block: z = (x - mean) / norm, so z_a . z_b = r.
+    Matrix zb(n, width);
+#pragma omp parallel for schedule(static) num_threads(threads)
+    for (std::int64_t b = 0; b < width; ++b) {
+      const float* x = col(start + b);
+      const Moments mo = moments_of(x, n);
+      moments[static_cast<std::size_t>(start + b)] = mo;
+      const double scale = mo.norm > 0 ? 1.0 / mo.norm : 0.0;
+      for (Eigen::Index i = 0; i < n; ++i)
+        zb(i, b) = static_cast<float>((static_cast<double>(x[i]) - mo.mean) * scale);
+    }
+    const auto n_kept = static_cast<Eigen::Index>(kept_positions.size());
+    std::vector<char> dropped(static_cast<std::size_t>(width), 0);
+    if (n_kept > 0) {
+      const Matrix c = zk.leftCols(n_kept).transpose() * zb;  // n_kept x width
+#pragma omp parallel for schedule(dynamic, 16) num_threads(threads)
+      for (std::int64_t b = 0; b < width; ++b) {
+        std::int64_t best = -1;
+        float best_r = 0;
+        std::vector<std::int64_t> near;
+        for (Eigen::Index k = 0; k < n_kept; ++k) {
+          const float r = c(k, b);
+          if (std::abs(r) > std::abs(best_r) || best < 0) {
+            best_r = r;
+            best = kept_positions[static_cast<std::size_t>(k)];
+          }
+          if (std::abs(r) > limit - margin) near.push_back(kept_positions[static_cast<std::size_t>(k)]);
+        }
+        if (best >= 0 && std::abs(best_r) > limit - margin)
+          dropped[static_cast<std::size_t>(b)] = decide(start + b, best, best_r, near);
+      }
+    }
+    // Within the block the walk is sequential: a survivor is compared with the block's earlier
+    // survivors through the block's own Gram matrix.
+    const Matrix g = zb.transpose() * zb;
+    std::vector<Eigen::Index> block_kept;
+    for (std::int64_t b = 0; b < width; ++b) {
+      if (options.max_kept > 0 && static_cast<std::int64_t>(kept_positions.size() + block_kept.size()) >= options.max_kept)
+        break;
+      out.examined = start + b + 1;
+      if (dropped[static_cast<std::size_t>(b)]) continue;
+      std::int64_t best = -1;
+      float best_r = 0;
+      std::vector<std::int64_t> near;
+      for (const Eigen::Index j : block_kept) {
+        const float r = g(j, b);
+        if (std::abs(r) > std::abs(best_r) || best < 0) {
+          best_r = r;
+          best = start + j;
+        }
+        if (std::abs(r) > limit - margin) near.push_back(start + j);
+      }
+      if (best >= 0 && std::abs(best_r) > limit - margin && decide(start + b, best, best_r, near)) continue;
+      block_kept.push_back(b);
+    }
+    // Append the block's survivors to the kept set (capacity doubles to keep copies rare).
+    const auto new_kept = n_kept + static_cast<Eigen::Index>(block_kept.size());
+    if (new_kept > zk.cols()) {
+      Matrix grown(n, std::max<Eigen::Index>(new_kept, 2 * zk.cols()));
+      grown.leftCols(n_kept) = zk.leftCols(n_kept);
+      zk.swap(grown);
+    }
+    for (std::size_t t = 0; t < block_kept.size(); ++t) {
+      zk.col(n_kept + static_cast<Eigen::Index>(t)) = zb.col(block_kept[t]);
+      kept_positions.push_back(start + block_kept[t]);
+      out.kept[static_cast<std::size_t>(start + block_kept[t])] = 1;
+    }
+  }
+  return out;
+}
+
+}  // namespace pare

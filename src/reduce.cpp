@@ -1,0 +1,439 @@
+#include "pare/reduce.h"
+
+#include <algorithm>  // std::nth_element, std::stable_sort
+#include <chrono>     // std::chrono::steady_clock
+#include <cmath>      // std::log2, std::isnan, std::sqrt
+#include <cstdio>     // std::snprintf
+#include <limits>     // std::numeric_limits
+#include <numeric>    // std::iota
+
+#include "internal/format.h"
+#include "internal/omp.h"
+#include "pare/error.h"
+
+namespace pare {
+
+namespace {
+
+constexpr double kNaN = std::numeric_limits<double>::quiet_NaN();
+
+std::string g3(double v) {
+  char buffer[32];
+  std::snprintf(buffer, sizeof buffer, "%.3g", v);
+  return buffer;
+}
+
+class Timer {
+ public:
+  double lap() {
+    const auto now = std::chrono::steady_clock::now();
+    const double s = std::chrono::duration<double>(now - last_).count();
+    last_ = now;
+    return s;
+  }
+
+ private:
+  std::chrono::steady_clock::time_point last_ = std::chrono::steady_clock::now();
+};
+
+float median_of_observed(const float* x, Eigen::Index n, std::vector<float>& scratch) {
+  scratch.clear();
+  for (Eigen::Index i = 0; i < n; ++i)
+    if (!std::isnan(x[i])) scratch.push_back(x[i]);
+  if (scratch.empty()) return 0.0f;
+  const std::size_t mid = scratch.size() / 2;
+  std::nth_element(scratch.begin(), scratch.begin() + static_cast<std::ptrdiff_t>(mid), scratch.end());
+  const float upper = scratch[mid];
+  if (scratch.size() % 2 == 1) return upper;
+  const float lower = *std::max_element(scratch.begin(), scratch.begin() + static_cast<std::ptrdiff_t>(mid));
+  return static_cast<float>((static_cast<double>(lower) + static_cast<double>(upper)) / 2);
+}
+
+const char* test_name(Criterion c) {
+  switch (c) {
+    case Criterion::kF: return "F-test";
+    case Criterion::kChi2Counts: return "counts chi-square";
+    default: return "chi-square test";
+  }
+}
+
+}  // namespace
+
+Impute parse_impute(const std::string& name) {
+  if (name == "mean") return Impute::kMean;
+  if (name == "median") return Impute::kMedian;
+  if (name == "zero") return Impute::kZero;
+  throw_usage_error("--impute " + name + " is not one of mean, median, zero");
+}
+
+const char* impute_name(Impute i) {
+  return i == Impute::kMean ? "mean" : i == Impute::kMedian ? "median" : "zero";
+}
+
+float transform_value(float x, bool log2) {
+  return log2 ? static_cast<float>(std::log2(static_cast<double>(x) + 1.0)) : x;
+}
+
+Reduction reduce(FeatureTable& t, const ReduceOptions& o) {
+  const Eigen::Index n = t.values.rows();
+  const auto p = static_cast<std::int64_t>(t.values.cols());
+  const int threads = internal::thread_count(o.threads);
+  Reduction r;
+  r.decisions.resize(static_cast<std::size_t>(p));
+  r.variance.assign(static_cast<std::size_t>(p), kNaN);
+  r.score_of.assign(static_cast<std::size_t>(p), -1);
+  r.fill.assign(static_cast<std::size_t>(p), std::numeric_limits<float>::quiet_NaN());
+  r.supervised = o.relevance && t.has_labels();
+  r.criterion = r.supervised ? o.rank_by : Criterion::kVariance;
+  if (!(o.max_missing >= 0 && o.max_missing <= 1)) throw_usage_error("--max-missing must be between 0 and 1");
+  if (!(o.drop_low_variance >= 0 && o.drop_low_variance < 1))
+    throw_usage_error("--drop-low-variance must be at least 0 and below 1");
+  if (!(o.fdr > 0 && o.fdr <= 1)) throw_usage_error("--fdr must be in (0, 1]");
+  if (o.keep < 0) throw_usage_error("--keep must be 0 (all) or more");
+  auto drop = [&](std::int64_t j, const char* step, std::string reason) {
+    Decision& d = r.decisions[static_cast<std::size_t>(j)];
+    d.step = step;
+    d.reason = std::move(reason);
+  };
+  Timer timer;
+
+  // 1. missing filter
+  r.raw_stats = compute_column_stats(t.values, threads);
+  std::vector<std::int64_t> alive;
+  alive.reserve(static_cast<std::size_t>(p));
+  for (std::int64_t j = 0; j < p; ++j) {
+    const double rate = r.raw_stats[static_cast<std::size_t>(j)].missing_rate();
+    if (o.missing_filter && rate > o.max_missing)
+      drop(j, "missing", "missing rate " + g3(rate) + " > " + g3(o.max_missing));
+    else
+      alive.push_back(j);
+  }
+  r.steps.push_back({"missing", p, static_cast<std::int64_t>(alive.size()), timer.lap()});
+
+  // 2. imputation: learn the fill values now (raw scale); cells are filled after scoring, which
+  // uses observed cells only, so the order of SPEC §4 is kept in effect.
+  {
+    std::vector<float> scratch;
+#pragma omp parallel for schedule(dynamic, 64) num_threads(threads) firstprivate(scratch)
+    for (std::size_t a = 0; a < alive.size(); ++a) {
+      const std::int64_t j = alive[a];
+      const ColumnStats& s = r.raw_stats[static_cast<std::size_t>(j)];
+      float fill = 0.0f;
+      if (s.n > 0 && o.impute == Impute::kMean) fill = static_cast<float>(s.mean);
+      if (s.n > 0 && o.impute == Impute::kMedian) fill = median_of_observed(t.values.col(j).data(), n, scratch);
+      r.fill[static_cast<std::size_t>(j)] = fill;
+    }
+  }
+  const auto n_alive = static_cast<std::int64_t>(alive.size());
+  r.steps.push_back({"impute", n_alive, n_alive, timer.lap()});
+
+  // 3. transform
+  if (o.log2) {
+    for (const std::int64_t j : alive)
+      if (r.raw_stats[static_cast<std::size_t>(j)].n > 0 && r.raw_stats[static_cast<std::size_t>(j)].min < 0)
+        throw Error(ErrorKind::kInput, t.source + ": feature " + t.feature_names[static_cast<std::size_t>(j)] +
+                                           " has negative values (min " + g3(r.raw_stats[static_cast<std::size_t>(j)].min) +
+                                           "), so --log2 cannot apply (leave out --log2, or transform it yourself)");
+#pragma omp parallel for schedule(dynamic, 64) num_threads(threads)
+    for (std::size_t a = 0; a < alive.size(); ++a) {
+      float* x = t.values.col(alive[a]).data();
+      for (Eigen::Index i = 0; i < n; ++i)
+        if (!std::isnan(x[i])) x[i] = transform_value(x[i], true);
+    }
+  }
+  r.steps.push_back({"transform", n_alive, n_alive, timer.lap()});
+
+  // 4. variance filter, on the observed transformed values
+  {
+    std::vector<ColumnStats> stats(alive.size());
+    if (o.log2) {
+#pragma omp parallel for schedule(dynamic, 64) num_threads(threads)
+      for (std::size_t a = 0; a < alive.size(); ++a)
+        stats[a] = column_stats(std::span<const float>(t.values.col(alive[a]).data(), static_cast<std::size_t>(n)));
+    } else {
+      for (std::size_t a = 0; a < alive.size(); ++a) stats[a] = r.raw_stats[static_cast<std::size_t>(alive[a])];
+    }
+    std::vector<std::int64_t> next;
+    for (std::size_t a = 0; a < alive.size(); ++a) {
+      const std::int64_t j = alive[a];
+      const double v = stats[a].variance;
+      r.variance[static_cast<std::size_t>(j)] = v;
+      if (!o.variance_filter) {
+        next.push_back(j);
+      } else if (std::isnan(v)) {
+        drop(j, "variance", "fewer than 2 observed values");
+      } else if (v < o.min_variance) {
+        drop(j, "variance", "variance " + g3(v) + " < " + g3(o.min_variance));
+      } else {
+        next.push_back(j);
+      }
+    }
+    if (o.variance_filter && o.drop_low_variance > 0 && !next.empty()) {
+      std::vector<std::int64_t> by_variance = next;
+      std::stable_sort(by_variance.begin(), by_variance.end(), [&](std::int64_t a, std::int64_t b) {
+        return r.variance[static_cast<std::size_t>(a)] < r.variance[static_cast<std::size_t>(b)];
+      });
+      const auto cut = static_cast<std::size_t>(o.drop_low_variance * static_cast<double>(by_variance.size()));
+      if (cut > 0) {
+        const double boundary = r.variance[static_cast<std::size_t>(by_variance[cut - 1])];
+        std::vector<char> gone(static_cast<std::size_t>(p), 0);
+        for (std::size_t k = 0; k < cut; ++k) {
+          const std::int64_t j = by_variance[k];
+          gone[static_cast<std::size_t>(j)] = 1;
+          drop(j, "variance",
+               "variance " + g3(r.variance[static_cast<std::size_t>(j)]) + " in the lowest " +
+                   g3(100 * o.drop_low_variance) + "% (cut at " + g3(boundary) + ")");
+        }
+        std::erase_if(next, [&](std::int64_t j) { return gone[static_cast<std::size_t>(j)] != 0; });
+      }
+    }
+    r.steps.push_back({"variance", n_alive, static_cast<std::int64_t>(next.size()), timer.lap()});
+    alive.swap(next);
+  }
+
+  // 5. relevance: score and rank (or rank by variance without labels), then the --fdr filter
+  std::vector<std::int64_t> ordered;
+  if (r.supervised && !alive.empty()) {
+    const ClassCodes classes = encode_classes(t.labels);
+    ScoreOptions so = o.score;
+    so.threads = o.threads;
+    so.counts_chi2 = o.rank_by == Criterion::kChi2Counts;
+    r.scores = score_features(t.values, alive, classes, so);
+    for (const std::size_t pos : rank_order(r.scores, r.criterion)) {
+      const std::int64_t j = r.scores.feature[pos];
+      r.score_of[static_cast<std::size_t>(j)] = static_cast<std::int64_t>(pos);
+      const double q = criterion_q(r.scores, r.criterion, pos);
+      if (o.fdr < 1 && r.criterion != Criterion::kVariance && q > o.fdr)
+        drop(j, "relevance", std::string(test_name(r.criterion)) + " q = " + g3(q) + " > " + g3(o.fdr));
+      else
+        ordered.push_back(j);
+    }
+  } else {
+    ordered = alive;
+    std::stable_sort(ordered.begin(), ordered.end(), [&](std::int64_t a, std::int64_t b) {
+      return r.variance[static_cast<std::size_t>(a)] > r.variance[static_cast<std::size_t>(b)];
+    });
+  }
+  r.steps.push_back({"relevance", static_cast<std::int64_t>(alive.size()),
+                     static_cast<std::int64_t>(ordered.size()), timer.lap()});
+
+  // Fill the gaps of the candidates (transformed fill value, as apply will compute it).
+#pragma omp parallel for schedule(dynamic, 64) num_threads(threads)
+  for (std::size_t a = 0; a < ordered.size(); ++a) {
+    const std::int64_t j = ordered[a];
+    const float fill = transform_value(r.fill[static_cast<std::size_t>(j)], o.log2);
+    float* x = t.values.col(j).data();
+    for (Eigen::Index i = 0; i < n; ++i)
+      if (std::isnan(x[i])) x[i] = fill;
+  }
+
+  // 6. redundancy
+  std::vector<std::int64_t> survivors;
+  std::vector<std::int64_t> unexamined;
+  if (o.prune) {
+    PruneOptions po;
+    po.max_corr = o.max_corr;
+    po.max_kept = o.keep;
+    po.threads = o.threads;
+    const PruneResult pr = prune_correlated(t.values, ordered, po);
+    std::vector<std::int64_t> kept_rank(ordered.size(), 0);
+    std::int64_t rank = 0;
+    for (std::size_t i = 0; i < ordered.size(); ++i)
+      if (pr.kept[i]) kept_rank[i] = ++rank;
+    for (std::size_t i = 0; i < ordered.size(); ++i) {
+      const std::int64_t j = ordered[i];
+      if (pr.kept[i]) {
+        survivors.push_back(j);
+      } else if (static_cast<std::int64_t>(i) >= pr.examined) {
+        unexamined.push_back(j);
+      } else {
+        const auto partner = static_cast<std::size_t>(pr.partner[i]);
+        char buffer[32];
+        std::snprintf(buffer, sizeof buffer, "%.3f", std::abs(pr.r[i]));
+        drop(j, "redundancy",
+             "|r| = " + std::string(buffer) + " with " + t.feature_names[static_cast<std::size_t>(ordered[partner])] +
+                 " (kept, rank " + std::to_string(kept_rank[partner]) + ")");
+        r.decisions[static_cast<std::size_t>(j)].partner = ordered[partner];
+      }
+    }
+  } else {
+    survivors = ordered;
+  }
+  r.steps.push_back({"redundancy", static_cast<std::int64_t>(ordered.size()),
+                     static_cast<std::int64_t>(survivors.size() + unexamined.size()), timer.lap()});
+
+  // 7. top K
+  const std::int64_t before_top = static_cast<std::int64_t>(survivors.size() + unexamined.size());
+  for (std::size_t i = 0; i < survivors.size(); ++i) {
+    const std::int64_t j = survivors[i];
+    if (o.keep > 0 && static_cast<std::int64_t>(i) >= o.keep) {
+      drop(j, "top", "rank " + std::to_string(i + 1) + " after pruning; --keep " + std::to_string(o.keep));
+      continue;
+    }
+    r.kept.push_back(j);
+  }
+  for (const std::int64_t j : unexamined)
+    drop(j, "top", "not reached: the first " + std::to_string(o.keep) + " were already kept (--keep " +
+                       std::to_string(o.keep) + "), so it was not compared for redundancy");
+  r.steps.push_back({"top", before_top, static_cast<std::int64_t>(r.kept.size()), timer.lap()});
+
+  if (r.kept.empty()) {
+    std::string counts;
+    for (const auto& s : r.steps) counts += (counts.empty() ? "" : ", ") + s.name + " " + std::to_string(s.out);
+    throw Error(ErrorKind::kInput, t.source + ": every feature was filtered out (left after each step: " + counts +
+                                       "); loosen the thresholds, e.g. --max-missing, --min-variance, --fdr");
+  }
+
+  // Kept features: their rank, and the centre and scale of the transformed, filled column.
+  r.center.resize(r.kept.size());
+  r.scale.resize(r.kept.size());
+#pragma omp parallel for schedule(dynamic, 16) num_threads(threads)
+  for (std::size_t k = 0; k < r.kept.size(); ++k) {
+    float* x = t.values.col(r.kept[k]).data();
+    const ColumnStats s = column_stats(std::span<const float>(x, static_cast<std::size_t>(n)));
+    r.center[k] = s.mean;
+    r.scale[k] = s.n >= 2 && s.variance > 0 ? std::sqrt(s.variance) : 1.0;
+    if (o.scale)
+      for (Eigen::Index i = 0; i < n; ++i)
+        x[i] = static_cast<float>((static_cast<double>(x[i]) - r.center[k]) / r.scale[k]);
+  }
+  for (std::size_t k = 0; k < r.kept.size(); ++k) {
+    Decision& d = r.decisions[static_cast<std::size_t>(r.kept[k])];
+    d.kept = true;
+    d.step = "kept";
+    d.rank = static_cast<std::int64_t>(k + 1);
+    const std::int64_t pos = r.score_of[static_cast<std::size_t>(r.kept[k])];
+    d.reason = "rank " + std::to_string(k + 1) + " by " + criterion_name(r.criterion) + " (" +
+               g3(pos >= 0 ? criterion_score(r.scores, r.criterion, static_cast<std::size_t>(pos))
+                           : r.variance[static_cast<std::size_t>(r.kept[k])]) +
+               ")";
+  }
+  r.steps.back().seconds += timer.lap();
+  return r;
+}
+
+namespace {
+
+void append_tab_number(std::string& out, double v) {
+  out += '\t';
+  internal::append_number(out, v);
+}
+
+}  // namespace
+
+std::string selection_log_tsv(const FeatureTable& t, const Reduction& r) {
+  const bool counts = !r.scores.counts.empty();
+  std::string out = "feature\tindex\tstatus\tstep\treason\trank";
+  if (r.supervised) out += "\tmi\tchi2\tchi2_p\tchi2_q\tf\tf_p\tf_q";
+  if (counts) out += "\tchi2_counts\tchi2_counts_p\tchi2_counts_q";
+  out += "\tvariance\tmissing_rate\n";
+  for (std::size_t j = 0; j < r.decisions.size(); ++j) {
+    const Decision& d = r.decisions[j];
+    internal::append_field(out, t.feature_names[j], '\t');
+    out += '\t' + std::to_string(j + 1) + '\t' + (d.kept ? "kept" : "dropped") + '\t' + d.step + '\t';
+    internal::append_field(out, d.reason, '\t');
+    out += '\t';
+    if (d.kept) out += std::to_string(d.rank);
+    const std::int64_t pos = r.score_of[j];
+    const auto ps = static_cast<std::size_t>(pos);
+    if (r.supervised) {
+      if (pos >= 0) {
+        for (double v : {r.scores.mi[ps], r.scores.chi2[ps], r.scores.chi2_p[ps], r.scores.chi2_q[ps],
+                         r.scores.f[ps], r.scores.f_p[ps], r.scores.f_q[ps]})
+          append_tab_number(out, v);
+      } else {
+        out += "\tNA\tNA\tNA\tNA\tNA\tNA\tNA";
+      }
+    }
+    if (counts) {
+      if (pos >= 0) {
+        for (double v : {r.scores.counts[ps], r.scores.counts_p[ps], r.scores.counts_q[ps]}) append_tab_number(out, v);
+      } else {
+        out += "\tNA\tNA\tNA";
+      }
+    }
+    append_tab_number(out, r.variance[j]);
+    append_tab_number(out, r.raw_stats[j].missing_rate());
+    out += '\n';
+  }
+  return out;
+}
+
+std::string reduction_ranking_tsv(const FeatureTable& t, const Reduction& r) {
+  if (r.supervised) {
+    std::vector<std::size_t> order;
+    order.reserve(r.kept.size());
+    for (const std::int64_t j : r.kept) order.push_back(static_cast<std::size_t>(r.score_of[static_cast<std::size_t>(j)]));
+    return ranking_tsv(r.scores, order, t.feature_names, !r.scores.counts.empty());
+  }
+  std::string out = "rank\tfeature\tvariance\tmissing_rate\tindex\n";
+  for (std::size_t k = 0; k < r.kept.size(); ++k) {
+    const auto j = static_cast<std::size_t>(r.kept[k]);
+    out += std::to_string(k + 1) + '\t';
+    internal::append_field(out, t.feature_names[j], '\t');
+    append_tab_number(out, r.variance[j]);
+    append_tab_number(out, r.raw_stats[j].missing_rate());
+    out += '\t' + std::to_string(j + 1) + '\n';
+  }
+  return out;
+}
+
+std::string reduced_matrix_text(const FeatureTable& t, const std::vector<std::int64_t>& columns,
+                                const std::vector<std::string>& names) {
+  const char d = t.delimiter;
+  const Eigen::Index n = t.values.rows();
+  std::string out;
+  out.reserve(static_cast<std::size_t>(n) * columns.size() * 10 + 1024);
+  const std::string label_name = t.label_name.empty() ? "label" : t.label_name;
+  if (t.layout == Layout::kRowsAreSamples) {
+    internal::append_field(out, t.id_name.empty() ? "sample" : t.id_name, d);
+    for (const auto& name : names) {
+      out += d;
+      internal::append_field(out, name, d);
+    }
+    if (t.has_labels()) {
+      out += d;
+      internal::append_field(out, label_name, d);
+    }
+    out += '\n';
+    for (Eigen::Index i = 0; i < n; ++i) {
+      internal::append_field(out, t.sample_ids[static_cast<std::size_t>(i)], d);
+      for (const std::int64_t j : columns) {
+        out += d;
+        internal::append_number(out, t.values(i, j));
+      }
+      if (t.has_labels()) {
+        out += d;
+        internal::append_field(out, t.labels[static_cast<std::size_t>(i)], d);
+      }
+      out += '\n';
+    }
+    return out;
+  }
+  internal::append_field(out, t.id_name.empty() ? "feature" : t.id_name, d);
+  for (const auto& id : t.sample_ids) {
+    out += d;
+    internal::append_field(out, id, d);
+  }
+  out += '\n';
+  if (t.has_labels()) {
+    internal::append_field(out, label_name, d);
+    for (const auto& l : t.labels) {
+      out += d;
+      internal::append_field(out, l, d);
+    }
+    out += '\n';
+  }
+  for (std::size_t k = 0; k < columns.size(); ++k) {
+    internal::append_field(out, names[k], d);
+    const float* x = t.values.col(columns[k]).data();
+    for (Eigen::Index i = 0; i < n; ++i) {
+      out += d;
+      internal::append_number(out, x[i]);
+    }
+    out += '\n';
+  }
+  return out;
+}
+
+}  // namespace pare

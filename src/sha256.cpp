@@ -1,0 +1,56 @@
+#include "internal/sha256.h"
+
+#include <openssl/evp.h>
+
+#include <cstring>  // std::strerror
+#include <fstream>  // std::ifstream
+#include <memory>   // std::unique_ptr
+#include <vector>   // std::vector
+
+#include "pare/error.h"
+
+namespace pare::internal {
+
+namespace {
+
+std::string to_hex(const unsigned char* digest, unsigned int length) {
+  static constexpr char kHex[] = "0123456789abcdef";
+  std::string out;
+  out.reserve(2 * length);
+  for (unsigned int i = 0; i < length; ++i) {
+    out += kHex[digest[i] >> 4];
+    out += kHex[digest[i] & 15];
+  }
+  return out;
+}
+
+}  // namespace
+
+std::string sha256_hex(std::string_view bytes) {
+  unsigned char digest[EVP_MAX_MD_SIZE];
+  unsigned int length = 0;
+  if (EVP_Digest(bytes.data(), bytes.size(), digest, &length, EVP_sha256(), nullptr) != 1)
+    throw Error(ErrorKind::kOther, "SHA-256 computation failed");
+  return to_hex(digest, length);
+}
+
+std::string sha256_file(const std::string& path) {
+  std::ifstream in(path, std::ios::binary);
+  if (!in) throw_input_error({path}, std::string("cannot open the file: ") + std::strerror(errno));
+  const std::unique_ptr<EVP_MD_CTX, decltype(&EVP_MD_CTX_free)> ctx(EVP_MD_CTX_new(), &EVP_MD_CTX_free);
+  if (!ctx || EVP_DigestInit_ex(ctx.get(), EVP_sha256(), nullptr) != 1)
+    throw Error(ErrorKind::kOther, "SHA-256 computation failed");
+  std::vector<char> buffer(std::size_t{1} << 20);
+  while (in) {
+    in.read(buffer.data(), static_cast<std::streamsize>(buffer.size()));
+    const auto got = in.gcount();
+    if (got > 0) EVP_DigestUpdate(ctx.get(), buffer.data(), static_cast<std::size_t>(got));
+  }
+  if (in.bad()) throw_input_error({path}, "cannot read the file");
+  unsigned char digest[EVP_MAX_MD_SIZE];
+  unsigned int length = 0;
+  EVP_DigestFinal_ex(ctx.get(), digest, &length);
+  return to_hex(digest, length);
+}
+
+}  // namespace pare::internal
