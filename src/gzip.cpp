@@ -18,10 +18,11 @@ bool is_gzip(std::string_view bytes) {
 std::string gunzip(std::string_view compressed, const std::string& path) {
   std::string out;
   // The trailer's ISIZE (size mod 2^32 of the last member) is a good first guess for one member.
+  // On a damaged file it is garbage, so it is capped by deflate's best ratio (1032:1).
   if (compressed.size() >= 18) {
     std::uint32_t isize = 0;
     std::memcpy(&isize, compressed.data() + compressed.size() - 4, 4);
-    out.reserve(std::min<std::size_t>(isize, std::size_t{1} << 34));
+    out.reserve(std::min<std::size_t>(isize, compressed.size() * 1032));
   }
   z_stream zs{};
   if (inflateInit2(&zs, 15 + 16) != Z_OK) throw Error(ErrorKind::kOther, "zlib init failed");

@@ -101,8 +101,14 @@ void fail(Failure& f, std::int64_t line, std::int64_t column, std::string what,
 class NaTokens {
  public:
   explicit NaTokens(const std::vector<std::string>& tokens) : tokens_(tokens.begin(), tokens.end()) {
-    for (const auto& t : tokens) empty_is_missing_ |= t.empty();
+    for (const auto& t : tokens) {
+      empty_is_missing_ |= t.empty();
+      // A token such as -999 reads as a number, so the fast path of parse_cell must check it too.
+      numeric_ |=
+          !t.empty() && std::string_view("+-.0123456789").find(t[0]) != std::string_view::npos;
+    }
   }
+  bool has_numeric() const { return numeric_; }
   bool contains(std::string_view s) const {
     if (s.empty()) return empty_is_missing_;
     return tokens_.count(std::string(s)) > 0;
@@ -121,9 +127,10 @@ class NaTokens {
  private:
   std::unordered_set<std::string> tokens_;
   bool empty_is_missing_ = false;
+  bool numeric_ = false;
 };
 
-enum class CellStatus { kOk, kNotNumber, kInfinite };
+enum class CellStatus { kOk, kNotNumber, kInfinite, kOutOfRange };
 
 struct CellContext {
   char delim;
@@ -132,7 +139,10 @@ struct CellContext {
 };
 
 bool parse_whole(const char* b, const char* e, float& value) {
-  if (b < e && *b == '+') ++b;
+  if (b < e && *b == '+') {
+    ++b;
+    if (b < e && *b == '-') return false;  // "+-1" is not a number
+  }
   if (b == e) return false;
   const auto r = fast_float::from_chars(b, e, value);
   return r.ec == std::errc() && r.ptr == e;
@@ -145,8 +155,13 @@ CellStatus parse_cell(const char*& p, const char* e, const CellContext& ctx, flo
   {
     const char* q = p;
     if (q < e && *q == '+') ++q;
+    const bool two_signs = q > p && q < e && *q == '-';  // "+-1": left to the slow path to reject
     const auto r = fast_float::from_chars(q, e, value);
-    if (r.ec == std::errc() && (r.ptr == e || *r.ptr == ctx.delim) && std::isfinite(value)) {
+    if (!two_signs && r.ec == std::errc() && (r.ptr == e || *r.ptr == ctx.delim) &&
+        std::isfinite(value)) {
+      if (ctx.na->has_numeric() &&
+          ctx.na->contains(std::string_view(p, static_cast<std::size_t>(r.ptr - p))))
+        value = kMissing;
       p = r.ptr;
       return CellStatus::kOk;
     }
@@ -175,7 +190,12 @@ CellStatus parse_cell(const char*& p, const char* e, const CellContext& ctx, flo
     return CellStatus::kOk;
   }
   if (!parse_whole(b, te, value) || std::isnan(value)) return CellStatus::kNotNumber;
-  if (std::isinf(value) && !ctx.allow_inf) return CellStatus::kInfinite;
+  if (std::isinf(value)) {
+    // A finite decimal beyond the float32 range (1e39) also parses as inf: not what the file says.
+    const char* s = b + (*b == '+' || *b == '-');
+    if (s == te || (*s != 'i' && *s != 'I')) return CellStatus::kOutOfRange;
+    if (!ctx.allow_inf) return CellStatus::kInfinite;
+  }
   return CellStatus::kOk;
 }
 
@@ -188,7 +208,12 @@ void fail_cell(Failure& f, CellStatus status, std::int64_t line, const char* lin
                const char* begin, const char* end, const std::string& column_name,
                const NaTokens& na) {
   const std::int64_t column = begin - line_begin + 1;
-  if (status == CellStatus::kInfinite) {
+  if (status == CellStatus::kOutOfRange) {
+    fail(f, line, column,
+         "value " + cell_text(begin, end) + " in column " + in_quotes(column_name) +
+             " is outside the float32 range (magnitude up to about 3.4e38)",
+         "rescale the data before reading it");
+  } else if (status == CellStatus::kInfinite) {
     fail(f, line, column,
          "infinite value " + cell_text(begin, end) + " in column " + in_quotes(column_name),
          "pass --allow-inf to accept infinite values, or fix the export");
@@ -206,6 +231,7 @@ struct Chunk {
   std::int64_t lines = 0;      // line breaks (= lines) in the chunk
   std::int64_t records = 0;    // non-blank lines that are data records
   std::int64_t label_line = 0;  // 1-based line within the chunk of the label row, 0 if none
+  std::int64_t second_label_line = 0;  // another label row in the same chunk, 0 if none
   std::int64_t first_line = 0;  // 1-based file line of the chunk's first line
   std::int64_t first_record = 0;
   Failure failure;
@@ -328,9 +354,29 @@ namespace {
 
 struct Header {
   std::vector<std::string> fields;
-  const char* data_begin;  // first byte after the header line
+  std::vector<std::int64_t> columns;  // 1-based column where each field starts, quotes included
+  const char* data_begin;             // first byte after the header line
+  std::int64_t first_data_line;       // its 1-based line (a quoted name may hold a line break)
   char delimiter;
 };
+
+// Splits `line` like split_fields and also records where each field starts (1-based column), so
+// error messages point at the field as written, quotes included.
+void split_fields_at(std::string_view line, char delimiter, std::vector<std::string>& fields,
+                     std::vector<std::int64_t>& columns) {
+  fields.clear();
+  columns.clear();
+  const char* p = line.data();
+  const char* end = line.data() + line.size();
+  std::string field;
+  while (true) {
+    columns.push_back(p - line.data() + 1);
+    read_text_field(p, end, delimiter, field);
+    fields.push_back(field);
+    if (p >= end) break;
+    ++p;  // the delimiter
+  }
+}
 
 Header read_header(const std::string& path, const std::string& text, char delimiter) {
   const char* begin = text.data();
@@ -347,8 +393,9 @@ Header read_header(const std::string& path, const std::string& text, char delimi
                       "the first line must name the columns");
   Header h;
   h.delimiter = delimiter ? delimiter : detect_delimiter(line);
-  h.fields = split_fields(line, h.delimiter);
+  split_fields_at(line, h.delimiter, h.fields, h.columns);
   h.data_begin = he < end ? he + 1 : end;
+  h.first_data_line = 2 + std::count(begin, he, '\n');
   return h;
 }
 
@@ -371,8 +418,12 @@ void count_records(std::vector<Chunk>& chunks, const std::string& label_row, cha
     for_each_line(c, [&](const char* b, const char* e, std::int64_t line) {
       c.lines = line;
       if (b == e) return true;
-      if (!label_row.empty() && c.label_line == 0 && starts_with_field(b, e, label_row, delim)) {
-        c.label_line = line;
+      if (!label_row.empty() && starts_with_field(b, e, label_row, delim)) {
+        if (c.label_line == 0) {
+          c.label_line = line;
+          return true;
+        }
+        if (c.second_label_line == 0) c.second_label_line = line;  // reported once lines are numbered
         return true;
       }
       ++c.records;
@@ -454,6 +505,7 @@ FeatureTable read_rows_are_samples(const std::string& path, const std::string& t
   t.source = path;
   t.delimiter = delim;
   t.layout = Layout::kRowsAreSamples;
+  t.id_name = h.fields[0];
   t.label_name = options.label_column;
   // field index -> feature index (-1 for the id and the label column)
   std::vector<std::int64_t> feature_of(static_cast<std::size_t>(n_fields), -1);
@@ -470,9 +522,9 @@ FeatureTable read_rows_are_samples(const std::string& path, const std::string& t
   const char* end = text.data() + text.size();
   auto chunks = cut_chunks(h.data_begin, end);
   count_records(chunks, {}, delim, threads);
-  const std::int64_t n = number_chunks(chunks, 2);
+  const std::int64_t n = number_chunks(chunks, h.first_data_line);
   if (n == 0)
-    throw_input_error({path, 2, 1}, "no data lines after the header",
+    throw_input_error({path, h.first_data_line, 1}, "no data lines after the header",
                       "each sample needs a line of values");
 
   t.values.resize(n, p);
@@ -560,27 +612,27 @@ FeatureTable read_rows_are_features(const std::string& path, const std::string& 
   t.source = path;
   t.delimiter = delim;
   t.layout = Layout::kRowsAreFeatures;
+  t.id_name = h.fields[0];
   t.label_name = options.label_column;
   t.sample_ids.assign(h.fields.begin() + 1, h.fields.end());
   {
-    std::vector<std::int64_t> lines(static_cast<std::size_t>(n), 1), columns(static_cast<std::size_t>(n));
-    // Column of each header field, counted in bytes from the line start.
-    std::int64_t col = 1;
-    for (std::int64_t j = 0; j < n_fields; ++j) {
-      if (j > 0) columns[static_cast<std::size_t>(j - 1)] = col;
-      col += static_cast<std::int64_t>(h.fields[static_cast<std::size_t>(j)].size()) + 1;
-    }
+    std::vector<std::int64_t> lines(static_cast<std::size_t>(n), 1);
+    const std::vector<std::int64_t> columns(h.columns.begin() + 1, h.columns.end());
     check_unique_sample_ids(path, t.sample_ids, lines, columns);
   }
 
   const char* end = text.data() + text.size();
   auto chunks = cut_chunks(h.data_begin, end);
   count_records(chunks, options.label_column, delim, threads);
-  const std::int64_t p = number_chunks(chunks, 2);
+  const std::int64_t p = number_chunks(chunks, h.first_data_line);
   std::int64_t label_line = 0;
   const Chunk* label_chunk = nullptr;
   for (const auto& c : chunks) {
     if (c.label_line == 0) continue;
+    if (c.second_label_line != 0 && label_line == 0)
+      throw_input_error({path, c.first_line + c.second_label_line - 1, 1},
+                        "a second line of labels named " + in_quotes(options.label_column),
+                        "first seen on line " + std::to_string(c.first_line + c.label_line - 1));
     if (label_line != 0)
       throw_input_error({path, c.first_line + c.label_line - 1, 1},
                         "a second line of labels named " + in_quotes(options.label_column),
@@ -593,7 +645,7 @@ FeatureTable read_rows_are_features(const std::string& path, const std::string& 
                       "with --layout rows=features the labels are a line whose first field is "
                       "that name");
   if (p == 0)
-    throw_input_error({path, 2, 1}, "no data lines after the header",
+    throw_input_error({path, h.first_data_line, 1}, "no data lines after the header",
                       "each feature needs a line of values");
 
   t.values.resize(n, p);
@@ -611,7 +663,10 @@ FeatureTable read_rows_are_features(const std::string& path, const std::string& 
       const std::int64_t line = c.first_line + local_line - 1;
       const char* q = b;
       if (&c == label_chunk && local_line == c.label_line) {
-        std::vector<std::string> fields = split_fields(std::string_view(b, static_cast<std::size_t>(e - b)), delim);
+        std::vector<std::string> fields;
+        std::vector<std::int64_t> columns;
+        split_fields_at(std::string_view(b, static_cast<std::size_t>(e - b)), delim, fields,
+                        columns);
         if (static_cast<std::int64_t>(fields.size()) != n_fields) {
           fail(c.failure, line, e - b + 1,
                "the label line has " + std::to_string(fields.size()) + " fields, the header has " +
@@ -620,12 +675,7 @@ FeatureTable read_rows_are_features(const std::string& path, const std::string& 
           return false;
         }
         t.labels.assign(fields.begin() + 1, fields.end());
-        label_columns.assign(static_cast<std::size_t>(n), 1);
-        std::int64_t col = static_cast<std::int64_t>(fields[0].size()) + 2;
-        for (std::int64_t j = 0; j < n; ++j) {
-          label_columns[static_cast<std::size_t>(j)] = col;
-          col += static_cast<std::int64_t>(fields[static_cast<std::size_t>(j + 1)].size()) + 1;
-        }
+        label_columns.assign(columns.begin() + 1, columns.end());
         return true;
       }
       std::string& name = t.feature_names[static_cast<std::size_t>(record)];
@@ -705,7 +755,7 @@ SampleSheet read_sample_sheet(const std::string& spec, char delimiter) {
   const NaTokens na(default_na_tokens());
   const char* p = h.data_begin;
   const char* end = text.data() + text.size();
-  std::int64_t line = 1;
+  std::int64_t line = h.first_data_line - 1;
   std::unordered_map<std::string, std::int64_t> seen;
   while (p < end) {
     const char* nl = static_cast<const char*>(std::memchr(p, '\n', static_cast<std::size_t>(end - p)));
@@ -735,7 +785,8 @@ SampleSheet read_sample_sheet(const std::string& spec, char delimiter) {
     sheet.lines.push_back(line);
   }
   if (sheet.ids.empty())
-    throw_input_error({sheet.path, 2, 1}, "the sample sheet has no lines after the header",
+    throw_input_error({sheet.path, h.first_data_line, 1},
+                      "the sample sheet has no lines after the header",
                       "one line per sample: id, then label");
   return sheet;
 }

@@ -3,9 +3,12 @@
 #include <nlohmann/json.hpp>
 
 #include <cmath>          // std::isnan
+#include <filesystem>     // std::filesystem::path
+#include <limits>         // std::numeric_limits
 #include <unordered_map>  // std::unordered_map
 
 #include "internal/omp.h"
+#include "internal/sha256.h"
 #include "pare/error.h"
 
 namespace pare {
@@ -23,7 +26,8 @@ std::string delimiter_text(char d) { return std::string(1, d); }
 
 }  // namespace
 
-std::string plan_json(const FeatureTable& t, const Reduction& r, const ReduceOptions& o, const RunRecord& run) {
+std::string plan_json(const FeatureTable& t, const Reduction& r, const ReduceOptions& o, const RunRecord& run,
+                      const PlanProjection& pp) {
   json plan;
   plan["pare_plan"] = kPlanFormat;
   plan["pare_version"] = PARE_VERSION;
@@ -81,6 +85,28 @@ std::string plan_json(const FeatureTable& t, const Reduction& r, const ReduceOpt
                   {"center", center},
                   {"scale", spread}};
   plan["outputs"] = {{"ranking", "ranking.tsv"}, {"selection_log", "selection-log.tsv"}, {"reduced", "reduced.csv"}};
+  if (pp.projection) {
+    const Projection& pr = *pp.projection;
+    json center = json::array(), scale = json::array();
+    for (Eigen::Index j = 0; j < pr.center.size(); ++j) {
+      center.push_back(pr.center(j));
+      scale.push_back(pr.scale(j));
+    }
+    plan["projection"] = {{"components", pr.singular_values.size()},
+                          {"center", pp.center},
+                          {"scale", pp.scale},
+                          {"method", pr.method},
+                          {"precision", pr.precision},
+                          {"iterations", pr.iterations},
+                          {"residual", pr.residual},
+                          {"loadings", pp.loadings_file},
+                          {"loadings_sha256", pp.loadings_sha256},
+                          {"feature_center", center},
+                          {"feature_scale", scale}};
+    plan["outputs"]["scores"] = "scores.csv";
+    plan["outputs"]["loadings"] = pp.loadings_file;
+    plan["outputs"]["explained"] = "explained.tsv";
+  }
   return plan.dump(1) + "\n";
 }
 
@@ -171,6 +197,37 @@ Plan load_plan(const std::string& path) {
     p.fill.push_back(static_cast<float>(fill[i]));
     if (p.scale && (std::isnan(p.center[i]) || !(p.spread[i] > 0)))
       bad_plan(path, "kept.center and kept.scale must be numbers (scale > 0) for feature " + p.names[i]);
+  }
+  const auto projection = plan.find("projection");
+  if (projection != plan.end() && !projection->is_null()) {
+    const json& pj = *projection;
+    p.components = typed<std::int64_t>(path, member(path, pj, "components", "projection"), "projection.components",
+                                       "an integer");
+    const auto center = typed<std::vector<double>>(path, member(path, pj, "feature_center", "projection"),
+                                                   "projection.feature_center", "an array of numbers");
+    const auto scale = typed<std::vector<double>>(path, member(path, pj, "feature_scale", "projection"),
+                                                  "projection.feature_scale", "an array of numbers");
+    const auto file = typed<std::string>(path, member(path, pj, "loadings", "projection"), "projection.loadings",
+                                         "a file name");
+    const auto sha = typed<std::string>(path, member(path, pj, "loadings_sha256", "projection"),
+                                        "projection.loadings_sha256", "a string");
+    if (center.size() != k || scale.size() != k || p.components < 1 || p.components > static_cast<std::int64_t>(k))
+      bad_plan(path, "projection.feature_center, feature_scale and components do not match kept.names");
+    for (double v : scale)
+      if (!(v > 0)) bad_plan(path, "projection.feature_scale must hold positive numbers");
+    if (file.empty() || file.find('/') != std::string::npos || file == "..")
+      bad_plan(path, "projection.loadings must be a file name next to plan.json");
+    const std::string loadings_path = (std::filesystem::path(path).parent_path() / file).string();
+    const std::string actual = internal::sha256_file(loadings_path);
+    if (actual != sha)
+      throw_input_error({loadings_path}, "SHA-256 " + actual + " does not match the plan's " + sha,
+                        "the loadings file was changed after the plan was written; rerun pare reduce");
+    p.pca_center = Eigen::Map<const Eigen::VectorXd>(center.data(), static_cast<Eigen::Index>(k));
+    p.pca_scale = Eigen::Map<const Eigen::VectorXd>(scale.data(), static_cast<Eigen::Index>(k));
+    p.loadings = read_loadings_tsv(loadings_path, p.names);
+    if (p.loadings.cols() != p.components)
+      throw_input_error({loadings_path}, "the loadings file has " + std::to_string(p.loadings.cols()) +
+                                             " components, the plan " + std::to_string(p.components));
   }
   return p;
 }

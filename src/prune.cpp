@@ -1,8 +1,9 @@
 #include "pare/prune.h"
 
-#include <algorithm>  // std::max, std::min
+#include <algorithm>  // std::clamp, std::max, std::min
 #include <cmath>      // std::abs, std::sqrt
 
+#include "internal/gemm.h"
 #include "internal/omp.h"
 #include "pare/error.h"
 
@@ -36,7 +37,9 @@ double exact_r(const float* a, const Moments& ma, const float* b, const Moments&
   double s = 0;
   for (Eigen::Index i = 0; i < n; ++i)
     s += (static_cast<double>(a[i]) - ma.mean) * (static_cast<double>(b[i]) - mb.mean);
-  return s / (ma.norm * mb.norm);
+  // Rounding can put an exact copy at 1 + 2^-52; |r| <= 1 by definition, and --max-corr 1 must
+  // keep copies whichever way the rounding falls.
+  return std::clamp(s / (ma.norm * mb.norm), -1.0, 1.0);
 }
 
 }  // namespace
@@ -53,7 +56,6 @@ PruneResult prune_correlated(const Matrix& m, std::span<const std::int64_t> cand
   // of the threshold are decided in double.
   const double margin = 1e-6 + 2.0 * static_cast<double>(n) * 5.96e-8;
   const int threads = internal::thread_count(options.threads);
-  Eigen::setNbThreads(threads);
 
   PruneResult out;
   out.partner.assign(static_cast<std::size_t>(count), -1);
@@ -108,7 +110,8 @@ PruneResult prune_correlated(const Matrix& m, std::span<const std::int64_t> cand
     const auto n_kept = static_cast<Eigen::Index>(kept_positions.size());
     std::vector<char> dropped(static_cast<std::size_t>(width), 0);
     if (n_kept > 0) {
-      const Matrix c = zk.leftCols(n_kept).transpose() * zb;  // n_kept x width
+      Matrix c;  // n_kept x width
+      internal::product_tn(zk.leftCols(n_kept), zb, c, threads);
 #pragma omp parallel for schedule(dynamic, 16) num_threads(threads)
       for (std::int64_t b = 0; b < width; ++b) {
         std::int64_t best = -1;
@@ -128,7 +131,8 @@ PruneResult prune_correlated(const Matrix& m, std::span<const std::int64_t> cand
     }
     // Within the block the walk is sequential: a survivor is compared with the block's earlier
     // survivors through the block's own Gram matrix.
-    const Matrix g = zb.transpose() * zb;
+    Matrix g;
+    internal::product_tn(zb, zb, g, threads);
     std::vector<Eigen::Index> block_kept;
     for (std::int64_t b = 0; b < width; ++b) {
       if (options.max_kept > 0 && static_cast<std::int64_t>(kept_positions.size() + block_kept.size()) >= options.max_kept)
@@ -161,6 +165,12 @@ PruneResult prune_correlated(const Matrix& m, std::span<const std::int64_t> cand
       kept_positions.push_back(start + block_kept[t]);
       out.kept[static_cast<std::size_t>(start + block_kept[t])] = 1;
     }
+  }
+  // The block product above also judged the block's candidates past the point where max_kept
+  // stopped the walk; they were not examined, so they carry no partner.
+  for (auto c = static_cast<std::size_t>(out.examined); c < static_cast<std::size_t>(count); ++c) {
+    out.partner[c] = -1;
+    out.r[c] = 0;
   }
   return out;
 }

@@ -6,7 +6,8 @@
 
 #include <algorithm>  // std::sort, std::stable_sort, std::partition_point
 #include <bit>        // std::bit_cast
-#include <cmath>      // std::log, std::isnan, std::isinf
+#include <cmath>      // std::log, std::isnan, std::isinf, std::isfinite
+#include <exception>  // std::exception_ptr, std::current_exception, std::rethrow_exception
 #include <limits>     // std::numeric_limits
 #include <numeric>    // std::iota
 
@@ -247,30 +248,61 @@ Result score_one(const float* column, std::int64_t n_rows, const std::vector<int
     s.keys.push_back(static_cast<std::uint64_t>(order_key(v)) << 32 | static_cast<std::uint32_t>(i));
   }
   r.negative = stats.n > 0 && stats.min < 0;
-  for (auto count : s.class_count)
+  bool every_class_observed = true;
+  for (auto count : s.class_count) {
     if (count < 2) r.flags |= kScoreFewValues;
+    if (count < 1) every_class_observed = false;
+  }
   if (stats.n == 0 || stats.min == stats.max) r.flags |= kScoreConstant;
-  if (r.flags) return r;  // defined result: scores 0, p-values 1
+  // An infinite value (--allow-inf) leaves class means and distances undefined: F, the counts
+  // chi-square and the kNN MI stay 0 with p 1; the rank-based binned MI and chi-square remain.
+  const bool finite = stats.n == 0 || (std::isfinite(stats.min) && std::isfinite(stats.max));
 
   const auto n = static_cast<std::int64_t>(s.keys.size());
   const double dn = static_cast<double>(n);
+  const double df1 = static_cast<double>(k - 1);
 
-  // Equal-frequency bins (SPEC §4) and the bin x class table.
+  // The counts chi-square uses only the per-class sums, so it is defined as soon as every class
+  // has an observed value (a class of one sample is common for count data; CHECKS.md §6 has such
+  // a case). A constant feature scores 0 exactly.
+  if (options.counts_chi2 && !r.negative && finite && every_class_observed &&
+      !(r.flags & kScoreConstant)) {
+    // observed = per-class sums, expected = class share x total (CHECKS.md §6).
+    double total = 0;
+    for (double v : s.class_sum) total += v;
+    if (total > 0) {
+      for (std::size_t c = 0; c < ku; ++c) {
+        const double expected = static_cast<double>(s.class_count[c]) / dn * total;
+        const double d = s.class_sum[c] - expected;
+        r.counts += d * d / expected;
+      }
+      r.counts_p = chi2_upper_tail(r.counts, df1);
+    }
+  }
+  if (r.flags) return r;  // defined result: the other scores 0, p-values 1
+
+  // Equal-frequency bins (SPEC §4) and the bin x class table. With bins >= n, floor(B L / n) is
+  // strictly increasing in L, so bin L gives the same partition (the same table up to empty rows,
+  // hence the same MI and chi-square) with n rows instead of B: a large --bins cannot allocate a
+  // huge table.
   std::sort(s.keys.begin(), s.keys.end());
-  const int bins = options.bins;
+  const bool by_rank = static_cast<std::int64_t>(options.bins) >= n;
+  const int bins = by_rank ? static_cast<int>(n) : options.bins;
   s.table.assign(static_cast<std::size_t>(bins) * ku, 0.0);
   std::int64_t run_start = 0;
   for (std::int64_t i = 0; i < n; ++i) {
     const std::uint64_t key = s.keys[static_cast<std::size_t>(i)];
     if (i > 0 && (key >> 32) != (s.keys[static_cast<std::size_t>(i - 1)] >> 32)) run_start = i;
-    const auto b = static_cast<std::size_t>(static_cast<std::uint64_t>(bins) * static_cast<std::uint64_t>(run_start) /
-                                            static_cast<std::uint64_t>(n));
+    const auto b = by_rank ? static_cast<std::size_t>(run_start)
+                           : static_cast<std::size_t>(static_cast<std::uint64_t>(bins) *
+                                                      static_cast<std::uint64_t>(run_start) /
+                                                      static_cast<std::uint64_t>(n));
     const int c = codes[key & 0xFFFFFFFFu];
     s.table[b * ku + static_cast<std::size_t>(c)] += 1.0;
   }
   if (options.mi == MiEstimator::kBinned) {
     r.mi = mutual_information(s.table, bins, k);
-  } else {
+  } else if (finite) {
     s.values.clear();
     s.labels.clear();
     for (std::int64_t i = 0; i < n_rows; ++i) {
@@ -282,6 +314,8 @@ Result score_one(const float* column, std::int64_t n_rows, const std::vector<int
   }
   r.chi2 = pearson_chi2(s.table, bins, k, r.chi2_df);
   r.chi2_p = chi2_upper_tail(r.chi2, r.chi2_df);
+
+  if (!finite) return r;
 
   // One-way ANOVA F: class means first, then the within-class squares about them (two passes, so
   // no cancellation from sums of squares).
@@ -299,7 +333,7 @@ Result score_one(const float* column, std::int64_t n_rows, const std::vector<int
     const double d = static_cast<double>(v) - s.class_mean[static_cast<std::size_t>(codes[static_cast<std::size_t>(i)])];
     within += d * d;
   }
-  const double df1 = static_cast<double>(k - 1), df2 = dn - static_cast<double>(k);
+  const double df2 = dn - static_cast<double>(k);
   if (within > 0) {
     r.f = (between / df1) / (within / df2);
     r.f_p = f_upper_tail(r.f, df1, df2);
@@ -309,19 +343,6 @@ Result score_one(const float* column, std::int64_t n_rows, const std::vector<int
     r.flags |= kScoreSeparates;
   }
 
-  if (options.counts_chi2 && !r.negative) {
-    // observed = per-class sums, expected = class share x total (CHECKS.md §6).
-    double total = 0;
-    for (double v : s.class_sum) total += v;
-    if (total > 0) {
-      for (std::size_t c = 0; c < ku; ++c) {
-        const double expected = static_cast<double>(s.class_count[c]) / dn * total;
-        const double d = s.class_sum[c] - expected;
-        r.counts += d * d / expected;
-      }
-      r.counts_p = chi2_upper_tail(r.counts, df1);
-    }
-  }
   return r;
 }
 
@@ -343,13 +364,22 @@ FeatureScores score_features(const Matrix& m, std::span<const std::int64_t> feat
   FeatureScores out;
   out.feature.assign(features.begin(), features.end());
   std::vector<Result> results(p);
+  // An exception must not leave an OpenMP region (std::terminate): keep the first and rethrow.
+  std::exception_ptr failure;
 #pragma omp parallel num_threads(internal::thread_count(options.threads))
   {
     Scratch scratch;
 #pragma omp for schedule(dynamic, 32)
-    for (std::size_t j = 0; j < p; ++j)
-      results[j] = score_one(m.col(features[j]).data(), m.rows(), classes.codes, k, options, scratch);
+    for (std::size_t j = 0; j < p; ++j) {
+      try {
+        results[j] = score_one(m.col(features[j]).data(), m.rows(), classes.codes, k, options, scratch);
+      } catch (...) {
+#pragma omp critical(pare_score_failure)
+        if (!failure) failure = std::current_exception();
+      }
+    }
   }
+  if (failure) std::rethrow_exception(failure);
   if (options.counts_chi2)
     for (std::size_t j = 0; j < p; ++j)
       if (results[j].negative)
@@ -413,9 +443,14 @@ double criterion_q(const FeatureScores& s, Criterion c, std::size_t i) {
 std::vector<std::size_t> rank_order(const FeatureScores& scores, Criterion criterion) {
   std::vector<std::size_t> order(scores.size());
   std::iota(order.begin(), order.end(), std::size_t{0});
-  std::stable_sort(order.begin(), order.end(), [&](std::size_t a, std::size_t b) {
-    return criterion_score(scores, criterion, a) > criterion_score(scores, criterion, b);
-  });
+  // NaN (the variance of a feature with an infinite value) sorts last: a NaN in the comparison
+  // would break the strict weak order the sort needs.
+  auto key = [&](std::size_t i) {
+    const double v = criterion_score(scores, criterion, i);
+    return std::isnan(v) ? -kInf : v;
+  };
+  std::stable_sort(order.begin(), order.end(),
+                   [&](std::size_t a, std::size_t b) { return key(a) > key(b); });
   return order;
 }
 

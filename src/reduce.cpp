@@ -208,6 +208,8 @@ Reduction reduce(FeatureTable& t, const ReduceOptions& o) {
       else
         ordered.push_back(j);
     }
+  } else if (!o.relevance) {
+    ordered = alive;  // no ranking asked for: input order
   } else {
     ordered = alive;
     std::stable_sort(ordered.begin(), ordered.end(), [&](std::int64_t a, std::int64_t b) {

@@ -47,7 +47,9 @@ ColumnStats stats_of(std::span<const T> values) {
     s.variance = kNaN;
   } else {
     const double dn = static_cast<double>(n);
-    s.variance = std::max(0.0, (squares - deviations * deviations / dn) / (dn - 1));
+    // Clamp rounding below zero, but keep NaN (an infinite value makes the variance undefined).
+    const double v = (squares - deviations * deviations / dn) / (dn - 1);
+    s.variance = v < 0 ? 0.0 : v;
   }
   return s;
 }

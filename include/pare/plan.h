@@ -8,6 +8,7 @@
 
 #include "pare/io.h"
 #include "pare/matrix.h"
+#include "pare/projection.h"
 #include "pare/reduce.h"
 
 namespace pare {
@@ -27,6 +28,14 @@ struct RunRecord {
   std::uint64_t seed = 1;
 };
 
+/// The projection part of a plan: what apply needs to project new samples.
+struct PlanProjection {
+  const Projection* projection = nullptr;  ///< null when the run had no --components
+  std::string loadings_file;               ///< file name next to plan.json
+  std::string loadings_sha256;
+  bool center = true, scale = false;
+};
+
 /// A plan as loaded from plan.json.
 struct Plan {
   std::string path;
@@ -40,13 +49,18 @@ struct Plan {
   std::vector<std::string> names;  ///< kept features in order
   std::vector<float> fill;         ///< raw-scale fill value per kept feature
   std::vector<double> center, spread;
+  // Projection (empty when the plan has none).
+  std::int64_t components = 0;
+  Eigen::VectorXd pca_center, pca_scale;
+  Eigen::MatrixXd loadings;  ///< read from the loadings file, its SHA-256 checked
 };
 
 /// The plan.json text of a finished reduction.
 std::string plan_json(const FeatureTable& table, const Reduction& reduction, const ReduceOptions& options,
-                      const RunRecord& run);
+                      const RunRecord& run, const PlanProjection& projection = {});
 
-/// Loads and checks plan.json. Throws Error(kInput) naming the file and the field on any problem.
+/// Loads and checks plan.json (and its loadings file, whose SHA-256 must match). Throws
+/// Error(kInput) naming the file and the field on any problem.
 Plan load_plan(const std::string& path);
 
 /// What apply did.

@@ -35,7 +35,8 @@ struct ScoreOptions {
 
 /// Flags of a feature's scores (bits).
 enum ScoreFlag : std::uint8_t {
-  kScoreFewValues = 1,  ///< some class has fewer than 2 observed values: scores 0, p-values 1
+  kScoreFewValues = 1,  ///< some class has fewer than 2 observed values: binned and F scores 0,
+                        ///< p-values 1 (the counts chi-square needs only one value per class)
   kScoreConstant = 2,   ///< zero variance over the observed values: scores 0, p-values 1
   kScoreSeparates = 4,  ///< zero variance inside every class but not overall: F is infinite
 };

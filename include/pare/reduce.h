@@ -28,7 +28,8 @@ struct ReduceOptions {
   bool variance_filter = true;
   double min_variance = 1e-8;        ///< drop features with sample variance below this
   double drop_low_variance = 0;      ///< also drop this lowest fraction by variance, in [0, 1)
-  bool relevance = true;             ///< score against the labels (when there are labels)
+  bool relevance = true;             ///< rank: by the label's scores, or by variance without labels;
+                                     ///< false keeps the input order
   Criterion rank_by = Criterion::kMi;
   double fdr = 1;                    ///< keep q <= fdr for the ranking test (1 = no filter)
   ScoreOptions score;

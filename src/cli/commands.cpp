@@ -28,7 +28,8 @@ constexpr const char* kUsage =
     "  scan DATA   profile a matrix: missingness, variance, flagged features, class balance\n"
     "  rank DATA   score every feature against the class label and rank them\n"
     "  reduce DATA run the whole reduction; write the reduced matrix, a log and a plan\n"
-    "  apply PLAN DATA  replay a saved reduction on new samples\n"
+    "  project DATA  truncated PCA / SVD of every feature\n"
+    "  apply PLAN DATA  replay a saved reduction (and projection) on new samples\n"
     "  demo        generate the greenhouse drought-trial demo data and scan it\n"
     "\n"
     "'pare COMMAND --help' lists a command's options; 'pare --version' prints the version.\n";
@@ -187,6 +188,9 @@ int command_rank(const std::vector<std::string>& args, std::ostream& out) {
     if (keep > 0 && static_cast<std::int64_t>(order.size()) >= keep) break;
     order.push_back(i);
   }
+  if (order.empty())
+    throw Error(ErrorKind::kInput, table.source + ": every feature was filtered out: no q-value is at most " +
+                                       short_number(fdr) + " (raise --fdr)");
   ensure_directory(common.out);
   const std::string path = join_path(common.out, "ranking.tsv");
   write_file_atomically(path, ranking_tsv(scores, order, table.feature_names, score.counts_chi2));
@@ -241,9 +245,10 @@ int run(const std::vector<std::string>& args, std::ostream& out, std::ostream& e
     if (command == "rank") return command_rank(rest, out);
     if (command == "reduce") return command_reduce(rest, out);
     if (command == "apply") return command_apply(rest, out);
+    if (command == "project") return command_project(rest, out);
     if (command == "demo") return command_demo(rest, out);
     throw_usage_error("unknown command '" + command + "'",
-                      "commands: scan, rank, reduce, apply, demo; see pare --help");
+                      "commands: scan, rank, reduce, project, apply, demo; see pare --help");
   } catch (const Error& e) {
     err << "pare: error: " << e.what() << "\n";
     return static_cast<int>(e.kind());

@@ -48,6 +48,11 @@ bool parse_command_line(const std::vector<std::string>& args, const po::options_
     }
     po::notify(vm);
     if (values) *values = vm;
+  } catch (const po::required_option& e) {
+    const std::string name = e.get_option_name();
+    if (name == "--data") throw_usage_error("the data file is missing", "give it as the first argument; see --help");
+    if (name == "--plan") throw_usage_error("the plan file is missing", "pare apply PLAN.json NEWDATA; see --help");
+    throw_usage_error(e.what(), "see --help");
   } catch (const po::error& e) {
     throw_usage_error(e.what(), "see --help");
   }

@@ -12,6 +12,7 @@
 #include "pare/io.h"
 #include "pare/demo.h"
 #include "pare/plan.h"
+#include "pare/projection.h"
 #include "pare/reduce.h"
 
 namespace pare::cli {
@@ -66,12 +67,33 @@ void print_steps(std::ostream& out, const Reduction& r) {
 struct ReduceRun {
   FeatureTable table;
   Reduction reduction;
+  std::unique_ptr<Projection> projection;
   std::string out_dir;
 };
 
+// What to run after the selection: a projection of the kept features (components > 0).
+struct ProjectSettings {
+  ProjectionOptions options;
+  bool selection_outputs = true;  // false for `project`: no ranking, log or reduced matrix
+};
+
+void add_projection_options(po::options_description& desc, ProjectionOptions& o, bool& no_center,
+                            bool required) {
+  auto components = po::value(&o.components);
+  if (required) components->required();
+  else components->default_value(0);
+  desc.add_options()
+      ("components", components, "8. truncated PCA: number of components K (0 = none)")
+      ("no-center", po::bool_switch(&no_center), "8. do not centre: plain truncated SVD")
+      ("tolerance", po::value(&o.tolerance)->default_value(1e-7),
+       "8. convergence: Ritz residuals <= this x the largest eigenvalue")
+      ("max-iterations", po::value(&o.max_iterations)->default_value(60), "8. Krylov blocks before giving up");
+}
+
 // Reads, reduces and writes; shared by `reduce` and `demo`.
 ReduceRun reduce_and_write(const InputOptions& input, const CommonOptions& common, const ReduceOptions& options,
-                           const std::vector<std::string>& command_line, std::ostream& out) {
+                           const ProjectSettings& project, const std::vector<std::string>& command_line,
+                           std::ostream& out) {
   // Hash the inputs while they are parsed.
   auto data_hash = std::async(std::launch::async, [&] { return internal::sha256_file(input.data); });
   const std::string sheet = input.labels.empty() ? std::string() : sheet_path_of(input.labels);
@@ -108,22 +130,73 @@ ReduceRun reduce_and_write(const InputOptions& input, const CommonOptions& commo
   std::vector<std::string> inputs{input.data};
   if (!sheet.empty()) inputs.push_back(sheet);
   OutputSet files(common.out, inputs);
-  files.add("ranking.tsv", reduction_ranking_tsv(run.table, r));
-  files.add("selection-log.tsv", selection_log_tsv(run.table, r));
-  files.add("reduced.csv", reduced_matrix_text(run.table, r.kept, names));
-  files.add("plan.json", plan_json(run.table, r, options, record));
+  if (project.selection_outputs) {
+    files.add("ranking.tsv", reduction_ranking_tsv(run.table, r));
+    files.add("selection-log.tsv", selection_log_tsv(run.table, r));
+    files.add("reduced.csv", reduced_matrix_text(run.table, r.kept, names));
+  }
+  PlanProjection plan_projection;
+  if (project.options.components > 0) {
+    const auto start_pca = std::chrono::steady_clock::now();
+    ProjectionOptions po = project.options;
+    po.scale = options.scale ? false : project.options.scale;  // --scale already standardised them
+    po.seed = common.seed;
+    po.threads = common.threads;
+    bool identity = static_cast<std::int64_t>(r.kept.size()) == run.table.n_features();
+    for (std::size_t k = 0; identity && k < r.kept.size(); ++k) identity = r.kept[k] == static_cast<std::int64_t>(k);
+    if (identity) {
+      // All features in input order: analyse the matrix in place, no copy.
+      run.projection = std::make_unique<Projection>(truncated_pca(run.table.values, po));
+    } else {
+      Matrix kept(run.table.n_samples(), static_cast<Eigen::Index>(r.kept.size()));
+      for (std::size_t k = 0; k < r.kept.size(); ++k) kept.col(static_cast<Eigen::Index>(k)) = run.table.values.col(r.kept[k]);
+      run.projection = std::make_unique<Projection>(truncated_pca(kept, po));
+    }
+    const Projection& pr = *run.projection;
+    const std::string loadings = loadings_tsv(pr.loadings, names);
+    files.add("scores.csv", scores_csv(pr.scores, run.table.sample_ids, run.table.labels, run.table.label_name,
+                                       run.table.id_name));
+    files.add("loadings.tsv", loadings);
+    files.add("explained.tsv", explained_tsv(pr));
+    plan_projection.projection = run.projection.get();
+    plan_projection.loadings_file = "loadings.tsv";
+    plan_projection.loadings_sha256 = internal::sha256_hex(loadings);
+    plan_projection.center = po.center;
+    plan_projection.scale = project.options.scale;
+    run.reduction.steps.push_back(StepRecord{"project", static_cast<std::int64_t>(r.kept.size()),
+                                             static_cast<std::int64_t>(r.kept.size()), seconds_since(start_pca)});
+  }
+  files.add("plan.json", plan_json(run.table, r, options, record, plan_projection));
   files.commit();
   run.out_dir = common.out;
 
   if (!common.quiet) {
-    out << "pare reduce: " << run.table.source << " - " << thousands(run.table.n_samples()) << " samples x "
-        << thousands(run.table.n_features()) << " features -> " << thousands(static_cast<std::int64_t>(r.kept.size()))
-        << " kept, ranked by " << criterion_name(r.criterion) << "\n";
+    out << "pare " << (project.selection_outputs ? "reduce" : "project") << ": " << run.table.source << " - "
+        << thousands(run.table.n_samples()) << " samples x " << thousands(run.table.n_features()) << " features";
+    if (project.selection_outputs)
+      out << " -> " << thousands(static_cast<std::int64_t>(r.kept.size())) << " kept, ranked by "
+          << criterion_name(r.criterion);
+    out << "\n";
     print_steps(out, r);
-    out << "  top:";
-    for (std::size_t k = 0; k < names.size() && k < 10; ++k) out << (k ? ", " : " ") << names[k];
-    out << (names.size() > 10 ? ", ...\n" : "\n");
-    out << "  wrote " << files.path("ranking.tsv") << ", selection-log.tsv, reduced.csv, plan.json\n";
+    if (project.selection_outputs) {
+      out << "  top:";
+      for (std::size_t k = 0; k < names.size() && k < 10; ++k) out << (k ? ", " : " ") << names[k];
+      out << (names.size() > 10 ? ", ...\n" : "\n");
+    }
+    if (run.projection) {
+      const Projection& pr = *run.projection;
+      out << "  PCA: " << pr.singular_values.size() << " components (" << pr.method << ", " << pr.precision
+          << " products";
+      if (pr.iterations > 0) out << ", " << pr.iterations << " blocks, residual " << short_number(pr.residual);
+      out << "), explained variance";
+      for (Eigen::Index c = 0; c < pr.ratio.size() && c < 5; ++c) out << (c ? ", " : " ") << percent(pr.ratio(c));
+      out << (pr.ratio.size() > 5 ? ", ..." : "") << " (cumulative " << percent(pr.cumulative(pr.cumulative.size() - 1))
+          << ")\n";
+    }
+    out << "  wrote " << files.path("plan.json");
+    if (project.selection_outputs) out << ", ranking.tsv, selection-log.tsv, reduced.csv";
+    if (run.projection) out << ", scores.csv, loadings.tsv, explained.tsv";
+    out << "\n";
   }
   return run;
 }
@@ -178,7 +251,10 @@ int command_reduce(const std::vector<std::string>& args, std::ostream& out) {
       "selection-log.tsv (one line per input feature: kept or dropped, by which step, why),\n"
       "reduced.csv and plan.json (replayable with pare apply).\n\noptions");
   desc.add_options()("data", po::value(&input.data)->required(), "the data file (CSV/TSV, may be gzip)");
+  ProjectSettings project;
+  bool no_center = false;
   add_reduce_options(desc, options, impute, rank_by, estimator, no_missing, no_variance, no_prune);
+  add_projection_options(desc, project.options, no_center, false);
   add_input_options(desc, input);
   add_common_options(desc, common, "pare-reduce");
   po::positional_options_description positional;
@@ -189,9 +265,49 @@ int command_reduce(const std::vector<std::string>& args, std::ostream& out) {
     return 0;
   }
   finish_reduce_options(options, impute, rank_by, estimator, no_missing, no_variance, no_prune, common);
+  project.options.center = !no_center;
+  project.options.scale = options.scale;
+  if (project.options.components < 0) throw_usage_error("--components must be 0 (none) or more");
   std::vector<std::string> command_line{"pare", "reduce"};
   command_line.insert(command_line.end(), args.begin(), args.end());
-  reduce_and_write(input, common, options, command_line, out);
+  reduce_and_write(input, common, options, project, command_line, out);
+  return 0;
+}
+
+int command_project(const std::vector<std::string>& args, std::ostream& out) {
+  CommonOptions common;
+  InputOptions input;
+  ProjectSettings project;
+  project.selection_outputs = false;
+  bool no_center = false;
+  po::options_description desc(
+      "pare project DATA --components K --out DIR [options]\n\n"
+      "Truncated PCA (centred; --scale for correlation PCA) or truncated SVD (--no-center) of every\n"
+      "feature, no selection. Gaps are filled with the feature's mean first. Writes scores.csv,\n"
+      "loadings.tsv, explained.tsv and plan.json (pare apply projects new samples with it).\n\noptions");
+  desc.add_options()("data", po::value(&input.data)->required(), "the data file (CSV/TSV, may be gzip)")
+      ("scale", po::bool_switch(&project.options.scale), "divide each centred feature by its sd");
+  add_projection_options(desc, project.options, no_center, true);
+  add_input_options(desc, input);
+  add_common_options(desc, common, "pare-project");
+  po::positional_options_description positional;
+  positional.add("data", 1);
+  std::string help;
+  if (!parse_command_line(args, desc, positional, help)) {
+    out << help;
+    return 0;
+  }
+  project.options.center = !no_center;
+  if (project.options.components < 1) throw_usage_error("--components must be 1 or more");
+  ReduceOptions options;  // every selection step off: all features, input order, mean-filled
+  options.missing_filter = false;
+  options.variance_filter = false;
+  options.relevance = false;
+  options.prune = false;
+  options.threads = common.threads;
+  std::vector<std::string> command_line{"pare", "project"};
+  command_line.insert(command_line.end(), args.begin(), args.end());
+  reduce_and_write(input, common, options, project, command_line, out);
   return 0;
 }
 
@@ -249,6 +365,9 @@ int command_apply(const std::vector<std::string>& args, std::ostream& out) {
               return all;
             }(), plan.names));
   files.add("apply-log.tsv", log);
+  if (plan.components > 0)
+    files.add("scores.csv", scores_csv(project_rows(reduced.values, plan.pca_center, plan.pca_scale, plan.loadings),
+                                       reduced.sample_ids, reduced.labels, reduced.label_name, reduced.id_name));
   files.commit();
   if (!common.quiet) {
     std::int64_t filled = 0;
@@ -259,7 +378,9 @@ int command_apply(const std::vector<std::string>& args, std::ostream& out) {
     out << "  filled " << thousands(filled) << " missing cells with training values";
     if (!report.absent.empty())
       out << "; " << report.absent.size() << " features absent from the data, filled entirely (see apply-log.tsv)";
-    out << "\n  wrote " << files.path("reduced.csv") << ", apply-log.tsv\n";
+    out << "\n  wrote " << files.path("reduced.csv") << ", apply-log.tsv";
+    if (plan.components > 0) out << ", scores.csv (" << plan.components << " components)";
+    out << "\n";
   }
   return 0;
 }
@@ -280,10 +401,12 @@ int demo_reduce(const std::string& data, const std::string& samples, const std::
   CommonOptions reduce_common = common;
   reduce_common.out = join_path(common.out, "reduce");
   const std::vector<std::string> command_line{"pare", "reduce", data, "--layout", "rows=features", "--labels",
-                                              input.labels, "--log2", "--max-corr", "0.9", "--keep", "200",
+                                              input.labels, "--log2", "--max-corr", "0.9", "--keep", "200", "--components", "3",
                                               "--out", reduce_common.out};
   if (!common.quiet) out << "\n";
-  const ReduceRun run = reduce_and_write(input, reduce_common, options, command_line, out);
+  ProjectSettings project;
+  project.options.components = 3;
+  const ReduceRun run = reduce_and_write(input, reduce_common, options, project, command_line, out);
   const DemoRecovery d = evaluate_demo(truth, run.table, run.reduction);
   if (!common.quiet) {
     out << "\nplanted truth (" << truth << "):\n";

@@ -1,0 +1,71 @@
+// Truncated PCA (centred, optionally scaled) and truncated SVD (uncentred) of a wide or tall
+// matrix, without forming a p x p (or n x n for tall data) matrix product of the data with itself.
+#pragma once
+
+#include <Eigen/Core>
+
+#include <cstdint>  // std::int64_t, std::uint64_t
+#include <string>   // std::string
+
+#include "pare/matrix.h"
+
+namespace pare {
+
+struct ProjectionOptions {
+  std::int64_t components = 2;   ///< K, 1 <= K <= min(n, p)
+  bool center = true;            ///< false: truncated SVD of the raw values
+  bool scale = false;            ///< divide each centred column by its sd (correlation PCA)
+  double tolerance = 1e-7;       ///< convergence: every Ritz residual <= tolerance x largest eigenvalue
+  int max_iterations = 60;       ///< Krylov blocks before giving up
+  std::int64_t oversample = 10;  ///< block size is K + oversample
+  std::uint64_t seed = 1;        ///< starting block
+  int threads = 0;
+};
+
+/// A truncated PCA / SVD. Components are sorted by singular value, largest first, and
+/// sign-normalised: in each component the loading of largest magnitude is positive.
+struct Projection {
+  Eigen::MatrixXd scores;           ///< n x K: the analysed matrix times the loadings (U Sigma)
+  Eigen::MatrixXd loadings;         ///< p x K: right singular vectors (V)
+  Eigen::VectorXd singular_values;  ///< K
+  Eigen::VectorXd eigenvalues;      ///< sigma^2 / (n - 1)
+  Eigen::VectorXd ratio;            ///< sigma^2 / squared Frobenius norm of the analysed matrix
+  Eigen::VectorXd cumulative;       ///< running sum of ratio
+  Eigen::VectorXd center;           ///< p: subtracted means (zeros without centring)
+  Eigen::VectorXd scale;            ///< p: divisors (ones without scaling)
+  double total_variance = 0;        ///< squared Frobenius norm / (n - 1): the sum of column variances when centred
+  std::string method;               ///< "dense" or "block Krylov"
+  std::string precision;            ///< precision of the products in the iterations: "double" or "float"
+  int iterations = 0;               ///< Krylov blocks used (0 for dense)
+  double residual = 0;              ///< largest relative Ritz residual at convergence
+};
+
+/// Computes the first `options.components` components of the columns of `x` (n samples x p
+/// features, no NaN). `x` is centred and scaled in place (it is not copied); on return it holds
+/// the analysed matrix. Throws Error(kUsage) when K is out of range and Error(kOther) when the
+/// iteration does not converge.
+Projection truncated_pca(Matrix& x, const ProjectionOptions& options);
+
+/// Scores of new samples (rows of `x`, columns in the projection's feature order, no NaN):
+/// ((x - center) / scale) * loadings, in double.
+Eigen::MatrixXd project_rows(const Matrix& x, const Eigen::VectorXd& center, const Eigen::VectorXd& scale,
+                             const Eigen::MatrixXd& loadings);
+
+}  // namespace pare
+
+#include <vector>  // std::vector
+
+namespace pare {
+
+/// scores.csv: sample id, PC1..PCK, and the label when there is one.
+std::string scores_csv(const Eigen::MatrixXd& scores, const std::vector<std::string>& sample_ids,
+                       const std::vector<std::string>& labels, const std::string& label_name,
+                       const std::string& id_name);
+/// loadings.tsv: feature, PC1..PCK (shortest round-trip numbers, so reading it back is exact).
+std::string loadings_tsv(const Eigen::MatrixXd& loadings, const std::vector<std::string>& names);
+/// explained.tsv: component, eigenvalue (sigma^2 / (n - 1)), ratio, cumulative_ratio, singular_value.
+std::string explained_tsv(const Projection& projection);
+/// Reads loadings.tsv back, checking that its features are `names` in order.
+Eigen::MatrixXd read_loadings_tsv(const std::string& path, const std::vector<std::string>& names);
+
+}  // namespace pare

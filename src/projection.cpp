@@ -1,0 +1,424 @@
+#include "pare/projection.h"
+
+#include <Eigen/Eigenvalues>
+#include <Eigen/QR>
+#include <Eigen/SVD>
+
+#include <algorithm>  // std::min, std::max
+#include <cmath>      // std::sqrt
+#include <vector>     // std::vector
+
+#include "internal/omp.h"
+#include "internal/random.h"
+#include "pare/error.h"
+
+namespace pare {
+
+namespace {
+
+using MatD = Eigen::MatrixXd;
+using MatF = Eigen::MatrixXf;
+using VecD = Eigen::VectorXd;
+using Eigen::Index;
+
+// Products are split into fixed pieces (see internal/gemm.h for why): kPiece columns of x at a
+// time, and X B summed over kGroups fixed groups of columns whose partial sums are added in order.
+constexpr Index kPiece = 256;
+constexpr Index kGroups = 16;
+
+template <typename S>
+using Mat = Eigen::Matrix<S, Eigen::Dynamic, Eigen::Dynamic>;
+
+// Y = X B (X float n x p; B p x l), in precision S. Double products convert X piece by piece, so
+// the matrix is never copied whole.
+template <typename S>
+Mat<S> times(const Matrix& x, const Mat<S>& b, int threads) {
+  const Index n = x.rows(), p = x.cols(), l = b.cols();
+  const Index per_group = ((p + kGroups - 1) / kGroups + kPiece - 1) / kPiece * kPiece;
+  const Index groups = (p + per_group - 1) / per_group;
+  std::vector<Mat<S>> partial(static_cast<std::size_t>(groups));
+#pragma omp parallel for schedule(dynamic, 1) num_threads(threads)
+  for (Index g = 0; g < groups; ++g) {
+    Mat<S>& acc = partial[static_cast<std::size_t>(g)];
+    acc.setZero(n, l);
+    const Index end = std::min(p, (g + 1) * per_group);
+    for (Index c0 = g * per_group; c0 < end; c0 += kPiece) {
+      const Index w = std::min(kPiece, end - c0);
+      if constexpr (std::is_same_v<S, float>) {
+        acc.noalias() += x.middleCols(c0, w) * b.middleRows(c0, w);
+      } else {
+        const MatD piece = x.middleCols(c0, w).template cast<double>();
+        acc.noalias() += piece * b.middleRows(c0, w);
+      }
+    }
+  }
+  Mat<S> y = partial[0];
+  for (std::size_t g = 1; g < partial.size(); ++g) y += partial[g];
+  return y;
+}
+
+// W = X^T Y (X float n x p; Y n x l), in precision S.
+template <typename S>
+Mat<S> times_t(const Matrix& x, const Mat<S>& y, int threads) {
+  const Index p = x.cols();
+  Mat<S> w(p, y.cols());
+  const Index pieces = (p + kPiece - 1) / kPiece;
+#pragma omp parallel for schedule(dynamic, 1) num_threads(threads)
+  for (Index k = 0; k < pieces; ++k) {
+    const Index c0 = k * kPiece, width = std::min(kPiece, p - c0);
+    if constexpr (std::is_same_v<S, float>) {
+      w.middleRows(c0, width).noalias() = x.middleCols(c0, width).transpose() * y;
+    } else {
+      const MatD piece = x.middleCols(c0, width).template cast<double>();
+      w.middleRows(c0, width).noalias() = piece.transpose() * y;
+    }
+  }
+  return w;
+}
+
+// The Gram matrix of the short side in double: X X^T (wide) or X^T X (tall), summed over fixed
+// groups of pieces in order.
+MatD gram(const Matrix& x, bool wide, int threads) {
+  const Index n = x.rows(), p = x.cols();
+  const Index m = wide ? n : p, len = wide ? p : n;
+  const Index per_group = ((len + kGroups - 1) / kGroups + kPiece - 1) / kPiece * kPiece;
+  const Index groups = (len + per_group - 1) / per_group;
+  std::vector<MatD> partial(static_cast<std::size_t>(groups));
+#pragma omp parallel for schedule(dynamic, 1) num_threads(threads)
+  for (Index g = 0; g < groups; ++g) {
+    MatD& acc = partial[static_cast<std::size_t>(g)];
+    acc.setZero(m, m);
+    const Index end = std::min(len, (g + 1) * per_group);
+    for (Index c0 = g * per_group; c0 < end; c0 += kPiece) {
+      const Index w = std::min(kPiece, end - c0);
+      if (wide) {
+        const MatD piece = x.middleCols(c0, w).cast<double>();
+        acc.noalias() += piece * piece.transpose();
+      } else {
+        const MatD piece = x.middleRows(c0, w).cast<double>();
+        acc.noalias() += piece.transpose() * piece;
+      }
+    }
+  }
+  MatD g = partial[0];
+  for (std::size_t k = 1; k < partial.size(); ++k) g += partial[k];
+  return g;
+}
+
+MatD orthonormal_columns(const MatD& a) {
+  Eigen::HouseholderQR<MatD> qr(a);
+  return qr.householderQ() * MatD::Identity(a.rows(), a.cols());
+}
+
+}  // namespace
+
+Projection truncated_pca(Matrix& x, const ProjectionOptions& o) {
+  const Index n = x.rows(), p = x.cols();
+  const Index m = std::min(n, p);
+  const Index k = o.components;
+  if (n < 2) throw_usage_error("PCA needs at least 2 samples");
+  if (k < 1 || k > m)
+    throw_usage_error("--components " + std::to_string(k) + " is out of range",
+                      "it must be between 1 and min(samples, features) = " + std::to_string(m));
+  const int threads = internal::thread_count(o.threads);
+  Projection out;
+  out.center = VecD::Zero(p);
+  out.scale = VecD::Ones(p);
+
+  // Centre and scale in place, column by column, in double.
+  VecD squares(p);
+#pragma omp parallel for schedule(dynamic, 64) num_threads(threads)
+  for (Index j = 0; j < p; ++j) {
+    float* col = x.col(j).data();
+    double mean = 0;
+    if (o.center) {
+      double sum = 0;
+      for (Index i = 0; i < n; ++i) sum += static_cast<double>(col[i]);
+      mean = sum / static_cast<double>(n);
+    }
+    double ss = 0;
+    for (Index i = 0; i < n; ++i) {
+      const double d = static_cast<double>(col[i]) - mean;
+      ss += d * d;
+    }
+    double sd = 1;
+    if (o.scale) {
+      sd = std::sqrt(ss / static_cast<double>(n - 1));
+      if (!(sd > 0)) sd = 1;  // a constant column stays all zero
+    }
+    for (Index i = 0; i < n; ++i) col[i] = static_cast<float>((static_cast<double>(col[i]) - mean) / sd);
+    out.center(j) = mean;
+    out.scale(j) = sd;
+    double stored = 0;
+    for (Index i = 0; i < n; ++i) stored += static_cast<double>(col[i]) * static_cast<double>(col[i]);
+    squares(j) = stored;
+  }
+  double frobenius2 = 0;
+  for (Index j = 0; j < p; ++j) frobenius2 += squares(j);
+  out.total_variance = frobenius2 / static_cast<double>(n - 1);
+
+  const bool wide = n <= p;
+  const Index block = std::min(m, k + std::max<std::int64_t>(0, o.oversample));
+  VecD sigma;
+  MatD scores, loadings;
+
+  if (m <= 256 || 2 * block >= m) {
+    // Small side: the exact eigendecomposition of the Gram matrix, in double.
+    out.method = "dense";
+    out.precision = "double";
+    const MatD g = gram(x, wide, threads);
+    Eigen::SelfAdjointEigenSolver<MatD> es(g);
+    if (es.info() != Eigen::Success) throw Error(ErrorKind::kOther, "PCA: the eigensolver failed");
+    MatD vectors = es.eigenvectors().rightCols(k).rowwise().reverse();
+    sigma = es.eigenvalues().tail(k).reverse().cwiseMax(0.0).cwiseSqrt();
+    if (wide) {
+      const MatD w = times_t<double>(x, vectors, threads);  // X^T U = V Sigma
+      loadings = MatD::Zero(p, k);
+      for (Index c = 0; c < k; ++c) {
+        const double norm = w.col(c).norm();
+        if (norm > 0) loadings.col(c) = w.col(c) / norm;
+      }
+      scores = vectors * sigma.asDiagonal();
+    } else {
+      loadings = vectors;
+      scores = times<double>(x, loadings, threads);
+    }
+  } else {
+    // Block Krylov (block Lanczos with full reorthogonalisation) on the short side's Gram operator
+    // M = X X^T (wide) or X^T X (tall), applied as two products, never formed. Each new block is
+    // M times the last one, orthogonalised against all earlier blocks; the coefficients give the
+    // Rayleigh quotient T = Q^T M Q directly, and the QR factor R of the remainder gives the exact
+    // residual of every Ritz pair (theta, Q s): ||R s_last|| (Golub & Van Loan, Matrix Computations,
+    // 4th ed., §10.3.6). A block Krylov space reaches a given accuracy in far fewer passes over the
+    // data than subspace (power) iteration, and each pass is two matrix products that run at GEMM
+    // speed, which is why it beats both Lanczos with single vectors (memory-bound matrix-vector
+    // products) and randomized subspace iteration here (see notebooks-free-docs/numerics.md).
+    // Large matrices iterate with float32 products; the final Rayleigh-Ritz step is in double.
+    out.method = "block Krylov";
+    const bool use_float = static_cast<double>(n) * static_cast<double>(p) > static_cast<double>(Index{1} << 27);
+    out.precision = use_float ? "float" : "double";
+    const double tolerance = use_float ? std::max(o.tolerance, 3e-5) : o.tolerance;
+    auto apply_m = [&](const MatD& q) -> MatD {
+      if (use_float) {
+        const MatF qf = q.cast<float>();
+        const MatF y = wide ? times<float>(x, times_t<float>(x, qf, threads), threads)
+                            : times_t<float>(x, times<float>(x, qf, threads), threads);
+        return y.cast<double>();
+      }
+      return wide ? times<double>(x, times_t<double>(x, q, threads), threads)
+                  : times_t<double>(x, times<double>(x, q, threads), threads);
+    };
+
+    internal::Rng rng(o.seed, 0x5043);
+    MatD start(m, block);
+    for (Index c = 0; c < block; ++c)
+      for (Index i = 0; i < m; ++i) start(i, c) = rng.normal();
+    std::vector<MatD> basis{orthonormal_columns(start)};
+    MatD t(0, 0);
+    MatD ritz;  // m x block: the leading Ritz vectors
+    bool converged = false;
+    for (int it = 1; it <= o.max_iterations; ++it) {
+      const Index b = static_cast<Index>(basis.size());
+      MatD y = apply_m(basis.back());
+      MatD coef = MatD::Zero(b * block, block);
+      for (int pass = 0; pass < 2; ++pass)
+        for (Index j = 0; j < b; ++j) {
+          const MatD c = basis[static_cast<std::size_t>(j)].transpose() * y;
+          y.noalias() -= basis[static_cast<std::size_t>(j)] * c;
+          coef.middleRows(j * block, block) += c;
+        }
+      MatD grown = MatD::Zero(b * block, b * block);
+      grown.topLeftCorner((b - 1) * block, (b - 1) * block) = t;
+      grown.rightCols(block) = coef;
+      grown.bottomRows(block) = coef.transpose();
+      const MatD diagonal = coef.bottomRows(block);
+      grown.bottomRightCorner(block, block) = (diagonal + diagonal.transpose()) / 2;
+      t.swap(grown);
+
+      MatD q_next = orthonormal_columns(y);
+      const MatD r = q_next.transpose() * y;
+      // Guard against a nearly invariant space: make the new block orthogonal again.
+      for (Index j = 0; j < b; ++j)
+        q_next -= basis[static_cast<std::size_t>(j)] * (basis[static_cast<std::size_t>(j)].transpose() * q_next);
+      q_next = orthonormal_columns(q_next);
+
+      Eigen::SelfAdjointEigenSolver<MatD> es(t);
+      if (es.info() != Eigen::Success) throw Error(ErrorKind::kOther, "PCA: the eigensolver failed");
+      const VecD theta = es.eigenvalues().reverse();
+      // Leading `block` Ritz vectors, largest first.
+      const MatD svec = es.eigenvectors().rightCols(block).rowwise().reverse();
+      double worst = 0;
+      const double top = std::max(theta(0), 1e-300);
+      for (Index c = 0; c < k; ++c) worst = std::max(worst, (r * svec.col(c).tail(block)).norm() / top);
+      out.iterations = it;
+      out.residual = worst;
+      const bool exhausted = (b + 1) * block > m;
+      if (worst <= tolerance || exhausted) {
+        ritz = MatD::Zero(m, block);
+        for (Index j = 0; j < b; ++j)
+          ritz.noalias() += basis[static_cast<std::size_t>(j)] * svec.middleRows(j * block, block);
+        converged = true;
+        break;
+      }
+      basis.push_back(std::move(q_next));
+    }
+    if (!converged)
+      throw Error(ErrorKind::kOther,
+                  "PCA did not converge: after " + std::to_string(o.max_iterations) +
+                      " Krylov blocks the largest relative residual is " + std::to_string(out.residual) +
+                      " (tolerance " + std::to_string(tolerance) +
+                      "); ask for fewer components or raise --max-iterations");
+    // Final Rayleigh-Ritz in double: the SVD of X^T U (wide) or X U (tall) on the Ritz space.
+    if (wide) {
+      const MatD w = times_t<double>(x, ritz, threads);  // p x block
+      Eigen::BDCSVD<MatD> svd(w, Eigen::ComputeThinU | Eigen::ComputeThinV);
+      sigma = svd.singularValues().head(k);
+      loadings = svd.matrixU().leftCols(k);
+      scores = ritz * svd.matrixV().leftCols(k) * sigma.asDiagonal();
+    } else {
+      const MatD w = times<double>(x, ritz, threads);  // n x block
+      Eigen::BDCSVD<MatD> svd(w, Eigen::ComputeThinU | Eigen::ComputeThinV);
+      sigma = svd.singularValues().head(k);
+      scores = svd.matrixU().leftCols(k) * sigma.asDiagonal();
+      loadings = ritz * svd.matrixV().leftCols(k);
+    }
+  }
+
+  // Sign convention (SPEC §4): the loading of largest magnitude is positive in every component.
+  for (Index c = 0; c < k; ++c) {
+    Index at = 0;
+    for (Index j = 1; j < p; ++j)
+      if (std::abs(loadings(j, c)) > std::abs(loadings(at, c))) at = j;
+    if (loadings(at, c) < 0) {
+      loadings.col(c) *= -1;
+      scores.col(c) *= -1;
+    }
+  }
+  out.singular_values = sigma;
+  out.scores = std::move(scores);
+  out.loadings = std::move(loadings);
+  out.eigenvalues = sigma.array().square() / static_cast<double>(n - 1);
+  out.ratio = frobenius2 > 0 ? VecD(sigma.array().square() / frobenius2) : VecD(VecD::Zero(k));
+  out.cumulative.resize(k);
+  double running = 0;
+  for (Index c = 0; c < k; ++c) out.cumulative(c) = running += out.ratio(c);
+  return out;
+}
+
+Eigen::MatrixXd project_rows(const Matrix& x, const Eigen::VectorXd& center, const Eigen::VectorXd& scale,
+                             const Eigen::MatrixXd& loadings) {
+  MatD z = x.cast<double>();
+  for (Index j = 0; j < z.cols(); ++j) z.col(j) = (z.col(j).array() - center(j)) / scale(j);
+  return z * loadings;
+}
+
+}  // namespace pare
+
+#include <charconv>     // std::from_chars
+#include <string_view>  // std::string_view
+
+#include "internal/format.h"
+#include "pare/io.h"
+
+namespace pare {
+
+std::string scores_csv(const Eigen::MatrixXd& scores, const std::vector<std::string>& sample_ids,
+                       const std::vector<std::string>& labels, const std::string& label_name,
+                       const std::string& id_name) {
+  std::string out;
+  internal::append_field(out, id_name.empty() ? "sample" : id_name, ',');
+  for (Index c = 0; c < scores.cols(); ++c) out += ",PC" + std::to_string(c + 1);
+  if (!labels.empty()) {
+    out += ',';
+    internal::append_field(out, label_name.empty() ? "label" : label_name, ',');
+  }
+  out += '\n';
+  for (Index i = 0; i < scores.rows(); ++i) {
+    internal::append_field(out, sample_ids[static_cast<std::size_t>(i)], ',');
+    for (Index c = 0; c < scores.cols(); ++c) {
+      out += ',';
+      internal::append_number(out, scores(i, c));
+    }
+    if (!labels.empty()) {
+      out += ',';
+      internal::append_field(out, labels[static_cast<std::size_t>(i)], ',');
+    }
+    out += '\n';
+  }
+  return out;
+}
+
+std::string loadings_tsv(const Eigen::MatrixXd& loadings, const std::vector<std::string>& names) {
+  std::string out = "feature";
+  for (Index c = 0; c < loadings.cols(); ++c) out += "\tPC" + std::to_string(c + 1);
+  out += '\n';
+  for (Index j = 0; j < loadings.rows(); ++j) {
+    internal::append_field(out, names[static_cast<std::size_t>(j)], '\t');
+    for (Index c = 0; c < loadings.cols(); ++c) {
+      out += '\t';
+      internal::append_number(out, loadings(j, c));
+    }
+    out += '\n';
+  }
+  return out;
+}
+
+std::string explained_tsv(const Projection& pr) {
+  std::string out = "component\teigenvalue\tratio\tcumulative_ratio\tsingular_value\n";
+  for (Index c = 0; c < pr.singular_values.size(); ++c) {
+    out += "PC" + std::to_string(c + 1);
+    for (double v : {pr.eigenvalues(c), pr.ratio(c), pr.cumulative(c), pr.singular_values(c)}) {
+      out += '\t';
+      internal::append_number(out, v);
+    }
+    out += '\n';
+  }
+  return out;
+}
+
+Eigen::MatrixXd read_loadings_tsv(const std::string& path, const std::vector<std::string>& names) {
+  // Parsed in double (the matrix reader stores float32), so the values are exactly those written.
+  const std::string text = read_file_text(path);
+  std::size_t pos = 0;
+  std::int64_t line = 0;
+  Eigen::MatrixXd loadings;
+  Index columns = -1;
+  std::size_t row = 0;
+  while (pos < text.size()) {
+    std::size_t end = text.find('\n', pos);
+    if (end == std::string::npos) end = text.size();
+    std::string_view content(text.data() + pos, end - pos);
+    if (!content.empty() && content.back() == '\r') content.remove_suffix(1);
+    pos = end + 1;
+    ++line;
+    if (content.empty()) continue;
+    const auto fields = split_fields(content, '\t');
+    if (line == 1) {
+      columns = static_cast<Index>(fields.size()) - 1;
+      if (columns < 1) throw_input_error({path, 1}, "the loadings file has no component columns");
+      loadings.resize(static_cast<Index>(names.size()), columns);
+      continue;
+    }
+    if (static_cast<Index>(fields.size()) != columns + 1)
+      throw_input_error({path, line}, "line has " + std::to_string(fields.size()) + " fields, the header has " +
+                                          std::to_string(columns + 1));
+    if (row >= names.size() || fields[0] != names[row])
+      throw_input_error({path, line, 1}, "the loadings do not list the plan's features in the plan's order",
+                        "use the loadings.tsv written with this plan");
+    for (Index c = 0; c < columns; ++c) {
+      const std::string& f = fields[static_cast<std::size_t>(c + 1)];
+      double v = 0;
+      const auto r = std::from_chars(f.data(), f.data() + f.size(), v);
+      if (r.ec != std::errc() || r.ptr != f.data() + f.size())
+        throw_input_error({path, line}, "cannot read \"" + f + "\" as a number");
+      loadings(static_cast<Index>(row), c) = v;
+    }
+    ++row;
+  }
+  if (columns < 0 || row != names.size())
+    throw_input_error({path}, "the loadings file lists " + std::to_string(row) + " features, the plan " +
+                                  std::to_string(names.size()));
+  return loadings;
+}
+
+}  // namespace pare

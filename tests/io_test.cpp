@@ -1,0 +1,511 @@
+// Reader round trips through pare::read_table on small files written to a temporary folder.
+//
+// Expected values are the decimal texts the tests write, converted to float32 by the compiler
+// (IEEE 754 round to nearest, which a correct reader must reproduce exactly), so comparisons are
+// exact unless a comment says otherwise.
+#include "pare/io.h"
+
+#include <charconv>  // std::to_chars
+#include <cmath>     // std::isnan, std::isinf
+#include <cstring>   // std::memcmp
+#include <limits>    // std::numeric_limits
+#include <random>    // std::mt19937_64
+#include <string>    // std::string
+#include <vector>    // std::vector
+
+#include <catch2/catch.hpp>
+
+#include "pare/error.h"
+
+#include "support/temp_dir.h"
+
+namespace {
+
+using pare::FeatureTable;
+using pare::Layout;
+using pare::ReadOptions;
+using pare::test::TempDir;
+using Names = std::vector<std::string>;
+
+ReadOptions options(Layout layout = Layout::kRowsAreSamples) {
+  ReadOptions o;
+  o.layout = layout;
+  o.threads = 1;
+  return o;
+}
+
+// Same shape and the same bytes (NaN payloads included): "bit-identical".
+bool same_bits(const pare::Matrix& a, const pare::Matrix& b) {
+  return a.rows() == b.rows() && a.cols() == b.cols() &&
+         std::memcmp(a.data(), b.data(), sizeof(float) * static_cast<std::size_t>(a.size())) == 0;
+}
+
+void require_same_table(const FeatureTable& a, const FeatureTable& b) {
+  REQUIRE(a.feature_names == b.feature_names);
+  REQUIRE(a.sample_ids == b.sample_ids);
+  REQUIRE(a.labels == b.labels);
+  REQUIRE(same_bits(a.values, b.values));
+}
+
+// The message of the pare::Error that `fn` throws, after checking its kind.
+template <typename Fn>
+std::string error_of(Fn&& fn, pare::ErrorKind kind = pare::ErrorKind::kInput) {
+  try {
+    fn();
+  } catch (const pare::Error& e) {
+    INFO(e.what());
+    REQUIRE(e.kind() == kind);
+    return e.what();
+  }
+  FAIL("no pare::Error was thrown");
+  return {};
+}
+
+std::string gzip_file(const TempDir& dir, const std::string& name,
+                      const std::vector<std::string>& members, int level = 6) {
+  const std::string path = dir.file(name);
+  pare::OutputFile f(path);
+  for (const auto& m : members) f.write_gzip(m, level);  // one gzip member per call
+  f.commit();
+  return path;
+}
+
+}  // namespace
+
+TEST_CASE("rows=samples and rows=features layouts give the same table", "[io]") {
+  TempDir dir;
+  const auto samples = dir.write("samples.csv",
+                                 "sample,g1,g2,g3\n"
+                                 "s1,1.5,-2,3e2\n"
+                                 "s2,0.25,NA,7\n");
+  const auto features = dir.write("features.csv",
+                                  "feature,s1,s2\n"
+                                  "g1,1.5,0.25\n"
+                                  "g2,-2,NA\n"
+                                  "g3,3e2,7\n");
+  const FeatureTable a = pare::read_table(samples, options(Layout::kRowsAreSamples));
+  const FeatureTable b = pare::read_table(features, options(Layout::kRowsAreFeatures));
+  REQUIRE(a.n_samples() == 2);
+  REQUIRE(a.n_features() == 3);
+  REQUIRE(a.feature_names == Names{"g1", "g2", "g3"});
+  REQUIRE(a.sample_ids == Names{"s1", "s2"});
+  REQUIRE(a.values(0, 0) == 1.5f);
+  REQUIRE(a.values(1, 0) == 0.25f);
+  REQUIRE(a.values(0, 1) == -2.0f);
+  REQUIRE(std::isnan(a.values(1, 1)));
+  REQUIRE(a.values(0, 2) == 300.0f);
+  REQUIRE(a.values(1, 2) == 7.0f);
+  REQUIRE(a.layout == Layout::kRowsAreSamples);
+  REQUIRE(b.layout == Layout::kRowsAreFeatures);
+  REQUIRE(a.source == samples);
+  require_same_table(a, b);
+}
+
+TEST_CASE("the delimiter is detected from the header: comma, tab, semicolon", "[io]") {
+  TempDir dir;
+  struct Case {
+    char delimiter;
+    const char* text;  // the names hold one of the other delimiters, outnumbered
+  };
+  const Case cases[] = {
+      {',', "id,a;b,c\ns1,1,2\ns2,3,4\n"},
+      {'\t', "id\ta,b\tc\ns1\t1\t2\ns2\t3\t4\n"},
+      {';', "id;a,b;c\ns1;1;2\ns2;3;4\n"},
+  };
+  for (const auto& c : cases) {
+    INFO("delimiter code " << static_cast<int>(c.delimiter));
+    const auto path = dir.write("d.txt", c.text);
+    const FeatureTable t = pare::read_table(path, options());
+    REQUIRE(t.delimiter == c.delimiter);
+    REQUIRE(t.n_features() == 2);
+    REQUIRE(t.sample_ids == Names{"s1", "s2"});
+    REQUIRE(t.values(1, 1) == 4.0f);
+  }
+  // Delimiters inside quotes do not count.
+  REQUIRE(pare::detect_delimiter("\"a;b;c\",d") == ',');
+  REQUIRE(pare::detect_delimiter("id;\"x,y,z\";w") == ';');
+  REQUIRE(pare::detect_delimiter("id") == ',');  // none at all: comma
+}
+
+TEST_CASE("ReadOptions::delimiter overrides detection", "[io]") {
+  TempDir dir;
+  // Two commas and two semicolons in the header: detection picks comma (ties go to comma).
+  const auto path = dir.write("semi.csv", "id;x,y;z,w\ns1;1;2\n");
+  REQUIRE(pare::detect_delimiter("id;x,y;z,w") == ',');
+  const std::string message = error_of([&] { pare::read_table(path, options()); });
+  INFO(message);
+  REQUIRE(message.rfind(path + ":2:", 0) == 0);
+
+  ReadOptions o = options();
+  o.delimiter = ';';
+  const FeatureTable t = pare::read_table(path, o);
+  REQUIRE(t.delimiter == ';');
+  REQUIRE(t.feature_names == Names{"x,y", "z,w"});
+  REQUIRE(t.values(0, 0) == 1.0f);
+  REQUIRE(t.values(0, 1) == 2.0f);
+}
+
+TEST_CASE("gzip input: one member, and two concatenated members", "[io]") {
+  TempDir dir;
+  const std::string text = "id,a,b\ns1,1,2\ns2,3,4\n";
+  const auto plain = dir.write("plain.csv", text);
+  const auto one = gzip_file(dir, "one.csv.gz", {text});
+  const auto two = gzip_file(dir, "two.csv.gz", {"id,a,b\ns1,1,2\n", "s2,3,4\n"});
+
+  // The two-member file really is the first member followed by a second gzip header (magic 1f 8b,
+  // RFC 1952).
+  const std::string first = TempDir::read(gzip_file(dir, "first.gz", {"id,a,b\ns1,1,2\n"}));
+  const std::string raw = TempDir::read(two);
+  REQUIRE(raw.size() > first.size());
+  REQUIRE(raw.compare(0, first.size(), first) == 0);
+  REQUIRE(raw.compare(first.size(), 2, "\x1f\x8b") == 0);
+
+  REQUIRE(pare::read_file_text(one) == text);
+  REQUIRE(pare::read_file_text(two) == text);
+  const FeatureTable expected = pare::read_table(plain, options());
+  require_same_table(pare::read_table(one, options()), expected);
+  require_same_table(pare::read_table(two, options()), expected);
+}
+
+TEST_CASE("a UTF-8 byte-order mark before the header is skipped", "[io]") {
+  TempDir dir;
+  // The first header name is quoted and holds the delimiter: read with the mark still in front, it
+  // would not start with a quote and would split into two names.
+  const auto samples = dir.write("bom.csv", "\xEF\xBB\xBF\"sample, id\",a,b\ns1,1,2\n");
+  const FeatureTable t = pare::read_table(samples, options());
+  REQUIRE(t.feature_names == Names{"a", "b"});
+  REQUIRE(t.sample_ids == Names{"s1"});
+
+  const auto features = dir.write("bomf.csv", "\xEF\xBB\xBF\"feature, id\",s1,s2\ng1,1,2\n");
+  const FeatureTable f = pare::read_table(features, options(Layout::kRowsAreFeatures));
+  REQUIRE(f.sample_ids == Names{"s1", "s2"});
+
+  const auto sheet = dir.write("bomsheet.csv", "\xEF\xBB\xBF\"sample, id\",group\ns1,A\n");
+  REQUIRE(pare::read_sample_sheet(sheet).column == "group");
+}
+
+TEST_CASE("CRLF line breaks", "[io]") {
+  TempDir dir;
+  const auto samples = dir.write("crlf.csv", "id,a,group\r\ns1,1,A\r\ns2,2.5,B\r\n");
+  ReadOptions o = options();
+  o.label_column = "group";
+  const FeatureTable t = pare::read_table(samples, o);
+  REQUIRE(t.feature_names == Names{"a"});
+  REQUIRE(t.labels == Names{"A", "B"});
+  REQUIRE(t.values(1, 0) == 2.5f);
+
+  const auto features = dir.write("crlff.csv", "feature,s1,s2\r\ng1,1,2\r\ng2,3,4\r\n");
+  const FeatureTable f = pare::read_table(features, options(Layout::kRowsAreFeatures));
+  REQUIRE(f.sample_ids == Names{"s1", "s2"});
+  REQUIRE(f.feature_names == Names{"g1", "g2"});
+  REQUIRE(f.values(1, 1) == 4.0f);
+}
+
+TEST_CASE("quoted header names with delimiters and doubled quotes", "[io]") {
+  TempDir dir;
+  const auto path = dir.write("q.csv", "id,\"a,b\",\"say \"\"hi\"\"\",c\ns1,1,2,3\n");
+  const FeatureTable t = pare::read_table(path, options());
+  REQUIRE(t.feature_names == Names{"a,b", "say \"hi\"", "c"});
+  REQUIRE(t.values(0, 2) == 3.0f);
+  REQUIRE(pare::split_fields("x,\"a,b\",\"\"\"\",", ',') == Names{"x", "a,b", "\"", ""});
+}
+
+TEST_CASE("cell syntax: quoted numbers, leading plus, exponents", "[io]") {
+  TempDir dir;
+  const auto path = dir.write("cells.csv",
+                              "id,a,b,c,d\n"
+                              "s1,\"1.5\",+2,-0.5e1,\"+4\"\n"
+                              "s2, 7 ,+.5,1E-3,0\n");
+  const FeatureTable t = pare::read_table(path, options());
+  REQUIRE(t.values(0, 0) == 1.5f);
+  REQUIRE(t.values(0, 1) == 2.0f);
+  REQUIRE(t.values(0, 2) == -5.0f);
+  REQUIRE(t.values(0, 3) == 4.0f);
+  REQUIRE(t.values(1, 0) == 7.0f);  // spaces around a number are trimmed
+  REQUIRE(t.values(1, 1) == 0.5f);
+  REQUIRE(t.values(1, 2) == 1e-3f);
+  REQUIRE(t.values(1, 3) == 0.0f);
+
+  // Two signs, a trailing letter, a hexadecimal number: not numbers.
+  for (const char* bad : {"+-1", "++1", "1.5e", "0x10", "1 2"}) {
+    INFO("cell " << bad);
+    const auto p = dir.write("bad.csv", std::string("id,a\ns1,") + bad + "\n");
+    const std::string message = error_of([&] { pare::read_table(p, options()); });
+    INFO(message);
+    REQUIRE(message.rfind(p + ":2:4: cannot read", 0) == 0);
+  }
+}
+
+TEST_CASE("missing tokens: empty, NA, NaN, nan, null, ? are NaN by default", "[io]") {
+  TempDir dir;
+  const auto path = dir.write("na.csv",
+                              "id,a,b,c,d,e,f,g\n"
+                              "s1,,NA,NaN,nan,null,?,\"NA\"\n"
+                              "s2,1,2,3,4,5,6,\n");
+  const FeatureTable t = pare::read_table(path, options());
+  REQUIRE(t.n_features() == 7);
+  for (Eigen::Index j = 0; j < 7; ++j) {
+    INFO("column " << j);
+    REQUIRE(std::isnan(t.values(0, j)));
+  }
+  REQUIRE(t.values(1, 5) == 6.0f);
+  REQUIRE(std::isnan(t.values(1, 6)));  // a line ending in the delimiter: last field empty
+
+  // Tokens outside the list are errors, not silently missing.
+  const auto other = dir.write("other.csv", "id,a\ns1,n/a\n");
+  const std::string message = error_of([&] { pare::read_table(other, options()); });
+  INFO(message);
+  REQUIRE(message.find("\"n/a\"") != std::string::npos);
+}
+
+TEST_CASE("custom missing tokens replace the defaults, numeric ones included", "[io]") {
+  TempDir dir;
+  ReadOptions o = options();
+  o.na_tokens = {"-999", "."};
+  const auto path = dir.write("na.csv", "id,a,b,c\ns1,-999,.,-999.5\ns2,1,2,3\n");
+  const FeatureTable t = pare::read_table(path, o);
+  // -999 reads as a number, yet it is on the list: missing (a sentinel for gaps in exports is
+  // common practice).
+  REQUIRE(std::isnan(t.values(0, 0)));
+  REQUIRE(std::isnan(t.values(0, 1)));
+  REQUIRE(t.values(0, 2) == -999.5f);  // tokens match as text, not as numbers
+  REQUIRE(t.values(1, 0) == 1.0f);
+
+  o.layout = Layout::kRowsAreFeatures;
+  const auto features = dir.write("naf.csv", "feature,s1,s2\ng1,-999,1\n");
+  const FeatureTable f = pare::read_table(features, o);
+  REQUIRE(std::isnan(f.values(0, 0)));
+  REQUIRE(f.values(1, 0) == 1.0f);
+
+  // The defaults no longer apply: NA and an empty field are errors now.
+  o.layout = Layout::kRowsAreSamples;
+  for (const char* cell : {"NA", ""}) {
+    INFO("cell '" << cell << "'");
+    const auto p = dir.write("bad.csv", std::string("id,a,b\ns1,") + cell + ",1\n");
+    const std::string message = error_of([&] { pare::read_table(p, o); });
+    INFO(message);
+    REQUIRE(message.rfind(p + ":2:4: cannot read", 0) == 0);
+  }
+}
+
+TEST_CASE("inf and -inf are input errors unless allow_inf", "[io]") {
+  TempDir dir;
+  const auto path = dir.write("inf.csv", "id,a,b\ns1,1,inf\ns2,-inf,2\n");
+  const std::string message = error_of([&] { pare::read_table(path, options()); });
+  INFO(message);
+  REQUIRE(message.rfind(path + ":2:6: infinite value \"inf\" in column \"b\"", 0) == 0);
+
+  ReadOptions o = options();
+  o.allow_inf = true;
+  const FeatureTable t = pare::read_table(path, o);
+  REQUIRE(std::isinf(t.values(0, 1)));
+  REQUIRE(t.values(0, 1) > 0);
+  REQUIRE(std::isinf(t.values(1, 0)));
+  REQUIRE(t.values(1, 0) < 0);
+
+  // A finite number beyond float32 (largest 3.4028235e38, IEEE 754 binary32) is not an infinity
+  // the file meant: an error even with allow_inf. 3e38 still fits.
+  const auto big = dir.write("big.csv", "id,a,b\ns1,3e38,-1e39\n");
+  for (bool allow : {false, true}) {
+    ReadOptions with = options();
+    with.allow_inf = allow;
+    const std::string m = error_of([&] { pare::read_table(big, with); });
+    INFO("allow_inf " << allow << ": " << m);
+    REQUIRE(m.rfind(big + ":2:9: value \"-1e39\" in column \"b\" is outside the float32 range",
+                    0) == 0);
+  }
+  const auto fits = dir.write("fits.csv", "id,a\ns1,3e38\ns2,-3.4e38\n");
+  const FeatureTable f = pare::read_table(fits, options());
+  REQUIRE(f.values(0, 0) == 3e38f);
+  REQUIRE(f.values(1, 0) == -3.4e38f);
+}
+
+TEST_CASE("label column in rows=samples and a label line in rows=features", "[io]") {
+  TempDir dir;
+  const auto samples = dir.write("s.csv",
+                                 "id,a,group,b\n"
+                                 "s1,1,wet,2\n"
+                                 "s2,3,dry,4\n"
+                                 "s3,5,wet,6\n");
+  ReadOptions o = options();
+  o.label_column = "group";
+  const FeatureTable a = pare::read_table(samples, o);
+  REQUIRE(a.feature_names == Names{"a", "b"});
+  REQUIRE(a.labels == Names{"wet", "dry", "wet"});
+  REQUIRE(a.label_name == "group");
+  REQUIRE(a.values(2, 1) == 6.0f);
+
+  // rows=features: the labels are the line whose first field is the label name, here in the middle.
+  const auto features = dir.write("f.csv",
+                                  "feature,s1,s2,s3\n"
+                                  "a,1,3,5\n"
+                                  "group,wet,dry,wet\n"
+                                  "b,2,4,6\n");
+  o.layout = Layout::kRowsAreFeatures;
+  const FeatureTable b = pare::read_table(features, o);
+  REQUIRE(b.label_name == "group");
+  require_same_table(a, b);
+
+  // Without a label option the same line is data, and "wet" is not a number.
+  const std::string message =
+      error_of([&] { pare::read_table(features, options(Layout::kRowsAreFeatures)); });
+  INFO(message);
+  REQUIRE(message.rfind(features + ":3:7: cannot read \"wet\"", 0) == 0);
+}
+
+TEST_CASE("sample sheet FILE:COLUMN, attached by id in another order", "[io]") {
+  TempDir dir;
+  const auto data = dir.write("d.csv", "id,a\ns1,1\ns2,2\ns3,3\n");
+  const auto sheet = dir.write("sheet.csv",
+                               "sample,batch,condition\n"
+                               "s3,b1,wet\n"
+                               "s1,b2,dry\n"
+                               "\n"
+                               "s2,b1,dry\n"
+                               "s9,b2,wet\n");  // not in the data: ignored
+  const pare::SampleSheet s = pare::read_sample_sheet(sheet + ":condition");
+  REQUIRE(s.path == sheet);
+  REQUIRE(s.column == "condition");
+  REQUIRE(s.ids == Names{"s3", "s1", "s2", "s9"});
+  REQUIRE(s.labels == Names{"wet", "dry", "dry", "wet"});
+  REQUIRE(s.lines == std::vector<std::int64_t>{2, 3, 5, 6});  // the blank line 4 is skipped
+
+  FeatureTable t = pare::read_table(data, options());
+  pare::attach_labels(t, s);
+  REQUIRE(t.labels == Names{"dry", "dry", "wet"});
+  REQUIRE(t.label_name == "condition");
+
+  // Without :COLUMN the second column is used.
+  const pare::SampleSheet by_default = pare::read_sample_sheet(sheet);
+  REQUIRE(by_default.column == "batch");
+  REQUIRE(by_default.labels == Names{"b1", "b2", "b1", "b2"});
+
+  const std::string message = error_of([&] { pare::read_sample_sheet(sheet + ":nope"); });
+  INFO(message);
+  REQUIRE(message.rfind(sheet + ":1: the sample sheet has no column named \"nope\"", 0) == 0);
+}
+
+TEST_CASE("blank lines are skipped and still counted for line numbers", "[io]") {
+  TempDir dir;
+  const auto path = dir.write("blank.csv", "id,a\n\ns1,1\n\n\r\ns2,2\n\n");
+  const FeatureTable t = pare::read_table(path, options());
+  REQUIRE(t.sample_ids == Names{"s1", "s2"});
+  REQUIRE(t.values(1, 0) == 2.0f);
+
+  const auto bad = dir.write("blank-bad.csv", "id,a\n\ns1,1\n\ns2,x\n");
+  const std::string message = error_of([&] { pare::read_table(bad, options()); });
+  INFO(message);
+  REQUIRE(message.rfind(bad + ":5:4: ", 0) == 0);
+}
+
+TEST_CASE("a header name with a quoted line break does not shift later line numbers", "[io]") {
+  TempDir dir;
+  // Line 1-2: header; 3: s1; 4: s2 with a bad cell.
+  const auto path = dir.write("ml.csv", "id,\"a\nb\",c\ns1,1,2\ns2,x,4\n");
+  const std::string message = error_of([&] { pare::read_table(path, options()); });
+  INFO(message);
+  REQUIRE(message.rfind(path + ":4:4: ", 0) == 0);
+  const auto header_only = dir.write("ml-empty.csv", "id,\"a\nb\",c\n");
+  const std::string empty = error_of([&] { pare::read_table(header_only, options()); });
+  INFO(empty);
+  REQUIRE(empty.rfind(header_only + ":3:1: no data lines", 0) == 0);
+}
+
+TEST_CASE("files larger than one 4 MiB chunk read bit-identically with 1 and 2 threads", "[io]") {
+  TempDir dir;
+  // 2400 samples x 400 features of shortest-round-trip float text: about 9.6 MB per layout, so
+  // the reader (which cuts text into chunks of about 4 MiB, kChunkBytes in src/io.cpp) parses
+  // each file as three chunks.
+  constexpr int kSamples = 2400, kFeatures = 400;
+  std::mt19937_64 rng(20240611);  // fixed seed
+  std::normal_distribution<float> normal(0.0f, 100.0f);
+  pare::Matrix expected(kSamples, kFeatures);
+  for (int i = 0; i < kSamples; ++i)
+    for (int j = 0; j < kFeatures; ++j)
+      expected(i, j) =
+          (i * 7 + j) % 53 == 0 ? std::numeric_limits<float>::quiet_NaN() : normal(rng);
+
+  auto number = [](float v) {
+    if (std::isnan(v)) return std::string("NA");
+    char buffer[32];
+    const auto r = std::to_chars(buffer, buffer + sizeof buffer, v);  // shortest round trip
+    return std::string(buffer, r.ptr);
+  };
+  // Built by appending pieces (also sidesteps GCC 12's false -Wrestrict on "literal" + string).
+  auto append = [](std::string& out, const char* prefix, const std::string& text) {
+    out += prefix;
+    out += text;
+  };
+  std::string by_samples = "id";
+  for (int j = 0; j < kFeatures; ++j) append(by_samples, ",f", std::to_string(j));
+  by_samples += '\n';
+  for (int i = 0; i < kSamples; ++i) {
+    append(by_samples, "s", std::to_string(i));
+    for (int j = 0; j < kFeatures; ++j) append(by_samples, ",", number(expected(i, j)));
+    by_samples += i % 100 == 99 ? "\n\n" : "\n";  // some blank lines
+  }
+  std::string by_features = "feature";
+  for (int i = 0; i < kSamples; ++i) append(by_features, ",s", std::to_string(i));
+  by_features += '\n';
+  for (int j = 0; j < kFeatures; ++j) {
+    append(by_features, "f", std::to_string(j));
+    for (int i = 0; i < kSamples; ++i) append(by_features, ",", number(expected(i, j)));
+    by_features += '\n';
+  }
+  constexpr std::size_t kChunk = std::size_t{4} << 20;
+  INFO("bytes: " << by_samples.size() << " by samples, " << by_features.size() << " by features");
+  REQUIRE(by_samples.size() > 2 * kChunk);
+  REQUIRE(by_features.size() > 2 * kChunk);
+  const auto samples_path = dir.write("wide.csv", by_samples);
+  const auto features_path = dir.write("wide-t.csv", by_features);
+  const auto gz_path = gzip_file(dir, "wide.csv.gz", {by_samples}, 1);  // level 1: fast
+
+  ReadOptions one = options();
+  ReadOptions two = options();
+  two.threads = 2;
+  const FeatureTable a1 = pare::read_table(samples_path, one);
+  const FeatureTable a2 = pare::read_table(samples_path, two);
+  REQUIRE(a1.n_samples() == kSamples);
+  REQUIRE(a1.n_features() == kFeatures);
+  REQUIRE(a1.sample_ids.back() == "s" + std::to_string(kSamples - 1));
+  REQUIRE(a1.feature_names.back() == "f" + std::to_string(kFeatures - 1));
+  REQUIRE(same_bits(a1.values, expected));
+  require_same_table(a1, a2);
+  require_same_table(a1, pare::read_table(gz_path, two));
+
+  one.layout = two.layout = Layout::kRowsAreFeatures;
+  const FeatureTable b1 = pare::read_table(features_path, one);
+  const FeatureTable b2 = pare::read_table(features_path, two);
+  require_same_table(a1, b1);
+  require_same_table(b1, b2);
+
+  // An error in the last chunk is reported at its true line with any thread count.
+  std::string broken = by_samples;
+  const std::string last_id = "\ns" + std::to_string(kSamples - 1) + ",";
+  const auto at = broken.rfind(last_id);
+  REQUIRE(at != std::string::npos);
+  broken.insert(at + last_id.size(), "x");
+  const auto broken_path = dir.write("broken.csv", broken);
+  // Line 1 is the header; sample i sits on line 2 + i + (blank lines before it: i / 100).
+  const int line = 2 + (kSamples - 1) + (kSamples - 1) / 100;
+  const std::string col = std::to_string(last_id.size());  // after "sNNNN,"
+  for (int threads : {1, 2}) {
+    ReadOptions o = options();
+    o.threads = threads;
+    const std::string message = error_of([&] { pare::read_table(broken_path, o); });
+    INFO("threads " << threads << ": " << message);
+    REQUIRE(message.rfind(broken_path + ":" + std::to_string(line) + ":" + col + ": cannot read",
+                          0) == 0);
+  }
+}
+
+TEST_CASE("encode_classes sorts classes by name and counts them", "[io]") {
+  const pare::ClassCodes c = pare::encode_classes({"wet", "dry", "wet", "wet", "10", "9"});
+  // Labels are strings: "10" sorts before "9" (byte order), numeric-looking or not (SPEC §3).
+  REQUIRE(c.classes == Names{"10", "9", "dry", "wet"});
+  REQUIRE(c.codes == std::vector<int>{3, 2, 3, 3, 0, 1});
+  REQUIRE(c.counts == std::vector<std::int64_t>{1, 1, 1, 3});
+  const pare::ClassCodes empty = pare::encode_classes({});
+  REQUIRE(empty.classes.empty());
+  REQUIRE(empty.codes.empty());
+}
