@@ -4,6 +4,7 @@
 # Other targets: build, deps, bench, format, clean.
 
 BUILD ?= build/release
+ASAN_BUILD ?= build/asan
 JOBS  ?= 2
 CMAKE_FLAGS ?=
 
@@ -19,8 +20,14 @@ build: deps
 demo: build
 	$(BUILD)/pare demo --out pare-demo
 
+# Every test on the Release build, then the unit tests again under AddressSanitizer and
+# UndefinedBehaviorSanitizer (the reference checks are not repeated there: they test numbers, not memory).
 test: build
 	ctest --test-dir $(BUILD) -j$(JOBS) --output-on-failure
+	@cmake -S . -B $(ASAN_BUILD) -DCMAKE_BUILD_TYPE=RelWithDebInfo -DPARE_SANITIZE=address,undefined > /dev/null
+	@cmake --build $(ASAN_BUILD) -j$(JOBS) --target pare_tests
+	ASAN_OPTIONS=detect_leaks=1:abort_on_error=1 UBSAN_OPTIONS=print_stacktrace=1:halt_on_error=1 \
+	  ctest --test-dir $(ASAN_BUILD) -j$(JOBS) -R '^unit' --output-on-failure
 
 bench: build
 	benchmarks/bench_read.sh $(BUILD)/pare

@@ -21,6 +21,10 @@ namespace {
 
 constexpr double kInf = std::numeric_limits<double>::infinity();
 
+// Boost.Math evaluates double functions in long double by default; double is accurate to a few ulp
+// here and several times faster (the tails are evaluated for every feature).
+using DoublePolicy = boost::math::policies::policy<boost::math::policies::promote_double<false>>;
+
 // Maps a float to an unsigned key with the same order (negative values flipped), so a sort of
 // (key << 32 | row) sorts by value with ties in row order. -0 is folded into +0 first: the two
 // compare equal and must share a bin.
@@ -119,40 +123,54 @@ double pearson_chi2(std::span<const double> table, int rows, int cols, int& df) 
 double chi2_upper_tail(double statistic, double df) {
   if (!(df > 0) || !(statistic > 0)) return 1.0;
   if (std::isinf(statistic)) return 0.0;
-  return boost::math::cdf(boost::math::complement(boost::math::chi_squared_distribution<double>(df), statistic));
+  return boost::math::cdf(boost::math::complement(boost::math::chi_squared_distribution<double, DoublePolicy>(df), statistic));
 }
 
 double f_upper_tail(double statistic, double df1, double df2) {
   if (!(df1 > 0) || !(df2 > 0) || !(statistic > 0)) return 1.0;
   if (std::isinf(statistic)) return 0.0;
-  return boost::math::cdf(boost::math::complement(boost::math::fisher_f_distribution<double>(df1, df2), statistic));
+  return boost::math::cdf(
+      boost::math::complement(boost::math::fisher_f_distribution<double, DoublePolicy>(df1, df2), statistic));
 }
 
-double knn_mutual_information(std::span<const double> x, std::span<const int> y, int classes, int k) {
+namespace {
+
+// psi(m) for integers m >= 1 by the recurrence psi(m + 1) = psi(m) + 1/m, psi(1) = -Euler's gamma;
+// a per-thread table grown on demand (the kNN estimator needs psi of counts only).
+double psi_of(std::int64_t m) {
+  thread_local std::vector<double> table{0.0, -0.57721566490153286060651209008240243};
+  while (static_cast<std::int64_t>(table.size()) <= m) {
+    const auto last = static_cast<double>(table.size() - 1);
+    table.push_back(table.back() + 1.0 / last);
+  }
+  return table[static_cast<std::size_t>(m)];
+}
+
+// The kNN estimator on values sorted ascending, `y[i]` the class of `x[i]`.
+double knn_mi_sorted(std::span<const double> x, std::span<const int> y, int classes, int k) {
   // Points alone in their class carry no neighbour information and are left out (N shrinks).
   std::vector<std::int64_t> count(static_cast<std::size_t>(classes), 0);
   for (int c : y) ++count[static_cast<std::size_t>(c)];
   std::vector<std::vector<double>> by_class(static_cast<std::size_t>(classes));
+  for (std::size_t c = 0; c < by_class.size(); ++c)
+    if (count[c] >= 2) by_class[c].reserve(static_cast<std::size_t>(count[c]));
   std::vector<double> all;
   all.reserve(x.size());
   for (std::size_t i = 0; i < x.size(); ++i) {
     if (count[static_cast<std::size_t>(y[i])] < 2) continue;
-    by_class[static_cast<std::size_t>(y[i])].push_back(x[i]);
+    by_class[static_cast<std::size_t>(y[i])].push_back(x[i]);  // stays sorted
     all.push_back(x[i]);
   }
   const auto n = static_cast<std::int64_t>(all.size());
   if (n == 0) return 0;
-  std::sort(all.begin(), all.end());
-  for (auto& v : by_class) std::sort(v.begin(), v.end());
 
-  using boost::math::digamma;
   double sum_psi_k = 0, sum_psi_class = 0, sum_psi_m = 0;
   for (const auto& members : by_class) {
     const auto size = static_cast<std::int64_t>(members.size());
     if (size < 2) continue;
     const std::int64_t ki = std::min<std::int64_t>(k, size - 1);
-    const double psi_k = digamma(static_cast<double>(ki));
-    const double psi_class = digamma(static_cast<double>(size));
+    sum_psi_k += static_cast<double>(size) * psi_of(ki);
+    sum_psi_class += static_cast<double>(size) * psi_of(size);
     for (std::int64_t pos = 0; pos < size; ++pos) {
       const double xi = members[static_cast<std::size_t>(pos)];
       // Distance to the ki-th nearest other member: merge outwards from pos.
@@ -179,14 +197,42 @@ double knn_mutual_information(std::span<const double> x, std::span<const int> y,
       } else {
         m = std::upper_bound(all.begin(), all.end(), xi) - std::lower_bound(all.begin(), all.end(), xi);
       }
-      sum_psi_k += psi_k;
-      sum_psi_class += psi_class;
-      sum_psi_m += digamma(static_cast<double>(m));
+      sum_psi_m += psi_of(m);
     }
   }
   const double dn = static_cast<double>(n);
-  const double mi = digamma(dn) + (sum_psi_k - sum_psi_class - sum_psi_m) / dn;
+  const double mi = psi_of(n) + (sum_psi_k - sum_psi_class - sum_psi_m) / dn;
   return std::max(0.0, mi);
+}
+
+// Sorts keys (value key in the high 32 bits, row in the low 32) by their high 32 bits: an LSD radix
+// sort, 8 bits a pass, stable, so rows of tied values stay in row order as they were pushed. Passes
+// in which every key has the same byte are skipped.
+void sort_keys(std::vector<std::uint64_t>& keys, std::vector<std::uint64_t>& buffer) {
+  buffer.resize(keys.size());
+  for (int shift = 32; shift < 64; shift += 8) {
+    std::size_t counts[257] = {};
+    for (const std::uint64_t key : keys) ++counts[((key >> shift) & 0xFF) + 1];
+    if (counts[((keys.front() >> shift) & 0xFF) + 1] == keys.size()) continue;
+    for (int b = 0; b < 256; ++b) counts[b + 1] += counts[b];
+    for (const std::uint64_t key : keys) buffer[counts[(key >> shift) & 0xFF]++] = key;
+    keys.swap(buffer);
+  }
+}
+
+}  // namespace
+
+double knn_mutual_information(std::span<const double> x, std::span<const int> y, int classes, int k) {
+  std::vector<std::size_t> order(x.size());
+  std::iota(order.begin(), order.end(), std::size_t{0});
+  std::stable_sort(order.begin(), order.end(), [&](std::size_t a, std::size_t b) { return x[a] < x[b]; });
+  std::vector<double> xs(x.size());
+  std::vector<int> ys(x.size());
+  for (std::size_t i = 0; i < order.size(); ++i) {
+    xs[i] = x[order[i]];
+    ys[i] = y[order[i]];
+  }
+  return knn_mi_sorted(xs, ys, classes, k);
 }
 
 std::vector<double> bh_adjust(std::span<const double> p) {
@@ -214,7 +260,7 @@ namespace {
 
 // Per-thread scratch space for one feature at a time.
 struct Scratch {
-  std::vector<std::uint64_t> keys;
+  std::vector<std::uint64_t> keys, buffer;
   std::vector<double> table;
   std::vector<double> values;
   std::vector<int> labels;
@@ -285,7 +331,7 @@ Result score_one(const float* column, std::int64_t n_rows, const std::vector<int
   // strictly increasing in L, so bin L gives the same partition (the same table up to empty rows,
   // hence the same MI and chi-square) with n rows instead of B: a large --bins cannot allocate a
   // huge table.
-  std::sort(s.keys.begin(), s.keys.end());
+  sort_keys(s.keys, s.buffer);
   const bool by_rank = static_cast<std::int64_t>(options.bins) >= n;
   const int bins = by_rank ? static_cast<int>(n) : options.bins;
   s.table.assign(static_cast<std::size_t>(bins) * ku, 0.0);
@@ -303,14 +349,15 @@ Result score_one(const float* column, std::int64_t n_rows, const std::vector<int
   if (options.mi == MiEstimator::kBinned) {
     r.mi = mutual_information(s.table, bins, k);
   } else if (finite) {
+    // The keys are sorted by value already: the estimator takes them in that order.
     s.values.clear();
     s.labels.clear();
-    for (std::int64_t i = 0; i < n_rows; ++i) {
-      if (std::isnan(column[i])) continue;
-      s.values.push_back(static_cast<double>(column[i]));
-      s.labels.push_back(codes[static_cast<std::size_t>(i)]);
+    for (const std::uint64_t key : s.keys) {
+      const auto row = static_cast<std::size_t>(key & 0xFFFFFFFFu);
+      s.values.push_back(static_cast<double>(column[row]));
+      s.labels.push_back(codes[row]);
     }
-    r.mi = knn_mutual_information(s.values, s.labels, k, options.neighbors);
+    r.mi = knn_mi_sorted(s.values, s.labels, k, options.neighbors);
   }
   r.chi2 = pearson_chi2(s.table, bins, k, r.chi2_df);
   r.chi2_p = chi2_upper_tail(r.chi2, r.chi2_df);

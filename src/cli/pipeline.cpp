@@ -57,10 +57,13 @@ std::string sheet_path_of(const std::string& spec) {
   return colon == std::string::npos || colon == 0 ? spec : spec.substr(0, colon);
 }
 
-void print_steps(std::ostream& out, const Reduction& r) {
+void print_steps(std::ostream& out, const Reduction& r, bool selection) {
   std::vector<std::vector<std::string>> rows{{"step", "in", "out", "seconds"}};
-  for (const auto& s : r.steps)
+  for (const auto& s : r.steps) {
+    // `project` switches every selection step off; only reading, filling and the PCA are shown.
+    if (!selection && s.name != "read" && s.name != "impute" && s.name != "project") continue;
     rows.push_back({s.name, thousands(s.in), thousands(s.out), fixed(s.seconds, 2)});
+  }
   print_table(out, rows, 1);
 }
 
@@ -177,7 +180,7 @@ ReduceRun reduce_and_write(const InputOptions& input, const CommonOptions& commo
       out << " -> " << thousands(static_cast<std::int64_t>(r.kept.size())) << " kept, ranked by "
           << criterion_name(r.criterion);
     out << "\n";
-    print_steps(out, r);
+    print_steps(out, r, project.selection_outputs);
     if (project.selection_outputs) {
       out << "  top:";
       for (std::size_t k = 0; k < names.size() && k < 10; ++k) out << (k ? ", " : " ") << names[k];
