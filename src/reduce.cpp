@@ -382,16 +382,32 @@ std::string reduction_ranking_tsv(const FeatureTable& t, const Reduction& r) {
 
 std::string reduced_matrix_text(const FeatureTable& t, const std::vector<std::int64_t>& columns,
                                 const std::vector<std::string>& names) {
+  std::string out;
+  write_reduced_matrix(t, columns, names, [&](std::string_view piece) { out += piece; });
+  return out;
+}
+
+void write_reduced_matrix(const FeatureTable& t, const std::vector<std::int64_t>& columns,
+                          const std::vector<std::string>& names,
+                          const std::function<void(std::string_view)>& sink) {
+  constexpr std::size_t kPiece = std::size_t{1} << 20;
   const char d = t.delimiter;
   const Eigen::Index n = t.values.rows();
   std::string out;
-  out.reserve(static_cast<std::size_t>(n) * columns.size() * 10 + 1024);
+  out.reserve(2 * kPiece);
+  auto flush = [&](bool always) {
+    if (always || out.size() >= kPiece) {
+      sink(out);
+      out.clear();
+    }
+  };
   const std::string label_name = t.label_name.empty() ? "label" : t.label_name;
   if (t.layout == Layout::kRowsAreSamples) {
     internal::append_field(out, t.id_name.empty() ? "sample" : t.id_name, d);
     for (const auto& name : names) {
       out += d;
       internal::append_field(out, name, d);
+      flush(false);
     }
     if (t.has_labels()) {
       out += d;
@@ -403,6 +419,7 @@ std::string reduced_matrix_text(const FeatureTable& t, const std::vector<std::in
       for (const std::int64_t j : columns) {
         out += d;
         internal::append_number(out, t.values(i, j));
+        flush(false);
       }
       if (t.has_labels()) {
         out += d;
@@ -410,7 +427,8 @@ std::string reduced_matrix_text(const FeatureTable& t, const std::vector<std::in
       }
       out += '\n';
     }
-    return out;
+    flush(true);
+    return;
   }
   internal::append_field(out, t.id_name.empty() ? "feature" : t.id_name, d);
   for (const auto& id : t.sample_ids) {
@@ -434,8 +452,9 @@ std::string reduced_matrix_text(const FeatureTable& t, const std::vector<std::in
       internal::append_number(out, x[i]);
     }
     out += '\n';
+    flush(false);
   }
-  return out;
+  flush(true);
 }
 
 }  // namespace pare

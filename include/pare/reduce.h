@@ -2,7 +2,9 @@
 // filter, relevance, correlation pruning, top K. Every decision is recorded per input feature.
 #pragma once
 
-#include <cstdint>  // std::int64_t
+#include <cstdint>      // std::int64_t
+#include <functional>   // std::function
+#include <string_view>  // std::string_view
 #include <string>   // std::string
 #include <vector>   // std::vector
 
@@ -89,5 +91,11 @@ std::string reduction_ranking_tsv(const FeatureTable& table, const Reduction& r)
 /// and labels kept.
 std::string reduced_matrix_text(const FeatureTable& table, const std::vector<std::int64_t>& columns,
                                 const std::vector<std::string>& names);
+
+/// The same text handed to `sink` in pieces of about a megabyte, so a large matrix is never held
+/// whole as text.
+void write_reduced_matrix(const FeatureTable& table, const std::vector<std::int64_t>& columns,
+                          const std::vector<std::string>& names,
+                          const std::function<void(std::string_view)>& sink);
 
 }  // namespace pare

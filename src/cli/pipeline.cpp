@@ -27,15 +27,17 @@ class OutputSet {
     ensure_directory(dir_);
   }
 
-  void add(const std::string& name, std::string_view content) {
+  void add(const std::string& name, std::string_view content) { open(name).write(content); }
+
+  /// Opens `name` for writing in pieces; it is renamed into place by commit() with the others.
+  OutputFile& open(const std::string& name) {
     const std::string path = join_path(dir_, name);
     std::error_code ec;
     for (const auto& input : inputs_)
       if (std::filesystem::equivalent(path, input, ec))
         throw_output_error(path, "is the input file " + input, "choose another --out folder");
-    auto file = std::make_unique<OutputFile>(path);
-    file->write(content);
-    files_.push_back(std::move(file));
+    files_.push_back(std::make_unique<OutputFile>(path));
+    return *files_.back();
   }
 
   void commit() {
@@ -104,7 +106,7 @@ ReduceRun reduce_and_write(const InputOptions& input, const CommonOptions& commo
   ReduceRun run;
   run.table = load_table(input, common);
   const double read_seconds = seconds_since(start);
-  if (!common.quiet && !run.table.has_labels())
+  if (!common.quiet && !run.table.has_labels() && project.selection_outputs)  // `project` selects nothing
     out << "pare reduce: no labels given, so features are ranked by variance and the supervised steps "
            "(relevance, --fdr) are skipped\n";
   RunRecord record;
@@ -136,7 +138,8 @@ ReduceRun reduce_and_write(const InputOptions& input, const CommonOptions& commo
   if (project.selection_outputs) {
     files.add("ranking.tsv", reduction_ranking_tsv(run.table, r));
     files.add("selection-log.tsv", selection_log_tsv(run.table, r));
-    files.add("reduced.csv", reduced_matrix_text(run.table, r.kept, names));
+    OutputFile& reduced = files.open("reduced.csv");
+    write_reduced_matrix(run.table, r.kept, names, [&](std::string_view piece) { reduced.write(piece); });
   }
   PlanProjection plan_projection;
   if (project.options.components > 0) {
