@@ -138,7 +138,22 @@ PruneResult prune_correlated(const Matrix& m, std::span<const std::int64_t> cand
       if (options.max_kept > 0 && static_cast<std::int64_t>(kept_positions.size() + block_kept.size()) >= options.max_kept)
         break;
       out.examined = start + b + 1;
-      if (dropped[static_cast<std::size_t>(b)]) continue;
+      if (dropped[static_cast<std::size_t>(b)]) {
+        // Already dropped by an earlier block's feature; name the most correlated kept feature,
+        // whichever block it is in (earlier rank wins a tie), so the name does not depend on the
+        // block size.
+        const auto ci = static_cast<std::size_t>(start + b);
+        for (const Eigen::Index j : block_kept) {
+          if (std::abs(g(j, b)) < std::abs(out.r[ci]) - margin) continue;
+          const double r = exact_r(col(start + j), moments[static_cast<std::size_t>(start + j)], col(start + b),
+                                   moments[ci], n);
+          if (std::abs(r) > std::abs(out.r[ci])) {
+            out.r[ci] = r;
+            out.partner[ci] = start + j;
+          }
+        }
+        continue;
+      }
       std::int64_t best = -1;
       float best_r = 0;
       std::vector<std::int64_t> near;

@@ -110,8 +110,9 @@ Reduction reduce(FeatureTable& t, const ReduceOptions& o) {
   }
   r.steps.push_back({"missing", p, static_cast<std::int64_t>(alive.size()), timer.lap()});
 
-  // 2. imputation: learn the fill values now (raw scale); cells are filled after scoring, which
-  // uses observed cells only, so the order of SPEC §4 is kept in effect.
+  // 2. imputation: learn the fill values now (raw scale). The cells are filled after scoring:
+  // the variance filter and the scores use each feature's observed cells only (as documented),
+  // and correlations and PCA use the filled values.
   {
     std::vector<float> scratch;
 #pragma omp parallel for schedule(dynamic, 64) num_threads(threads) firstprivate(scratch)
@@ -269,7 +270,8 @@ Reduction reduce(FeatureTable& t, const ReduceOptions& o) {
   for (std::size_t i = 0; i < survivors.size(); ++i) {
     const std::int64_t j = survivors[i];
     if (o.keep > 0 && static_cast<std::int64_t>(i) >= o.keep) {
-      drop(j, "top", "rank " + std::to_string(i + 1) + " after pruning; --keep " + std::to_string(o.keep));
+      drop(j, "top", "rank " + std::to_string(i + 1) + (o.prune ? " after pruning" : "") + "; --keep " +
+                         std::to_string(o.keep));
       continue;
     }
     r.kept.push_back(j);
@@ -305,6 +307,10 @@ Reduction reduce(FeatureTable& t, const ReduceOptions& o) {
     d.step = "kept";
     d.rank = static_cast<std::int64_t>(k + 1);
     const std::int64_t pos = r.score_of[static_cast<std::size_t>(r.kept[k])];
+    if (!o.relevance) {
+      d.reason = "position " + std::to_string(k + 1) + " in input order (no ranking)";
+      continue;
+    }
     d.reason = "rank " + std::to_string(k + 1) + " by " + criterion_name(r.criterion) + " (" +
                g3(pos >= 0 ? criterion_score(r.scores, r.criterion, static_cast<std::size_t>(pos))
                            : r.variance[static_cast<std::size_t>(r.kept[k])]) +

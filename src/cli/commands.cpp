@@ -178,6 +178,7 @@ int command_rank(const std::vector<std::string>& args, std::ostream& out) {
   score.threads = common.threads;
 
   const FeatureTable table = load_table(input, common);
+  require_two_classes(table, input);
   const ClassCodes classes = encode_classes(table.labels);
   std::vector<std::int64_t> all(static_cast<std::size_t>(table.n_features()));
   for (std::size_t j = 0; j < all.size(); ++j) all[j] = static_cast<std::int64_t>(j);

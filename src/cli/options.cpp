@@ -106,6 +106,20 @@ ReadOptions read_options_from(const InputOptions& input, const CommonOptions& co
   return r;
 }
 
+void require_two_classes(const FeatureTable& table, const InputOptions& input) {
+  const ClassCodes classes = encode_classes(table.labels);
+  if (classes.classes.size() >= 2) return;
+  std::string source = input.data;
+  if (!input.labels.empty()) {
+    const auto colon = input.labels.rfind(':');
+    source = colon == std::string::npos || colon == 0 ? input.labels : input.labels.substr(0, colon);
+  }
+  throw_input_error({source}, "the labels (" + (table.label_name.empty() ? std::string("label") : table.label_name) +
+                                  ") have one class, " + (classes.classes.empty() ? std::string("none") : classes.classes[0]) +
+                                  "; scoring against a label needs at least two",
+                    "check the label column, or leave out the labels to rank by variance");
+}
+
 FeatureTable load_table(const InputOptions& input, const CommonOptions& common) {
   const ReadOptions options = read_options_from(input, common);
   // The sheet is small: read it first so its mistakes show before a long read of the data.

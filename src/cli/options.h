@@ -48,6 +48,9 @@ bool parse_command_line(const std::vector<std::string>& args, const po::options_
 /// and that --label and --labels are not both given.
 ReadOptions read_options_from(const InputOptions& input, const CommonOptions& common);
 
+/// Throws Error(kInput), naming the file the labels came from, when they hold fewer than 2 classes.
+void require_two_classes(const FeatureTable& table, const InputOptions& input);
+
 /// Reads the data file and attaches labels from --labels when given.
 FeatureTable load_table(const InputOptions& input, const CommonOptions& common);
 

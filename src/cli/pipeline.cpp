@@ -106,6 +106,7 @@ ReduceRun reduce_and_write(const InputOptions& input, const CommonOptions& commo
   ReduceRun run;
   run.table = load_table(input, common);
   const double read_seconds = seconds_since(start);
+  if (run.table.has_labels() && options.relevance) require_two_classes(run.table, input);
   if (!common.quiet && !run.table.has_labels() && project.selection_outputs)  // `project` selects nothing
     out << "pare reduce: no labels given, so features are ranked by variance and the supervised steps "
            "(relevance, --fdr) are skipped\n";
