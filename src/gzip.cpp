@@ -6,6 +6,7 @@
 #include <cstdint>    // std::uint32_t
 #include <cstring>    // std::memcpy
 
+#include "internal/buffer.h"
 #include "pare/error.h"
 
 namespace pare::internal {
@@ -15,14 +16,13 @@ bool is_gzip(std::string_view bytes) {
          static_cast<unsigned char>(bytes[1]) == 0x8b;
 }
 
-std::string gunzip(std::string_view compressed, const std::string& path) {
-  std::string out;
+std::size_t gunzip_into(std::string_view compressed, const std::string& path, GrowableBuffer& out) {
   // The trailer's ISIZE (size mod 2^32 of the last member) is a good first guess for one member.
   // On a damaged file it is garbage, so it is capped by deflate's best ratio (1032:1).
   if (compressed.size() >= 18) {
     std::uint32_t isize = 0;
     std::memcpy(&isize, compressed.data() + compressed.size() - 4, 4);
-    out.reserve(std::min<std::size_t>(isize, compressed.size() * 1032));
+    out.reserve(std::max<std::size_t>(std::min<std::size_t>(isize, compressed.size() * 1032), 1 << 21));
   }
   z_stream zs{};
   if (inflateInit2(&zs, 15 + 16) != Z_OK) throw Error(ErrorKind::kOther, "zlib init failed");
@@ -32,9 +32,9 @@ std::string gunzip(std::string_view compressed, const std::string& path) {
   int status = Z_OK;
   constexpr std::size_t kStep = std::size_t{1} << 22;
   while (true) {
-    if (out.size() - produced < kStep / 2) out.resize(std::max(out.size() * 3 / 2, produced + kStep));
+    if (out.capacity() - produced < kStep / 2) out.reserve(std::max(out.capacity() * 3 / 2, produced + kStep));
     const uInt in_now = static_cast<uInt>(std::min<std::size_t>(left, 1u << 30));
-    const uInt out_now = static_cast<uInt>(std::min<std::size_t>(out.size() - produced, 1u << 30));
+    const uInt out_now = static_cast<uInt>(std::min<std::size_t>(out.capacity() - produced, 1u << 30));
     zs.next_in = const_cast<Bytef*>(next);
     zs.avail_in = in_now;
     zs.next_out = reinterpret_cast<Bytef*>(out.data() + produced);
@@ -70,8 +70,7 @@ std::string gunzip(std::string_view compressed, const std::string& path) {
     }
   }
   inflateEnd(&zs);
-  out.resize(produced);
-  return out;
+  return produced;
 }
 
 std::string gzip(std::string_view bytes, int level) {

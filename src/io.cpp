@@ -15,6 +15,7 @@
 #include <unordered_map>  // std::unordered_map
 #include <unordered_set>  // std::unordered_set
 
+#include "internal/buffer.h"
 #include "internal/gzip.h"
 #include "internal/omp.h"
 #include "pare/error.h"
@@ -294,31 +295,7 @@ int open_for_reading(const std::string& path) {
 std::vector<std::string> default_na_tokens() { return {"", "NA", "NaN", "nan", "null", "?"}; }
 
 std::string read_file_text(const std::string& path) {
-  const int fd = open_for_reading(path);
-  struct stat st {};
-  if (::fstat(fd, &st) != 0 || S_ISDIR(st.st_mode)) {
-    ::close(fd);
-    throw_input_error({path}, "is a folder, not a file", "give the path of a data file");
-  }
-  std::string text;
-  text.resize(static_cast<std::size_t>(st.st_size));
-  std::size_t have = 0;
-  while (true) {
-    if (have == text.size()) text.resize(std::max<std::size_t>(text.size() * 2, 1 << 16));
-    const ssize_t got = ::read(fd, text.data() + have, text.size() - have);
-    if (got < 0) {
-      if (errno == EINTR) continue;
-      const int err = errno;
-      ::close(fd);
-      throw_input_error({path}, std::string("cannot read the file: ") + std::strerror(err));
-    }
-    if (got == 0) break;
-    have += static_cast<std::size_t>(got);
-  }
-  ::close(fd);
-  text.resize(have);
-  if (internal::is_gzip(text)) return internal::gunzip(text, path);
-  return text;
+  return std::string(internal::InputText::open(path).view());
 }
 
 char detect_delimiter(std::string_view header_line) {
@@ -378,7 +355,7 @@ void split_fields_at(std::string_view line, char delimiter, std::vector<std::str
   }
 }
 
-Header read_header(const std::string& path, const std::string& text, char delimiter) {
+Header read_header(const std::string& path, std::string_view text, char delimiter) {
   const char* begin = text.data();
   const char* end = text.data() + text.size();
   if (text.size() >= 3 && static_cast<unsigned char>(text[0]) == 0xEF &&
@@ -485,7 +462,7 @@ void check_labels_present(const std::string& path, const std::vector<std::string
                         "give every sample a class, or leave the sample out");
 }
 
-FeatureTable read_rows_are_samples(const std::string& path, const std::string& text,
+FeatureTable read_rows_are_samples(const std::string& path, std::string_view text,
                                    const Header& h, const ReadOptions& options) {
   const char delim = h.delimiter;
   const int threads = internal::thread_count(options.threads);
@@ -528,6 +505,7 @@ FeatureTable read_rows_are_samples(const std::string& path, const std::string& t
                       "each sample needs a line of values");
 
   t.values.resize(n, p);
+  internal::advise_huge_pages(t.values.data(), static_cast<std::size_t>(n * p) * sizeof(float));
   t.sample_ids.resize(static_cast<std::size_t>(n));
   if (label_field >= 0) t.labels.resize(static_cast<std::size_t>(n));
   std::vector<std::int64_t> record_lines(static_cast<std::size_t>(n));
@@ -597,7 +575,7 @@ FeatureTable read_rows_are_samples(const std::string& path, const std::string& t
   return t;
 }
 
-FeatureTable read_rows_are_features(const std::string& path, const std::string& text,
+FeatureTable read_rows_are_features(const std::string& path, std::string_view text,
                                     const Header& h, const ReadOptions& options) {
   const char delim = h.delimiter;
   const int threads = internal::thread_count(options.threads);
@@ -649,6 +627,7 @@ FeatureTable read_rows_are_features(const std::string& path, const std::string& 
                       "each feature needs a line of values");
 
   t.values.resize(n, p);
+  internal::advise_huge_pages(t.values.data(), static_cast<std::size_t>(n * p) * sizeof(float));
   t.feature_names.resize(static_cast<std::size_t>(p));
   const CellContext ctx{delim, &na, options.allow_inf};
   float* const out = t.values.data();
@@ -718,7 +697,8 @@ FeatureTable read_rows_are_features(const std::string& path, const std::string& 
 }  // namespace
 
 FeatureTable read_table(const std::string& path, const ReadOptions& options) {
-  const std::string text = read_file_text(path);
+  const internal::InputText input = internal::InputText::open(path);
+  const std::string_view text = input.view();
   const Header h = read_header(path, text, options.delimiter);
   if (options.layout == Layout::kRowsAreSamples)
     return read_rows_are_samples(path, text, h, options);

@@ -9,9 +9,11 @@ namespace pare::internal {
 /// True when `bytes` starts with the gzip magic bytes 1f 8b.
 bool is_gzip(std::string_view bytes);
 
-/// Inflates a whole gzip file (one or more members). Throws Error(kInput) naming `path` when the
-/// stream is corrupt or ends early.
-std::string gunzip(std::string_view compressed, const std::string& path);
+class GrowableBuffer;
+
+/// Inflates a whole gzip file (one or more members) into `out`; returns the inflated size. Throws
+/// Error(kInput) naming `path` when the stream is corrupt or ends early.
+std::size_t gunzip_into(std::string_view compressed, const std::string& path, GrowableBuffer& out);
 
 /// Compresses `bytes` into one gzip member.
 std::string gzip(std::string_view bytes, int level);
