@@ -159,13 +159,13 @@ DemoFiles write_demo(const std::string& dir, std::uint64_t seed, const DemoScena
       const FeaturePlan& o = plan[static_cast<std::size_t>(f.copy_of)];
       const auto& src = latent[static_cast<std::size_t>(f.copy_of)];
       const auto& factor_l = factor[static_cast<std::size_t>(o.module)];
-      const double a = o.loading, s = std::sqrt(1 - a * a);
+      const double a = o.loading, s_noise = std::sqrt(1 - a * a);
       constexpr double kR = 0.97, kAside = 0.2431049156;  // sqrt(1 - 0.97^2)
       z.resize(static_cast<std::size_t>(n));
       for (std::int64_t i = 0; i < n; ++i) {
         const auto ii = static_cast<std::size_t>(i);
-        const double e = (src[ii] - a * factor_l[ii]) / s;
-        z[ii] = kR * src[ii] + kAside * (0.8 * (a * e - s * factor_l[ii]) + 0.6 * r.normal());
+        const double e = (src[ii] - a * factor_l[ii]) / s_noise;
+        z[ii] = kR * src[ii] + kAside * (0.8 * (a * e - s_noise * factor_l[ii]) + 0.6 * r.normal());
       }
     } else {
       z = z_of(j, r);

@@ -280,16 +280,6 @@ bool starts_with_field(const char* b, const char* e, std::string_view name, char
   return field == name;
 }
 
-int open_for_reading(const std::string& path) {
-  const int fd = ::open(path.c_str(), O_RDONLY | O_CLOEXEC);
-  if (fd < 0) {
-    const int err = errno;
-    throw_input_error({path}, std::string("cannot open the file: ") + std::strerror(err),
-                      err == ENOENT ? "check the path" : "check the file's permissions");
-  }
-  return fd;
-}
-
 }  // namespace
 
 std::vector<std::string> default_na_tokens() { return {"", "NA", "NaN", "nan", "null", "?"}; }

@@ -87,10 +87,10 @@ std::string plan_json(const FeatureTable& t, const Reduction& r, const ReduceOpt
   plan["outputs"] = {{"ranking", "ranking.tsv"}, {"selection_log", "selection-log.tsv"}, {"reduced", "reduced.csv"}};
   if (pp.projection) {
     const Projection& pr = *pp.projection;
-    json center = json::array(), scale = json::array();
+    json feature_center = json::array(), feature_scale = json::array();
     for (Eigen::Index j = 0; j < pr.center.size(); ++j) {
-      center.push_back(pr.center(j));
-      scale.push_back(pr.scale(j));
+      feature_center.push_back(pr.center(j));
+      feature_scale.push_back(pr.scale(j));
     }
     plan["projection"] = {{"components", pr.singular_values.size()},
                           {"center", pp.center},
@@ -101,8 +101,8 @@ std::string plan_json(const FeatureTable& t, const Reduction& r, const ReduceOpt
                           {"residual", pr.residual},
                           {"loadings", pp.loadings_file},
                           {"loadings_sha256", pp.loadings_sha256},
-                          {"feature_center", center},
-                          {"feature_scale", scale}};
+                          {"feature_center", feature_center},
+                          {"feature_scale", feature_scale}};
     plan["outputs"]["scores"] = "scores.csv";
     plan["outputs"]["loadings"] = pp.loadings_file;
     plan["outputs"]["explained"] = "explained.tsv";

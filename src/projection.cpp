@@ -162,10 +162,11 @@ Projection truncated_pca(Matrix& x, const ProjectionOptions& o) {
   VecD sigma;
   MatD scores, loadings;
 
-  if (m <= 256 || 2 * block >= m) {
-    // Small side: the exact eigendecomposition of the Gram matrix, in double.
+  // The exact eigendecomposition of the short side's Gram matrix, in double.
+  auto dense = [&] {
     out.method = "dense";
     out.precision = "double";
+    out.residual = 0;
     const MatD g = gram(x, wide, threads);
     Eigen::SelfAdjointEigenSolver<MatD> es(g);
     if (es.info() != Eigen::Success) throw Error(ErrorKind::kOther, "PCA: the eigensolver failed");
@@ -183,6 +184,10 @@ Projection truncated_pca(Matrix& x, const ProjectionOptions& o) {
       loadings = vectors;
       scores = times<double>(x, loadings, threads);
     }
+  };
+
+  if (m <= 256 || 2 * block >= m) {
+    dense();  // small side
   } else {
     // Block Krylov (block Lanczos with full reorthogonalisation) on the short side's Gram operator
     // M = X X^T (wide) or X^T X (tall), applied as two products, never formed. Each new block is
@@ -216,7 +221,7 @@ Projection truncated_pca(Matrix& x, const ProjectionOptions& o) {
     std::vector<MatD> basis{orthonormal_columns(start)};
     MatD t(0, 0);
     MatD ritz;  // m x block: the leading Ritz vectors
-    bool converged = false;
+    bool converged = false, fall_back = false;
     for (int it = 1; it <= o.max_iterations; ++it) {
       const Index b = static_cast<Index>(basis.size());
       MatD y = apply_m(basis.back());
@@ -253,7 +258,14 @@ Projection truncated_pca(Matrix& x, const ProjectionOptions& o) {
       out.iterations = it;
       out.residual = worst;
       const bool exhausted = (b + 1) * block > m;
-      if (worst <= tolerance || exhausted) {
+      if (worst > tolerance && exhausted) {
+        // Another whole block no longer fits beside the basis (b blocks, under m columns), so the
+        // Krylov space cannot grow to meet the tolerance: compute exactly instead. By now the
+        // iteration has cost about as much as the dense method.
+        fall_back = true;
+        break;
+      }
+      if (worst <= tolerance) {
         ritz = MatD::Zero(m, block);
         for (Index j = 0; j < b; ++j)
           ritz.noalias() += basis[static_cast<std::size_t>(j)] * svec.middleRows(j * block, block);
@@ -262,14 +274,18 @@ Projection truncated_pca(Matrix& x, const ProjectionOptions& o) {
       }
       basis.push_back(std::move(q_next));
     }
-    if (!converged)
+    if (fall_back) {
+      basis.clear();
+      basis.shrink_to_fit();
+      dense();
+    } else if (!converged) {
       throw Error(ErrorKind::kOther,
                   "PCA did not converge: after " + std::to_string(o.max_iterations) +
                       " Krylov blocks the largest relative residual is " + std::to_string(out.residual) +
                       " (tolerance " + std::to_string(tolerance) +
                       "); ask for fewer components or raise --max-iterations");
-    // Final Rayleigh-Ritz in double: the SVD of X^T U (wide) or X U (tall) on the Ritz space.
-    if (wide) {
+    } else if (wide) {
+      // Final Rayleigh-Ritz in double: the SVD of X^T U (wide) or X U (tall) on the Ritz space.
       const MatD w = times_t<double>(x, ritz, threads);  // p x block
       Eigen::BDCSVD<MatD> svd(w, Eigen::ComputeThinU | Eigen::ComputeThinV);
       sigma = svd.singularValues().head(k);

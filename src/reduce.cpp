@@ -396,71 +396,90 @@ std::string reduced_matrix_text(const FeatureTable& t, const std::vector<std::in
 void write_reduced_matrix(const FeatureTable& t, const std::vector<std::int64_t>& columns,
                           const std::vector<std::string>& names,
                           const std::function<void(std::string_view)>& sink) {
-  constexpr std::size_t kPiece = std::size_t{1} << 20;
+  // Lines are formatted in parallel, a group of lines per task, and handed to `sink` in order.
+  // For rows=samples a group's values are first gathered row-major from the column-major matrix,
+  // 64 contiguous floats per column, so formatting does not jump a column's length per value.
+  constexpr Eigen::Index kGroup = 64;
   const char d = t.delimiter;
   const Eigen::Index n = t.values.rows();
-  std::string out;
-  out.reserve(2 * kPiece);
-  auto flush = [&](bool always) {
-    if (always || out.size() >= kPiece) {
-      sink(out);
-      out.clear();
-    }
-  };
+  const auto k = static_cast<Eigen::Index>(columns.size());
   const std::string label_name = t.label_name.empty() ? "label" : t.label_name;
-  if (t.layout == Layout::kRowsAreSamples) {
-    internal::append_field(out, t.id_name.empty() ? "sample" : t.id_name, d);
+  const bool by_sample = t.layout == Layout::kRowsAreSamples;
+  std::string header;
+  if (by_sample) {
+    internal::append_field(header, t.id_name.empty() ? "sample" : t.id_name, d);
     for (const auto& name : names) {
-      out += d;
-      internal::append_field(out, name, d);
-      flush(false);
+      header += d;
+      internal::append_field(header, name, d);
     }
     if (t.has_labels()) {
-      out += d;
-      internal::append_field(out, label_name, d);
+      header += d;
+      internal::append_field(header, label_name, d);
     }
-    out += '\n';
-    for (Eigen::Index i = 0; i < n; ++i) {
-      internal::append_field(out, t.sample_ids[static_cast<std::size_t>(i)], d);
-      for (const std::int64_t j : columns) {
-        out += d;
-        internal::append_number(out, t.values(i, j));
-        flush(false);
+    header += '\n';
+  } else {
+    internal::append_field(header, t.id_name.empty() ? "feature" : t.id_name, d);
+    for (const auto& id : t.sample_ids) {
+      header += d;
+      internal::append_field(header, id, d);
+    }
+    header += '\n';
+    if (t.has_labels()) {
+      internal::append_field(header, label_name, d);
+      for (const auto& l : t.labels) {
+        header += d;
+        internal::append_field(header, l, d);
       }
-      if (t.has_labels()) {
-        out += d;
-        internal::append_field(out, t.labels[static_cast<std::size_t>(i)], d);
+      header += '\n';
+    }
+  }
+  sink(header);
+
+  const Eigen::Index lines = by_sample ? n : k;
+  const Eigen::Index groups = (lines + kGroup - 1) / kGroup;
+  const int threads = internal::thread_count(0);
+  const Eigen::Index batch = 4 * static_cast<Eigen::Index>(threads);  // groups formatted per round
+  std::vector<std::string> texts(static_cast<std::size_t>(batch));
+  for (Eigen::Index first = 0; first < groups; first += batch) {
+    const Eigen::Index count = std::min(batch, groups - first);
+#pragma omp parallel for schedule(dynamic, 1) num_threads(threads)
+    for (Eigen::Index g = 0; g < count; ++g) {
+      std::string& out = texts[static_cast<std::size_t>(g)];
+      out.clear();
+      const Eigen::Index begin = (first + g) * kGroup, end = std::min(lines, begin + kGroup);
+      if (by_sample) {
+        const Eigen::Index rows = end - begin;
+        std::vector<float> block(static_cast<std::size_t>(rows * k));  // row-major rows x k
+        for (Eigen::Index c = 0; c < k; ++c) {
+          const float* x = t.values.col(columns[static_cast<std::size_t>(c)]).data() + begin;
+          for (Eigen::Index i = 0; i < rows; ++i) block[static_cast<std::size_t>(i * k + c)] = x[i];
+        }
+        for (Eigen::Index i = 0; i < rows; ++i) {
+          internal::append_field(out, t.sample_ids[static_cast<std::size_t>(begin + i)], d);
+          for (Eigen::Index c = 0; c < k; ++c) {
+            out += d;
+            internal::append_number(out, block[static_cast<std::size_t>(i * k + c)]);
+          }
+          if (t.has_labels()) {
+            out += d;
+            internal::append_field(out, t.labels[static_cast<std::size_t>(begin + i)], d);
+          }
+          out += '\n';
+        }
+      } else {
+        for (Eigen::Index c = begin; c < end; ++c) {
+          internal::append_field(out, names[static_cast<std::size_t>(c)], d);
+          const float* x = t.values.col(columns[static_cast<std::size_t>(c)]).data();
+          for (Eigen::Index i = 0; i < n; ++i) {
+            out += d;
+            internal::append_number(out, x[i]);
+          }
+          out += '\n';
+        }
       }
-      out += '\n';
     }
-    flush(true);
-    return;
+    for (Eigen::Index g = 0; g < count; ++g) sink(texts[static_cast<std::size_t>(g)]);
   }
-  internal::append_field(out, t.id_name.empty() ? "feature" : t.id_name, d);
-  for (const auto& id : t.sample_ids) {
-    out += d;
-    internal::append_field(out, id, d);
-  }
-  out += '\n';
-  if (t.has_labels()) {
-    internal::append_field(out, label_name, d);
-    for (const auto& l : t.labels) {
-      out += d;
-      internal::append_field(out, l, d);
-    }
-    out += '\n';
-  }
-  for (std::size_t k = 0; k < columns.size(); ++k) {
-    internal::append_field(out, names[k], d);
-    const float* x = t.values.col(columns[k]).data();
-    for (Eigen::Index i = 0; i < n; ++i) {
-      out += d;
-      internal::append_number(out, x[i]);
-    }
-    out += '\n';
-    flush(false);
-  }
-  flush(true);
 }
 
 }  // namespace pare

@@ -87,12 +87,17 @@ void add_projection_options(po::options_description& desc, ProjectionOptions& o,
   auto components = po::value(&o.components);
   if (required) components->required();
   else components->default_value(0);
+  // `project` has no numbered pipeline steps and needs K >= 1.
+  const std::string step = required ? "" : "8. ";
   desc.add_options()
-      ("components", components, "8. truncated PCA: number of components K (0 = none)")
-      ("no-center", po::bool_switch(&no_center), "8. do not centre: plain truncated SVD")
-      ("tolerance", po::value(&o.tolerance)->default_value(1e-7),
-       "8. convergence: Ritz residuals <= this x the largest eigenvalue")
-      ("max-iterations", po::value(&o.max_iterations)->default_value(60), "8. Krylov blocks before giving up");
+      ("components", components,
+       (step + (required ? "number of components K (1 to min(samples, features))"
+                         : "truncated PCA: number of components K (0 = none)")).c_str())
+      ("no-center", po::bool_switch(&no_center), (step + "do not centre: plain truncated SVD").c_str())
+      ("tolerance", po::value(&o.tolerance)->default_value(1e-7, "1e-07"),
+       (step + "convergence: Ritz residuals <= this x the largest eigenvalue").c_str())
+      ("max-iterations", po::value(&o.max_iterations)->default_value(60),
+       (step + "Krylov blocks before giving up").c_str());
 }
 
 // Reads, reduces and writes; shared by `reduce` and `demo`.
@@ -107,7 +112,8 @@ ReduceRun reduce_and_write(const InputOptions& input, const CommonOptions& commo
   run.table = load_table(input, common);
   const double read_seconds = seconds_since(start);
   if (run.table.has_labels() && options.relevance) require_two_classes(run.table, input);
-  if (!common.quiet && !run.table.has_labels() && project.selection_outputs)  // `project` selects nothing
+  // (`project` selects nothing, so the note is only for `reduce`)
+  if (!common.quiet && !run.table.has_labels() && project.selection_outputs)
     out << "pare reduce: no labels given, so features are ranked by variance and the supervised steps "
            "(relevance, --fdr) are skipped\n";
   RunRecord record;

@@ -242,11 +242,11 @@ def compare_column(checks, label, names, actual, expected, rel, floors=None):
         if math.isnan(a) or math.isnan(e):
             ok = math.isnan(a) and math.isnan(e)
             err = 0.0 if ok else math.inf
+        elif floors is not None and abs(a - e) <= floors[j]:
+            ok, err = True, 0.0  # within the absolute floor (a value that should be 0)
         else:
             err = rel_err(a, e)
-            ok = err <= rel or (floors is not None and abs(a - e) <= floors[j])
-            if floors is not None and abs(a - e) <= floors[j]:
-                err = min(err, 0.0)
+            ok = err <= rel
         worst = max(worst, err)
         if not ok:
             bad.append(f"{names[j]}: pare {a!r}, reference {e!r}")
