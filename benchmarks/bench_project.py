@@ -13,8 +13,8 @@ Not run by CI (it takes minutes and ~10 GB of memory at the default size).
 2. (a) `pare project FILE --components K --out DIR` under /usr/bin/time -v: wall time, CPU time,
    peak RSS, and pare's own step table (read, project seconds).
    (b) The Python equivalent in a child process, also under /usr/bin/time -v: the faster of
-   pandas.read_csv and numpy.loadtxt (both timed on the first 50 and 150 rows, extrapolated
-   linearly to the whole file), then
+   pandas.read_csv and numpy.loadtxt (chosen beforehand, untimed, from both timed on the first 50
+   and 150 rows and extrapolated linearly to the whole file), then
    sklearn.decomposition.PCA(n_components=K, svd_solver='randomized', random_state=0)
    .fit_transform, then the same three output files (scores.csv, loadings.tsv, explained.tsv)
    written with pandas/numpy; wall and CPU time, peak RSS, and the seconds of each part.
@@ -123,12 +123,12 @@ def blas_info():
 
 # ---- the Python side (run in a child process so its peak RSS is its own) -------------------
 
-def python_side(path, k, out_dir):
+def choose_reader(path, out_dir):
+    """The faster of pandas.read_csv and numpy.loadtxt on this file: both timed on the first 50
+    and 150 rows and extrapolated linearly to the whole file (a fixed per-column cost would
+    otherwise dominate a small trial). Run in its own process, outside the timed run."""
     import pandas as pd
-    from sklearn.decomposition import PCA
 
-    # choose the faster reader: time both on the first 50 and 150 rows and extrapolate linearly to
-    # the whole file (a fixed per-column cost would otherwise dominate a small trial)
     with open(path) as f:
         header = f.readline()
         n_rows = sum(1 for _ in f)
@@ -153,6 +153,12 @@ def python_side(path, k, out_dir):
     est_pandas = p50 + (p150 - p50) * (n_rows - 50) / 100
     est_loadtxt = l50 + (l150 - l50) * (n_rows - 50) / 100
     reader = "pandas.read_csv" if est_pandas <= est_loadtxt else "numpy.loadtxt"
+    print(json.dumps({"reader": reader, "est_pandas_s": est_pandas, "est_loadtxt_s": est_loadtxt}))
+
+
+def python_side(path, k, out_dir, reader):
+    import pandas as pd
+    from sklearn.decomposition import PCA
 
     t = time.perf_counter()
     if reader == "pandas.read_csv":
@@ -184,8 +190,7 @@ def python_side(path, k, out_dir):
         os.path.join(out_dir, "explained.tsv"), sep="\t", index=False)
     write_s = time.perf_counter() - t
     np.savez(os.path.join(out_dir, "sklearn.npz"), eigenvalues=ev, components=pca.components_.T)
-    print(json.dumps({"reader": reader, "est_pandas_s": est_pandas, "est_loadtxt_s": est_loadtxt,
-                      "read_s": read_s, "fit_s": fit_s, "write_s": write_s,
+    print(json.dumps({"reader": reader, "read_s": read_s, "fit_s": fit_s, "write_s": write_s,
                       "dtype": str(x.dtype)}))
 
 
@@ -218,11 +223,15 @@ def main():
     ap.add_argument("--components", type=int, default=50)
     ap.add_argument("--seed", type=int, default=1)
     ap.add_argument("--regen", action="store_true")
-    ap.add_argument("--python-side", nargs=2, metavar=("FILE", "OUT"), help=argparse.SUPPRESS)
+    ap.add_argument("--python-side", nargs=3, metavar=("FILE", "OUT", "READER"), help=argparse.SUPPRESS)
+    ap.add_argument("--python-trial", nargs=2, metavar=("FILE", "OUT"), help=argparse.SUPPRESS)
     a = ap.parse_args()
     k = a.components
     if a.python_side:
-        python_side(a.python_side[0], k, a.python_side[1])
+        python_side(a.python_side[0], k, a.python_side[1], a.python_side[2])
+        return 0
+    if a.python_trial:
+        choose_reader(*a.python_trial)
         return 0
     if not os.path.exists("/usr/bin/time"):
         print("bench_project.py: needs /usr/bin/time (apt-get install -y time)", file=sys.stderr)
@@ -267,14 +276,20 @@ def main():
         # (b) Python
         py_out = os.path.join(tmp, "python")
         os.makedirs(py_out)
+        res = subprocess.run([sys.executable, os.path.abspath(__file__), "--python-trial", path, py_out],
+                             capture_output=True, text=True)
+        if res.returncode != 0:
+            print(res.stdout, res.stderr, file=sys.stderr)
+            return 1
+        trial = json.loads(res.stdout.strip().splitlines()[-1])
         res, py_wall, py_cpu, py_rss = timed([sys.executable, os.path.abspath(__file__), "--components", str(k),
-                                              "--python-side", path, py_out])
+                                              "--python-side", path, py_out, trial["reader"]])
         if res.returncode != 0:
             print(res.stdout, res.stderr, file=sys.stderr)
             return 1
         py = json.loads(res.stdout.strip().splitlines()[-1])
-        print(f"python: reader {py['reader']} (estimated from 50 and 150 rows: pandas.read_csv "
-              f"{py['est_pandas_s']:.1f} s, numpy.loadtxt {py['est_loadtxt_s']:.1f} s), matrix {py['dtype']}; "
+        print(f"python: reader {py['reader']} (estimated from 50 and 150 rows, untimed: pandas.read_csv "
+              f"{trial['est_pandas_s']:.1f} s, numpy.loadtxt {trial['est_loadtxt_s']:.1f} s), matrix {py['dtype']}; "
               f"read {py['read_s']:.1f} s, PCA fit {py['fit_s']:.1f} s, write {py['write_s']:.1f} s")
         print(f"load average after the timed runs: {load_average()}")
         sys.stdout.flush()

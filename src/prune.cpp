@@ -3,6 +3,7 @@
 #include <algorithm>  // std::clamp, std::max, std::min
 #include <cmath>      // std::abs, std::sqrt
 
+#include "internal/buffer.h"
 #include "internal/gemm.h"
 #include "internal/omp.h"
 #include "pare/error.h"
@@ -64,7 +65,13 @@ PruneResult prune_correlated(const Matrix& m, std::span<const std::int64_t> cand
 
   std::vector<Moments> moments(static_cast<std::size_t>(count));
   std::vector<std::int64_t> kept_positions;  // candidate positions of the kept features, in order
-  Matrix zk(n, 0);                           // their standardised columns (first kept_positions.size())
+  // Their standardised columns, column-major n x kept, in a mapping that grows in place (appending
+  // columns appends memory) and uses 2 MiB pages: large buffers reallocated per block would spend
+  // their time in page faults.
+  internal::GrowableBuffer zk_memory, c_memory;
+  const std::int64_t block_cap = std::max<std::int64_t>(1, options.block);
+  Matrix zb_storage(n, std::min<std::int64_t>(block_cap, std::max<std::int64_t>(count, 1)));
+  Matrix g_storage;
   const std::int64_t block = std::max<std::int64_t>(1, options.block);
   auto col = [&](std::int64_t position) { return m.col(candidates[static_cast<std::size_t>(position)]).data(); };
 
@@ -97,7 +104,7 @@ PruneResult prune_correlated(const Matrix& m, std::span<const std::int64_t> cand
     if (options.max_kept > 0 && static_cast<std::int64_t>(kept_positions.size()) >= options.max_kept) break;
     const std::int64_t width = std::min(block, count - start);
     // Standardise the block: z = (x - mean) / norm, so z_a . z_b = r.
-    Matrix zb(n, width);
+    Eigen::Map<Matrix> zb(zb_storage.data(), n, width);
 #pragma omp parallel for schedule(static) num_threads(threads)
     for (std::int64_t b = 0; b < width; ++b) {
       const float* x = col(start + b);
@@ -110,8 +117,10 @@ PruneResult prune_correlated(const Matrix& m, std::span<const std::int64_t> cand
     const auto n_kept = static_cast<Eigen::Index>(kept_positions.size());
     std::vector<char> dropped(static_cast<std::size_t>(width), 0);
     if (n_kept > 0) {
-      Matrix c;  // n_kept x width
-      internal::product_tn(zk.leftCols(n_kept), zb, c, threads);
+      c_memory.reserve(static_cast<std::size_t>(n_kept * width) * sizeof(float));
+      Eigen::Map<Matrix> c(reinterpret_cast<float*>(c_memory.data()), n_kept, width);  // n_kept x width
+      const Eigen::Map<const Matrix> zk(reinterpret_cast<const float*>(zk_memory.data()), n, n_kept);
+      internal::product_tn(zk, zb, c, threads);
 #pragma omp parallel for schedule(dynamic, 16) num_threads(threads)
       for (std::int64_t b = 0; b < width; ++b) {
         std::int64_t best = -1;
@@ -131,7 +140,8 @@ PruneResult prune_correlated(const Matrix& m, std::span<const std::int64_t> cand
     }
     // Within the block the walk is sequential: a survivor is compared with the block's earlier
     // survivors through the block's own Gram matrix.
-    Matrix g;
+    g_storage.resize(width, width);
+    Eigen::Map<Matrix> g(g_storage.data(), width, width);
     internal::product_tn(zb, zb, g, threads);
     std::vector<Eigen::Index> block_kept;
     for (std::int64_t b = 0; b < width; ++b) {
@@ -168,13 +178,10 @@ PruneResult prune_correlated(const Matrix& m, std::span<const std::int64_t> cand
       if (best >= 0 && std::abs(best_r) > limit - margin && decide(start + b, best, best_r, near)) continue;
       block_kept.push_back(b);
     }
-    // Append the block's survivors to the kept set (capacity doubles to keep copies rare).
+    // Append the block's survivors to the kept set (the mapping grows in place).
     const auto new_kept = n_kept + static_cast<Eigen::Index>(block_kept.size());
-    if (new_kept > zk.cols()) {
-      Matrix grown(n, std::max<Eigen::Index>(new_kept, 2 * zk.cols()));
-      grown.leftCols(n_kept) = zk.leftCols(n_kept);
-      zk.swap(grown);
-    }
+    zk_memory.reserve(static_cast<std::size_t>(new_kept * n) * sizeof(float));
+    Eigen::Map<Matrix> zk(reinterpret_cast<float*>(zk_memory.data()), n, new_kept);
     for (std::size_t t = 0; t < block_kept.size(); ++t) {
       zk.col(n_kept + static_cast<Eigen::Index>(t)) = zb.col(block_kept[t]);
       kept_positions.push_back(start + block_kept[t]);

@@ -17,7 +17,7 @@ inline constexpr Eigen::Index kProductPiece = 256;
 template <typename MatA, typename MatB, typename MatC>
 void product_tn(const MatA& a, const MatB& b, MatC& c, int threads) {
   const Eigen::Index p = a.cols();
-  c.resize(p, b.cols());
+  if (c.rows() != p || c.cols() != b.cols()) c.resize(p, b.cols());
   const Eigen::Index pieces = (p + kProductPiece - 1) / kProductPiece;
 #pragma omp parallel for schedule(dynamic, 1) num_threads(threads)
   for (Eigen::Index k = 0; k < pieces; ++k) {
@@ -30,7 +30,7 @@ void product_tn(const MatA& a, const MatB& b, MatC& c, int threads) {
 template <typename MatA, typename MatB, typename MatC>
 void product_nn(const MatA& a, const MatB& b, MatC& c, int threads) {
   const Eigen::Index n = a.rows();
-  c.resize(n, b.cols());
+  if (c.rows() != n || c.cols() != b.cols()) c.resize(n, b.cols());
   const Eigen::Index pieces = (n + kProductPiece - 1) / kProductPiece;
 #pragma omp parallel for schedule(dynamic, 1) num_threads(threads)
   for (Eigen::Index k = 0; k < pieces; ++k) {
