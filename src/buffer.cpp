@@ -72,8 +72,7 @@ InputText InputText::open(const std::string& path) {
   InputText text;
   if (S_ISREG(st.st_mode) && st.st_size > 0) {
     const auto size = static_cast<std::size_t>(st.st_size);
-    // MAP_POPULATE maps the whole file at once instead of faulting page by page.
-    void* p = ::mmap(nullptr, size, PROT_READ, MAP_PRIVATE | MAP_POPULATE, fd, 0);
+    void* p = ::mmap(nullptr, size, PROT_READ, MAP_PRIVATE, fd, 0);
     if (p != MAP_FAILED) {
       text.map_ = p;
       text.map_size_ = size;
@@ -124,6 +123,14 @@ InputText& InputText::operator=(InputText&& other) noexcept {
   data_ = std::exchange(other.data_, "");
   size_ = std::exchange(other.size_, 0);
   return *this;
+}
+
+void InputText::release(const char* begin, const char* end, bool done) const {
+  if (!map_ && !done) return;
+  const auto page = static_cast<std::uintptr_t>(::sysconf(_SC_PAGESIZE));
+  const auto b = (reinterpret_cast<std::uintptr_t>(begin) + page - 1) & ~(page - 1);
+  const auto e = reinterpret_cast<std::uintptr_t>(end) & ~(page - 1);
+  if (e > b) ::madvise(reinterpret_cast<void*>(b), e - b, MADV_DONTNEED);
 }
 
 InputText::~InputText() {

@@ -378,7 +378,7 @@ std::string header_names_hint(const std::vector<std::string>& fields) {
 
 // First pass over the chunks: count lines and records, find the label row (rows=features).
 void count_records(std::vector<Chunk>& chunks, const std::string& label_row, char delim,
-                   int threads) {
+                   int threads, const internal::InputText& input) {
 #pragma omp parallel for schedule(dynamic, 1) num_threads(threads)
   for (std::int64_t i = 0; i < static_cast<std::int64_t>(chunks.size()); ++i) {
     Chunk& c = chunks[static_cast<std::size_t>(i)];
@@ -396,6 +396,7 @@ void count_records(std::vector<Chunk>& chunks, const std::string& label_row, cha
       ++c.records;
       return true;
     });
+    input.release(c.begin, c.end, false);
   }
 }
 
@@ -452,7 +453,7 @@ void check_labels_present(const std::string& path, const std::vector<std::string
                         "give every sample a class, or leave the sample out");
 }
 
-FeatureTable read_rows_are_samples(const std::string& path, std::string_view text,
+FeatureTable read_rows_are_samples(const std::string& path, const internal::InputText& input, std::string_view text,
                                    const Header& h, const ReadOptions& options) {
   const char delim = h.delimiter;
   const int threads = internal::thread_count(options.threads);
@@ -488,7 +489,7 @@ FeatureTable read_rows_are_samples(const std::string& path, std::string_view tex
 
   const char* end = text.data() + text.size();
   auto chunks = cut_chunks(h.data_begin, end);
-  count_records(chunks, {}, delim, threads);
+  count_records(chunks, {}, delim, threads, input);
   const std::int64_t n = number_chunks(chunks, h.first_data_line);
   if (n == 0)
     throw_input_error({path, h.first_data_line, 1}, "no data lines after the header",
@@ -558,6 +559,7 @@ FeatureTable read_rows_are_samples(const std::string& path, std::string_view tex
       return true;
     });
     if (!c.failure.set && in_block > 0) flush();
+    input.release(c.begin, c.end, true);
   }
   if (any_failure(chunks)) rethrow_first(path, chunks);
   check_unique_sample_ids(path, t.sample_ids, record_lines, {});
@@ -565,7 +567,7 @@ FeatureTable read_rows_are_samples(const std::string& path, std::string_view tex
   return t;
 }
 
-FeatureTable read_rows_are_features(const std::string& path, std::string_view text,
+FeatureTable read_rows_are_features(const std::string& path, const internal::InputText& input, std::string_view text,
                                     const Header& h, const ReadOptions& options) {
   const char delim = h.delimiter;
   const int threads = internal::thread_count(options.threads);
@@ -591,7 +593,7 @@ FeatureTable read_rows_are_features(const std::string& path, std::string_view te
 
   const char* end = text.data() + text.size();
   auto chunks = cut_chunks(h.data_begin, end);
-  count_records(chunks, options.label_column, delim, threads);
+  count_records(chunks, options.label_column, delim, threads, input);
   const std::int64_t p = number_chunks(chunks, h.first_data_line);
   std::int64_t label_line = 0;
   const Chunk* label_chunk = nullptr;
@@ -675,6 +677,7 @@ FeatureTable read_rows_are_features(const std::string& path, std::string_view te
       ++record;
       return true;
     });
+    input.release(c.begin, c.end, true);
   }
   if (any_failure(chunks)) rethrow_first(path, chunks);
   if (!t.labels.empty()) {
@@ -691,8 +694,8 @@ FeatureTable read_table(const std::string& path, const ReadOptions& options) {
   const std::string_view text = input.view();
   const Header h = read_header(path, text, options.delimiter);
   if (options.layout == Layout::kRowsAreSamples)
-    return read_rows_are_samples(path, text, h, options);
-  return read_rows_are_features(path, text, h, options);
+    return read_rows_are_samples(path, input, text, h, options);
+  return read_rows_are_features(path, input, text, h, options);
 }
 
 SampleSheet read_sample_sheet(const std::string& spec, char delimiter) {

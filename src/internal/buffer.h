@@ -49,6 +49,12 @@ class InputText {
 
   std::string_view view() const { return {data_, size_}; }
 
+  /// Gives back the memory of [begin, end) (whole pages inside it) once it has been read: always
+  /// for a mapped file (the kernel reads it again from its cache if it is touched again), and for
+  /// inflated text only when `done` (its content would be lost). Keeps the resident size of a
+  /// large read near the size of the matrix instead of matrix plus text.
+  void release(const char* begin, const char* end, bool done) const;
+
  private:
   InputText() = default;
   void* map_ = nullptr;  // file mapping, when the file is plain text
