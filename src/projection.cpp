@@ -6,6 +6,7 @@
 
 #include <algorithm>  // std::min, std::max
 #include <cmath>      // std::sqrt
+#include <type_traits>  // std::is_same_v
 #include <vector>     // std::vector
 
 #include "internal/omp.h"

@@ -217,21 +217,21 @@ ReduceRun reduce_and_write(const InputOptions& input, const CommonOptions& commo
 void add_reduce_options(po::options_description& desc, ReduceOptions& o, std::string& impute, std::string& rank_by,
                         std::string& estimator, bool& no_missing, bool& no_variance, bool& no_prune) {
   desc.add_options()
-      ("max-missing", po::value(&o.max_missing)->default_value(0.2), "1. drop features missing more than this fraction")
+      ("max-missing", po::value(&o.max_missing)->default_value(0.2, "0.2"), "1. drop features missing more than this fraction")
       ("no-missing-filter", po::bool_switch(&no_missing), "   skip step 1")
       ("impute", po::value(&impute)->default_value("mean"), "2. fill gaps with the feature's mean, median or zero")
       ("log2", po::bool_switch(&o.log2), "3. transform values to log2(x + 1)")
       ("scale", po::bool_switch(&o.scale), "3. z-score the kept features in the output")
-      ("min-variance", po::value(&o.min_variance)->default_value(1e-8), "4. drop features with variance below this")
-      ("drop-low-variance", po::value(&o.drop_low_variance)->default_value(0.0),
+      ("min-variance", po::value(&o.min_variance)->default_value(1e-8, "1e-08"), "4. drop features with variance below this")
+      ("drop-low-variance", po::value(&o.drop_low_variance)->default_value(0.0, "0"),
        "4. also drop this lowest fraction by variance")
       ("no-variance-filter", po::bool_switch(&no_variance), "   skip step 4")
       ("rank-by", po::value(&rank_by)->default_value("mi"), "5. mi, chi2, chi2-counts, f or variance")
-      ("fdr", po::value(&o.fdr)->default_value(1.0), "5. keep features with q <= Q for the ranking test")
+      ("fdr", po::value(&o.fdr)->default_value(1.0, "1"), "5. keep features with q <= Q for the ranking test")
       ("bins", po::value(&o.score.bins)->default_value(10), "5. equal-frequency bins for mi and chi2")
       ("mi-estimator", po::value(&estimator)->default_value("binned"), "5. binned or knn")
       ("neighbors", po::value(&o.score.neighbors)->default_value(3), "5. k of the knn estimator")
-      ("max-corr", po::value(&o.max_corr)->default_value(0.9),
+      ("max-corr", po::value(&o.max_corr)->default_value(0.9, "0.9"),
        "6. drop a feature whose |r| with a kept one is above this")
       ("no-prune", po::bool_switch(&no_prune), "   skip step 6")
       ("keep", po::value(&o.keep)->default_value(0), "7. keep the first K survivors (0 = all)");
