@@ -70,16 +70,32 @@ std::vector<int> equal_frequency_bins(std::span<const double> values, int bins) 
   return bin;
 }
 
-double mutual_information(std::span<const double> table, int rows, int cols) {
-  std::vector<double> row_sum(static_cast<std::size_t>(rows), 0.0), col_sum(static_cast<std::size_t>(cols), 0.0);
+namespace {
+
+// Row sums, column sums and total of a rows x cols table given row-major.
+struct Margins {
+  std::vector<double> row_sum, col_sum;
   double total = 0;
+};
+
+Margins margins_of(std::span<const double> table, int rows, int cols) {
+  Margins m;
+  m.row_sum.assign(static_cast<std::size_t>(rows), 0.0);
+  m.col_sum.assign(static_cast<std::size_t>(cols), 0.0);
   for (int r = 0; r < rows; ++r)
     for (int c = 0; c < cols; ++c) {
       const double v = table[static_cast<std::size_t>(r * cols + c)];
-      row_sum[static_cast<std::size_t>(r)] += v;
-      col_sum[static_cast<std::size_t>(c)] += v;
-      total += v;
+      m.row_sum[static_cast<std::size_t>(r)] += v;
+      m.col_sum[static_cast<std::size_t>(c)] += v;
+      m.total += v;
     }
+  return m;
+}
+
+}  // namespace
+
+double mutual_information(std::span<const double> table, int rows, int cols) {
+  const auto [row_sum, col_sum, total] = margins_of(table, rows, cols);
   if (total <= 0) return 0;
   double mi = 0;
   for (int r = 0; r < rows; ++r)
@@ -93,15 +109,7 @@ double mutual_information(std::span<const double> table, int rows, int cols) {
 }
 
 double pearson_chi2(std::span<const double> table, int rows, int cols, int& df) {
-  std::vector<double> row_sum(static_cast<std::size_t>(rows), 0.0), col_sum(static_cast<std::size_t>(cols), 0.0);
-  double total = 0;
-  for (int r = 0; r < rows; ++r)
-    for (int c = 0; c < cols; ++c) {
-      const double v = table[static_cast<std::size_t>(r * cols + c)];
-      row_sum[static_cast<std::size_t>(r)] += v;
-      col_sum[static_cast<std::size_t>(c)] += v;
-      total += v;
-    }
+  const auto [row_sum, col_sum, total] = margins_of(table, rows, cols);
   int used_rows = 0, used_cols = 0;
   for (double v : row_sum) used_rows += v > 0;
   for (double v : col_sum) used_cols += v > 0;
