@@ -19,6 +19,7 @@
 #include <catch2/catch.hpp>
 
 #include "cli/commands.h"
+#include "support/cli_run.h"
 #include "support/temp_dir.h"
 #include <nlohmann/json.hpp>
 
@@ -27,20 +28,8 @@ namespace {
 using nlohmann::json;
 using pare::test::TempDir;
 
-struct Run {
-  int code = -1;
-  std::string out;
-  std::string err;
-};
-
-Run run(const std::vector<std::string>& args) {
-  std::ostringstream out, err;
-  Run r;
-  r.code = pare::cli::run(args, out, err);
-  r.out = out.str();
-  r.err = err.str();
-  return r;
-}
+using pare::test::Run;
+using pare::test::run;
 
 void require_ok(const Run& r) {
   INFO("exit " << r.code << ", stderr: " << r.err);

@@ -11,26 +11,15 @@
 #include "pare/io.h"
 
 #include "cli/commands.h"
+#include "support/cli_run.h"
 #include "support/temp_dir.h"
 
 namespace {
 
 using pare::test::TempDir;
 
-struct Run {
-  int code = -1;
-  std::string out;
-  std::string err;
-};
-
-Run run(const std::vector<std::string>& args) {
-  std::ostringstream out, err;
-  Run r;
-  r.code = pare::cli::run(args, out, err);
-  r.out = out.str();
-  r.err = err.str();
-  return r;
-}
+using pare::test::Run;
+using pare::test::run;
 
 // Columns of `pare: error: FILE[:LINE[:COLUMN]]: what`; 0 for a part that is absent.
 struct Message {

@@ -67,25 +67,7 @@ DATASETS = {
 }
 
 
-class Checks:
-    def __init__(self):
-        self.passed = 0
-        self.failed = 0
-        self.worst = {}  # reference name -> (largest relative deviation, where)
-
-    def check(self, name, ok, detail=""):
-        if ok:
-            self.passed += 1
-            print(f"PASS {name}" + (f" ({detail})" if detail else ""))
-        else:
-            self.failed += 1
-            print(f"FAIL {name}" + (f": {detail}" if detail else ""))
-        sys.stdout.flush()
-        return ok
-
-    def deviation(self, reference, value, where):
-        if reference not in self.worst or value > self.worst[reference][0]:
-            self.worst[reference] = (value, where)
+from reference_common import Checks  # noqa: E402  (this folder is on sys.path)
 
 
 # ---- datasets --------------------------------------------------------------------------------

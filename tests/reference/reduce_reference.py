@@ -70,20 +70,7 @@ MARGIN_R = 1e-6       # |r| vs --max-corr: pare's imputed cells are float32(mean
 R_TEXT = 0.0005 + 1e-6
 
 
-class Checks:
-    def __init__(self):
-        self.passed = 0
-        self.failed = 0
-
-    def check(self, name, ok, detail=""):
-        if ok:
-            self.passed += 1
-            print(f"PASS {name}" + (f" ({detail})" if detail else ""))
-        else:
-            self.failed += 1
-            print(f"FAIL {name}" + (f": {detail}" if detail else ""))
-        sys.stdout.flush()
-        return ok
+from reference_common import Checks  # noqa: E402  (this folder is on sys.path)
 
 
 def f32(a):

@@ -55,20 +55,7 @@ MOSTLY_MISSING = 0.2
 NEAR_CONSTANT_CV = 1e-3
 
 
-class Checks:
-    def __init__(self):
-        self.passed = 0
-        self.failed = 0
-
-    def check(self, name, ok, detail=""):
-        if ok:
-            self.passed += 1
-            print(f"PASS {name}" + (f" ({detail})" if detail else ""))
-        else:
-            self.failed += 1
-            print(f"FAIL {name}" + (f": {detail}" if detail else ""))
-        sys.stdout.flush()
-        return ok
+from reference_common import Checks  # noqa: E402  (this folder is on sys.path)
 
 
 def f32_round(text):
