@@ -101,13 +101,7 @@ int command_scan(const std::vector<std::string>& args, std::ostream& out) {
   desc.add_options()("data", po::value(&input.data)->required(), "the data file (CSV/TSV, may be gzip)");
   add_input_options(desc, input);
   add_common_options(desc, common, ".");
-  po::positional_options_description positional;
-  positional.add("data", 1);
-  std::string help;
-  if (!parse_command_line(args, desc, positional, help)) {
-    out << help;
-    return 0;
-  }
+  if (!parse_command_line(args, desc, positionals({"data"}), out)) return 0;
   return scan_and_report(input, common, out);
 }
 
@@ -119,11 +113,7 @@ int command_demo(const std::vector<std::string>& args, std::ostream& out) {
       "planted structure recorded in greenhouse-truth.tsv), scans it, reduces it to 200 features\n"
       "and reports how much of the planted structure was recovered.\n\noptions");
   add_common_options(desc, common, "pare-demo");
-  std::string help;
-  if (!parse_command_line(args, desc, {}, help)) {
-    out << help;
-    return 0;
-  }
+  if (!parse_command_line(args, desc, {}, out)) return 0;
   const DemoFiles files = write_demo(common.out, common.seed);
   if (!common.quiet)
     out << "pare demo: wrote the greenhouse drought trial (seed " << common.seed << ")\n"
@@ -160,13 +150,7 @@ int command_rank(const std::vector<std::string>& args, std::ostream& out) {
       ("neighbors", po::value(&score.neighbors)->default_value(3), "k of the knn estimator");
   add_input_options(desc, input);
   add_common_options(desc, common, ".");
-  po::positional_options_description positional;
-  positional.add("data", 1);
-  std::string help;
-  if (!parse_command_line(args, desc, positional, help)) {
-    out << help;
-    return 0;
-  }
+  if (!parse_command_line(args, desc, positionals({"data"}), out)) return 0;
   const Criterion criterion = parse_criterion(rank_by);
   if (estimator == "knn") score.mi = MiEstimator::kKnn;
   else if (estimator != "binned") throw_usage_error("--mi-estimator " + estimator + " is not binned or knn");

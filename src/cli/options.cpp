@@ -35,15 +35,13 @@ void add_input_options(po::options_description& desc, InputOptions& input) {
 }
 
 bool parse_command_line(const std::vector<std::string>& args, const po::options_description& desc,
-                        const po::positional_options_description& positional, std::string& help,
+                        const po::positional_options_description& positional, std::ostream& out,
                         po::variables_map* values) {
   po::variables_map vm;
   try {
     po::store(po::command_line_parser(args).options(desc).positional(positional).run(), vm);
     if (vm.count("help")) {
-      std::ostringstream text;
-      text << desc;
-      help = text.str();
+      out << desc;
       return false;
     }
     po::notify(vm);
@@ -57,6 +55,12 @@ bool parse_command_line(const std::vector<std::string>& args, const po::options_
     throw_usage_error(e.what(), "see --help");
   }
   return true;
+}
+
+po::positional_options_description positionals(std::initializer_list<const char*> names) {
+  po::positional_options_description positional;
+  for (const char* name : names) positional.add(name, 1);
+  return positional;
 }
 
 namespace {

@@ -3,7 +3,9 @@
 
 #include <boost/program_options.hpp>
 
-#include <cstdint>  // std::uint64_t
+#include <cstdint>           // std::uint64_t
+#include <initializer_list>  // std::initializer_list
+#include <ostream>           // std::ostream
 #include <string>   // std::string
 #include <vector>   // std::vector
 
@@ -37,12 +39,15 @@ void add_common_options(po::options_description& desc, CommonOptions& common,
                         const std::string& default_out);
 void add_input_options(po::options_description& desc, InputOptions& input);
 
-/// Parses `args` (the words after the command name). Returns false when --help was given (the help
-/// text is then in `help`). Throws Error(kUsage) on an unknown option or a bad value.
-/// `values`, when given, receives the parsed map (to tell given options from defaults).
+/// Parses `args` (the words after the command name). On --help prints the help to `out` and
+/// returns false. Throws Error(kUsage) on an unknown option or a bad value. `values`, when given,
+/// receives the parsed map (to tell given options from defaults).
 bool parse_command_line(const std::vector<std::string>& args, const po::options_description& desc,
-                        const po::positional_options_description& positional, std::string& help,
+                        const po::positional_options_description& positional, std::ostream& out,
                         po::variables_map* values = nullptr);
+
+/// The positional arguments `names`, one each, in order (e.g. {"data"} or {"plan", "data"}).
+po::positional_options_description positionals(std::initializer_list<const char*> names);
 
 /// Checks and converts the shared options: --threads >= 1 when given, --layout, --delimiter, --na,
 /// and that --label and --labels are not both given.

@@ -270,13 +270,7 @@ int command_reduce(const std::vector<std::string>& args, std::ostream& out) {
   add_projection_options(desc, project.options, no_center, false);
   add_input_options(desc, input);
   add_common_options(desc, common, "pare-reduce");
-  po::positional_options_description positional;
-  positional.add("data", 1);
-  std::string help;
-  if (!parse_command_line(args, desc, positional, help)) {
-    out << help;
-    return 0;
-  }
+  if (!parse_command_line(args, desc, positionals({"data"}), out)) return 0;
   finish_reduce_options(options, impute, rank_by, estimator, no_missing, no_variance, no_prune, common);
   project.options.center = !no_center;
   project.options.scale = options.scale;
@@ -303,13 +297,7 @@ int command_project(const std::vector<std::string>& args, std::ostream& out) {
   add_projection_options(desc, project.options, no_center, true);
   add_input_options(desc, input);
   add_common_options(desc, common, "pare-project");
-  po::positional_options_description positional;
-  positional.add("data", 1);
-  std::string help;
-  if (!parse_command_line(args, desc, positional, help)) {
-    out << help;
-    return 0;
-  }
+  if (!parse_command_line(args, desc, positionals({"data"}), out)) return 0;
   project.options.center = !no_center;
   if (project.options.components < 1) throw_usage_error("--components must be 1 or more");
   ReduceOptions options;  // every selection step off: all features, input order, mean-filled
@@ -340,14 +328,8 @@ int command_apply(const std::vector<std::string>& args, std::ostream& out) {
        "fill features the new data lacks with their training values instead of stopping");
   add_input_options(desc, input);
   add_common_options(desc, common, "pare-apply");
-  po::positional_options_description positional;
-  positional.add("plan", 1).add("data", 1);
-  std::string help;
   po::variables_map values;
-  if (!parse_command_line(args, desc, positional, help, &values)) {
-    out << help;
-    return 0;
-  }
+  if (!parse_command_line(args, desc, positionals({"plan", "data"}), out, &values)) return 0;
   const Plan plan = load_plan(plan_path);
   // Reading options the command line did not set come from the plan.
   const auto given = [&](const char* name) { return values.count(name) > 0 && !values[name].defaulted(); };
