@@ -1,6 +1,5 @@
 #include "cli/options.h"
 
-#include <sstream>  // std::ostringstream
 
 #include "pare/error.h"
 
