@@ -13,6 +13,7 @@
 #include <utility>  // std::exchange
 
 #include "internal/gzip.h"
+#include "internal/spill.h"
 #include "pare/error.h"
 
 namespace pare::internal {
@@ -57,7 +58,7 @@ void GrowableBuffer::reserve(std::size_t bytes) {
   capacity_ = size;
 }
 
-InputText InputText::open(const std::string& path) {
+InputText InputText::open(const std::string& path, const MemoryBudget& budget) {
   const int fd = ::open(path.c_str(), O_RDONLY | O_CLOEXEC);
   if (fd < 0) {
     const int err = errno;
@@ -100,6 +101,34 @@ InputText InputText::open(const std::string& path) {
     text.size_ = have;
   }
   ::close(fd);
+  if (is_gzip(text.view()) && budget.bytes > 0) {
+    const int cache = make_cache_file(budget.cache_dir);
+    std::size_t size = 0;
+    {
+      GrowableBuffer window;
+      try {
+        size = gunzip_into(text.view(), path, window, cache);
+      } catch (...) {
+        ::close(cache);
+        throw;
+      }
+    }
+    InputText out;
+    if (size > 0) {
+      void* p = ::mmap(nullptr, size, PROT_READ, MAP_SHARED, cache, 0);
+      const int err = errno;
+      ::close(cache);
+      if (p == MAP_FAILED) throw Error(ErrorKind::kOutput, path + ": cannot map its inflated text: " + std::strerror(err));
+      ::madvise(p, size, MADV_SEQUENTIAL);
+      out.map_ = p;
+      out.map_size_ = size;
+      out.data_ = static_cast<const char*>(p);
+      out.size_ = size;
+    } else {
+      ::close(cache);
+    }
+    return out;
+  }
   if (is_gzip(text.view())) {
     GrowableBuffer inflated;
     const std::size_t size = gunzip_into(text.view(), path, inflated);

@@ -1,25 +1,56 @@
 #include "internal/gzip.h"
 
+#include <sys/mman.h>
+#include <unistd.h>
 #include <zlib.h>
 
 #include <algorithm>  // std::min
 #include <cstdint>    // std::uint32_t
-#include <cstring>    // std::memcpy
+#include <cerrno>     // errno
+#include <cstring>    // std::memcpy, std::strerror
 
 #include "internal/buffer.h"
 #include "pare/error.h"
 
 namespace pare::internal {
 
+namespace {
+
+// Gives back the whole pages of [data, data + bytes) of a read-only mapping.
+void release_read(const char* data, std::size_t bytes) {
+  const auto page = static_cast<std::uintptr_t>(::sysconf(_SC_PAGESIZE));
+  const auto b = (reinterpret_cast<std::uintptr_t>(data) + page - 1) & ~(page - 1);
+  const auto e = (reinterpret_cast<std::uintptr_t>(data) + bytes) & ~(page - 1);
+  if (e > b) ::madvise(reinterpret_cast<void*>(b), e - b, MADV_DONTNEED);
+}
+
+}  // namespace
+
 bool is_gzip(std::string_view bytes) {
   return bytes.size() >= 2 && static_cast<unsigned char>(bytes[0]) == 0x1f &&
          static_cast<unsigned char>(bytes[1]) == 0x8b;
 }
 
-std::size_t gunzip_into(std::string_view compressed, const std::string& path, GrowableBuffer& out) {
+std::size_t gunzip_into(std::string_view compressed, const std::string& path, GrowableBuffer& out, int spill_fd) {
+  // Spilling, `out` is a staging window written to the file whenever it fills.
+  constexpr std::size_t kWindow = std::size_t{16} << 20;
+  std::size_t flushed = 0;
+  auto write_out = [&](std::size_t bytes) {
+    std::size_t done = 0;
+    while (done < bytes) {
+      const ssize_t put = ::write(spill_fd, out.data() + done, bytes - done);
+      if (put < 0 && errno == EINTR) continue;
+      if (put <= 0)
+        throw Error(ErrorKind::kOutput, path + ": cannot write its inflated text to the cache file: " +
+                                            std::strerror(errno) + " (free some space or use --cache-dir)");
+      done += static_cast<std::size_t>(put);
+    }
+    flushed += bytes;
+  };
+  if (spill_fd >= 0) out.reserve(kWindow + (std::size_t{1} << 22));
   // The trailer's ISIZE (size mod 2^32 of the last member) is a good first guess for one member.
   // On a damaged file it is garbage, so it is capped by deflate's best ratio (1032:1).
-  if (compressed.size() >= 18) {
+  if (spill_fd < 0 && compressed.size() >= 18) {
     std::uint32_t isize = 0;
     std::memcpy(&isize, compressed.data() + compressed.size() - 4, 4);
     out.reserve(std::max<std::size_t>(std::min<std::size_t>(isize, compressed.size() * 1032), 1 << 21));
@@ -32,6 +63,12 @@ std::size_t gunzip_into(std::string_view compressed, const std::string& path, Gr
   int status = Z_OK;
   constexpr std::size_t kStep = std::size_t{1} << 22;
   while (true) {
+    if (spill_fd >= 0 && produced >= kWindow) {
+      write_out(produced);
+      produced = 0;
+      // The compressed text read so far is not needed again.
+      release_read(compressed.data(), static_cast<std::size_t>(reinterpret_cast<const char*>(next) - compressed.data()));
+    }
     if (out.capacity() - produced < kStep / 2) out.reserve(std::max(out.capacity() * 3 / 2, produced + kStep));
     const uInt in_now = static_cast<uInt>(std::min<std::size_t>(left, 1u << 30));
     const uInt out_now = static_cast<uInt>(std::min<std::size_t>(out.capacity() - produced, 1u << 30));
@@ -59,7 +96,7 @@ std::size_t gunzip_into(std::string_view compressed, const std::string& path, Gr
     if (status == Z_BUF_ERROR && left == 0) {
       inflateEnd(&zs);
       throw_input_error({path},
-                        "gzip data ends early after " + std::to_string(produced) +
+                        "gzip data ends early after " + std::to_string(flushed + produced) +
                             " bytes of text",
                         "the file is truncated; copy or download it again");
     }
@@ -70,6 +107,10 @@ std::size_t gunzip_into(std::string_view compressed, const std::string& path, Gr
     }
   }
   inflateEnd(&zs);
+  if (spill_fd >= 0) {
+    write_out(produced);
+    return flushed;
+  }
   return produced;
 }
 

@@ -19,7 +19,9 @@
 #include "internal/buffer.h"
 #include "internal/gzip.h"
 #include "internal/omp.h"
+#include "internal/spill.h"
 #include "pare/error.h"
+#include "pare/progress.h"
 
 namespace pare {
 
@@ -176,7 +178,7 @@ CellStatus parse_cell(const char*& p, const char* e, const CellContext& ctx, flo
     while (f < e && *f != '"') ++f;
     if (f < e) ++f;
   }
-  const char* stop = static_cast<const char*>(std::memchr(f, ctx.delim, static_cast<std::size_t>(e - f)));
+  const char* stop = f < e ? static_cast<const char*>(std::memchr(f, ctx.delim, static_cast<std::size_t>(e - f))) : nullptr;
   if (!stop) stop = e;
   p = stop;
   const char* te = stop;
@@ -458,7 +460,7 @@ void check_labels_present(const std::string& path, const std::vector<std::string
 }
 
 FeatureTable read_rows_are_samples(const std::string& path, const internal::InputText& input, std::string_view text,
-                                   const Header& h, const ReadOptions& options) {
+                                   const Header& h, const ReadOptions& options, ProgressStep& progress) {
   const char delim = h.delimiter;
   const int threads = internal::thread_count(options.threads);
   const NaTokens na(options.na_tokens);
@@ -492,22 +494,30 @@ FeatureTable read_rows_are_samples(const std::string& path, const internal::Inpu
                       "the first column holds sample ids, the others features");
 
   const char* end = text.data() + text.size();
-  // A data line is about as long as the header: aim for 2 row blocks per chunk.
-  auto chunks = cut_chunks(h.data_begin, end, static_cast<std::size_t>(h.data_begin - text.data()) * 2 * kRowBlock);
+  // A data line is about as long as the header, which gives an estimate of the matrix's size. A
+  // matrix bound for the disk is written in taller row blocks: each flush touches a page of every
+  // column, and on disk those pages are given back after the flush.
+  const auto header_bytes = static_cast<std::int64_t>(h.data_begin - text.data());
+  const std::int64_t estimate = (static_cast<std::int64_t>(text.size()) / std::max<std::int64_t>(header_bytes, 1)) * p * 4;
+  std::int64_t row_block = kRowBlock;
+  if (!options.memory.fits(estimate))
+    row_block = std::clamp<std::int64_t>(options.memory.bytes / (16 * threads * p), kRowBlock, 1024);
+  // Aim for 2 row blocks per chunk.
+  auto chunks = cut_chunks(h.data_begin, end, static_cast<std::size_t>(header_bytes * 2 * row_block));
   count_records(chunks, {}, delim, threads, input);
   const std::int64_t n = number_chunks(chunks, h.first_data_line);
   if (n == 0)
     throw_input_error({path, h.first_data_line, 1}, "no data lines after the header",
                       "each sample needs a line of values");
 
-  t.values.resize(n, p);
-  internal::advise_huge_pages(t.values.data(), static_cast<std::size_t>(n * p) * sizeof(float));
+  t.values.allocate(n, p, options.memory);
   t.sample_ids.resize(static_cast<std::size_t>(n));
   if (label_field >= 0) t.labels.resize(static_cast<std::size_t>(n));
   std::vector<std::int64_t> record_lines(static_cast<std::size_t>(n));
   std::vector<std::int64_t> label_columns(label_field >= 0 ? static_cast<std::size_t>(n) : 0);
   const CellContext ctx{delim, &na, options.allow_inf};
   float* const out = t.values.data();
+  const bool on_disk = t.values.on_disk();
 
   // One row block per thread, reused for every chunk: a fresh one per chunk would be zeroed and
   // faulted in again each time (6 MB per chunk at 100,000 features).
@@ -516,12 +526,19 @@ FeatureTable read_rows_are_samples(const std::string& path, const internal::Inpu
   for (std::int64_t ci = 0; ci < static_cast<std::int64_t>(chunks.size()); ++ci) {
     Chunk& c = chunks[static_cast<std::size_t>(ci)];
     std::vector<float>& block = blocks[static_cast<std::size_t>(omp_get_thread_num())];
-    block.resize(static_cast<std::size_t>(kRowBlock * p));
+    block.resize(static_cast<std::size_t>(row_block * p));
     std::int64_t block_first = c.first_record;  // record index of block row 0
     std::int64_t in_block = 0;
     auto flush = [&]() {
-      for (std::int64_t j = 0; j < p; ++j)
-        std::copy_n(block.data() + j * kRowBlock, in_block, out + j * n + block_first);
+      // On disk, a slice of columns at a time is written and given back, or the flush would map
+      // a page of every column at once.
+      constexpr std::int64_t kSlice = 256;
+      for (std::int64_t j0 = 0; j0 < p; j0 += kSlice) {
+        const std::int64_t j1 = std::min(p, j0 + kSlice);
+        for (std::int64_t j = j0; j < j1; ++j)
+          std::copy_n(block.data() + j * row_block, in_block, out + j * n + block_first);
+        if (on_disk) internal::release_column_span(t.values, j0, j1 - 1);
+      }
       block_first += in_block;
       in_block = 0;
     };
@@ -555,7 +572,7 @@ FeatureTable read_rows_are_samples(const std::string& path, const internal::Inpu
           fail_cell(c.failure, s, line, b, cell, q, t.feature_names[static_cast<std::size_t>(f)], na);
           return false;
         }
-        row[f * kRowBlock] = v;
+        row[f * row_block] = v;
       }
       if (q < e) {
         fail(c.failure, line, q - b + 1,
@@ -564,11 +581,12 @@ FeatureTable read_rows_are_samples(const std::string& path, const internal::Inpu
         return false;
       }
       ++record;
-      if (++in_block == kRowBlock) flush();
+      if (++in_block == row_block) flush();
       return true;
     });
     if (!c.failure.set && in_block > 0) flush();
     input.release(c.begin, c.end, true);
+    progress.add(c.end - c.begin);
   }
   if (any_failure(chunks)) rethrow_first(path, chunks);
   check_unique_sample_ids(path, t.sample_ids, record_lines, {});
@@ -577,7 +595,7 @@ FeatureTable read_rows_are_samples(const std::string& path, const internal::Inpu
 }
 
 FeatureTable read_rows_are_features(const std::string& path, const internal::InputText& input, std::string_view text,
-                                    const Header& h, const ReadOptions& options) {
+                                    const Header& h, const ReadOptions& options, ProgressStep& progress) {
   const char delim = h.delimiter;
   const int threads = internal::thread_count(options.threads);
   const NaTokens na(options.na_tokens);
@@ -627,8 +645,7 @@ FeatureTable read_rows_are_features(const std::string& path, const internal::Inp
     throw_input_error({path, h.first_data_line, 1}, "no data lines after the header",
                       "each feature needs a line of values");
 
-  t.values.resize(n, p);
-  internal::advise_huge_pages(t.values.data(), static_cast<std::size_t>(n * p) * sizeof(float));
+  t.values.allocate(n, p, options.memory);
   t.feature_names.resize(static_cast<std::size_t>(p));
   const CellContext ctx{delim, &na, options.allow_inf};
   float* const out = t.values.data();
@@ -686,7 +703,9 @@ FeatureTable read_rows_are_features(const std::string& path, const internal::Inp
       ++record;
       return true;
     });
+    if (c.records > 0) internal::release_column_span(t.values, c.first_record, c.first_record + c.records - 1);
     input.release(c.begin, c.end, true);
+    progress.add(c.end - c.begin);
   }
   if (any_failure(chunks)) rethrow_first(path, chunks);
   if (!t.labels.empty()) {
@@ -699,12 +718,13 @@ FeatureTable read_rows_are_features(const std::string& path, const internal::Inp
 }  // namespace
 
 FeatureTable read_table(const std::string& path, const ReadOptions& options) {
-  const internal::InputText input = internal::InputText::open(path);
+  const internal::InputText input = internal::InputText::open(path, options.memory);
   const std::string_view text = input.view();
   const Header h = read_header(path, text, options.delimiter);
+  ProgressStep progress("reading", static_cast<std::int64_t>(text.size()), "bytes");
   if (options.layout == Layout::kRowsAreSamples)
-    return read_rows_are_samples(path, input, text, h, options);
-  return read_rows_are_features(path, input, text, h, options);
+    return read_rows_are_samples(path, input, text, h, options, progress);
+  return read_rows_are_features(path, input, text, h, options, progress);
 }
 
 SampleSheet read_sample_sheet(const std::string& spec, char delimiter) {

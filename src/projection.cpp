@@ -10,8 +10,10 @@
 #include <vector>     // std::vector
 
 #include "internal/omp.h"
+#include "internal/spill.h"
 #include "internal/random.h"
 #include "pare/error.h"
+#include "pare/progress.h"
 
 namespace pare {
 
@@ -33,7 +35,7 @@ using Mat = Eigen::Matrix<S, Eigen::Dynamic, Eigen::Dynamic>;
 // Y = X B (X float n x p; B p x l), in precision S. Double products convert X piece by piece, so
 // the matrix is never copied whole.
 template <typename S>
-Mat<S> times(const Matrix& x, const Mat<S>& b, int threads) {
+Mat<S> times(const ConstMatrixRef& x, const Mat<S>& b, int threads) {
   const Index n = x.rows(), p = x.cols(), l = b.cols();
   const Index per_group = ((p + kGroups - 1) / kGroups + kPiece - 1) / kPiece * kPiece;
   const Index groups = (p + per_group - 1) / per_group;
@@ -51,6 +53,7 @@ Mat<S> times(const Matrix& x, const Mat<S>& b, int threads) {
         const MatD piece = x.middleCols(c0, w).template cast<double>();
         acc.noalias() += piece * b.middleRows(c0, w);
       }
+      internal::release_column_span(x, c0, c0 + w - 1);
     }
   }
   Mat<S> y = partial[0];
@@ -60,7 +63,7 @@ Mat<S> times(const Matrix& x, const Mat<S>& b, int threads) {
 
 // W = X^T Y (X float n x p; Y n x l), in precision S.
 template <typename S>
-Mat<S> times_t(const Matrix& x, const Mat<S>& y, int threads) {
+Mat<S> times_t(const ConstMatrixRef& x, const Mat<S>& y, int threads) {
   const Index p = x.cols();
   Mat<S> w(p, y.cols());
   const Index pieces = (p + kPiece - 1) / kPiece;
@@ -73,13 +76,14 @@ Mat<S> times_t(const Matrix& x, const Mat<S>& y, int threads) {
       const MatD piece = x.middleCols(c0, width).template cast<double>();
       w.middleRows(c0, width).noalias() = piece.transpose() * y;
     }
+    internal::release_column_span(x, c0, c0 + width - 1);
   }
   return w;
 }
 
 // The Gram matrix of the short side in double: X X^T (wide) or X^T X (tall), summed over fixed
 // groups of pieces in order.
-MatD gram(const Matrix& x, bool wide, int threads) {
+MatD gram(const ConstMatrixRef& x, bool wide, int threads) {
   const Index n = x.rows(), p = x.cols();
   const Index m = wide ? n : p, len = wide ? p : n;
   const Index per_group = ((len + kGroups - 1) / kGroups + kPiece - 1) / kPiece * kPiece;
@@ -95,9 +99,11 @@ MatD gram(const Matrix& x, bool wide, int threads) {
       if (wide) {
         const MatD piece = x.middleCols(c0, w).cast<double>();
         acc.noalias() += piece * piece.transpose();
+        internal::release_column_span(x, c0, c0 + w - 1);
       } else {
         const MatD piece = x.middleRows(c0, w).cast<double>();
         acc.noalias() += piece.transpose() * piece;
+        internal::release_column_span(x, 0, x.cols() - 1);
       }
     }
   }
@@ -113,7 +119,7 @@ MatD orthonormal_columns(const MatD& a) {
 
 }  // namespace
 
-Projection truncated_pca(Matrix& x, const ProjectionOptions& o) {
+Projection truncated_pca(MatrixRef x, const ProjectionOptions& o) {
   const Index n = x.rows(), p = x.cols();
   const Index m = std::min(n, p);
   const Index k = o.components;
@@ -153,6 +159,7 @@ Projection truncated_pca(Matrix& x, const ProjectionOptions& o) {
     double stored = 0;
     for (Index i = 0; i < n; ++i) stored += static_cast<double>(col[i]) * static_cast<double>(col[i]);
     squares(j) = stored;
+    if (internal::any_on_disk()) internal::release_column_span(x, j, j);
   }
   double frobenius2 = 0;
   for (Index j = 0; j < p; ++j) frobenius2 += squares(j);
@@ -223,7 +230,9 @@ Projection truncated_pca(Matrix& x, const ProjectionOptions& o) {
     MatD t(0, 0);
     MatD ritz;  // m x block: the leading Ritz vectors
     bool converged = false, fall_back = false;
+    ProgressStep progress("PCA", 0, "blocks");  // how many it takes is not known in advance
     for (int it = 1; it <= o.max_iterations; ++it) {
+      progress.add(1);
       const Index b = static_cast<Index>(basis.size());
       MatD y = apply_m(basis.back());
       MatD coef = MatD::Zero(b * block, block);
@@ -322,7 +331,7 @@ Projection truncated_pca(Matrix& x, const ProjectionOptions& o) {
   return out;
 }
 
-Eigen::MatrixXd project_rows(const Matrix& x, const Eigen::VectorXd& center, const Eigen::VectorXd& scale,
+Eigen::MatrixXd project_rows(const ConstMatrixRef& x, const Eigen::VectorXd& center, const Eigen::VectorXd& scale,
                              const Eigen::MatrixXd& loadings) {
   MatD z = x.cast<double>();
   for (Index j = 0; j < z.cols(); ++j) z.col(j) = (z.col(j).array() - center(j)) / scale(j);

@@ -13,7 +13,9 @@
 
 #include "internal/format.h"
 #include "internal/omp.h"
+#include "internal/spill.h"
 #include "pare/error.h"
+#include "pare/progress.h"
 
 namespace pare {
 
@@ -403,7 +405,7 @@ Result score_one(const float* column, std::int64_t n_rows, const std::vector<int
 
 }  // namespace
 
-FeatureScores score_features(const Matrix& m, std::span<const std::int64_t> features,
+FeatureScores score_features(const ConstMatrixRef& m, std::span<const std::int64_t> features,
                              const ClassCodes& classes, const ScoreOptions& options) {
   const int k = static_cast<int>(classes.classes.size());
   if (k < 2)
@@ -421,19 +423,19 @@ FeatureScores score_features(const Matrix& m, std::span<const std::int64_t> feat
   std::vector<Result> results(p);
   // An exception must not leave an OpenMP region (std::terminate): keep the first and rethrow.
   std::exception_ptr failure;
-#pragma omp parallel num_threads(internal::thread_count(options.threads))
-  {
-    Scratch scratch;
-#pragma omp for schedule(dynamic, 32)
-    for (std::size_t j = 0; j < p; ++j) {
-      try {
-        results[j] = score_one(m.col(features[j]).data(), m.rows(), classes.codes, k, options, scratch);
-      } catch (...) {
+  const int threads = internal::thread_count(options.threads);
+  std::vector<Scratch> scratch(static_cast<std::size_t>(threads));
+  ProgressStep progress("scoring", static_cast<std::int64_t>(p), "features");
+  internal::for_each_column(m, features, threads, [&](std::size_t j) {
+    progress.add(1);
+    try {
+      results[j] = score_one(m.col(features[j]).data(), m.rows(), classes.codes, k, options,
+                             scratch[static_cast<std::size_t>(omp_get_thread_num())]);
+    } catch (...) {
 #pragma omp critical(pare_score_failure)
-        if (!failure) failure = std::current_exception();
-      }
+      if (!failure) failure = std::current_exception();
     }
-  }
+  });
   if (failure) std::rethrow_exception(failure);
   if (options.counts_chi2)
     for (std::size_t j = 0; j < p; ++j)

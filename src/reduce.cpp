@@ -9,6 +9,7 @@
 
 #include "internal/format.h"
 #include "internal/omp.h"
+#include "internal/spill.h"
 #include "pare/error.h"
 
 namespace pare {
@@ -114,15 +115,20 @@ Reduction reduce(FeatureTable& t, const ReduceOptions& o) {
   // the variance filter and the scores use each feature's observed cells only (as documented),
   // and correlations and PCA use the filled values.
   {
-    std::vector<float> scratch;
-#pragma omp parallel for schedule(dynamic, 64) num_threads(threads) firstprivate(scratch)
-    for (std::size_t a = 0; a < alive.size(); ++a) {
+    std::vector<std::vector<float>> scratch(static_cast<std::size_t>(threads));
+    auto learn = [&](std::size_t a) {
       const std::int64_t j = alive[a];
       const ColumnStats& s = r.raw_stats[static_cast<std::size_t>(j)];
       float fill = 0.0f;
       if (s.n > 0 && o.impute == Impute::kMean) fill = static_cast<float>(s.mean);
-      if (s.n > 0 && o.impute == Impute::kMedian) fill = median_of_observed(t.values.col(j).data(), n, scratch);
+      if (s.n > 0 && o.impute == Impute::kMedian)
+        fill = median_of_observed(t.values.col(j).data(), n, scratch[static_cast<std::size_t>(omp_get_thread_num())]);
       r.fill[static_cast<std::size_t>(j)] = fill;
+    };
+    if (o.impute == Impute::kMedian) {
+      internal::for_each_column(t.values, alive, threads, learn);
+    } else {
+      for (std::size_t a = 0; a < alive.size(); ++a) learn(a);  // no cell is read
     }
   }
   const auto n_alive = static_cast<std::int64_t>(alive.size());
@@ -135,12 +141,11 @@ Reduction reduce(FeatureTable& t, const ReduceOptions& o) {
         throw Error(ErrorKind::kInput, t.source + ": feature " + t.feature_names[static_cast<std::size_t>(j)] +
                                            " has negative values (min " + g3(r.raw_stats[static_cast<std::size_t>(j)].min) +
                                            "), so --log2 cannot apply (leave out --log2, or transform it yourself)");
-#pragma omp parallel for schedule(dynamic, 64) num_threads(threads)
-    for (std::size_t a = 0; a < alive.size(); ++a) {
+    internal::for_each_column(t.values, alive, threads, [&](std::size_t a) {
       float* x = t.values.col(alive[a]).data();
       for (Eigen::Index i = 0; i < n; ++i)
         if (!std::isnan(x[i])) x[i] = transform_value(x[i], true);
-    }
+    });
   }
   r.steps.push_back({"transform", n_alive, n_alive, timer.lap()});
 
@@ -148,9 +153,9 @@ Reduction reduce(FeatureTable& t, const ReduceOptions& o) {
   {
     std::vector<ColumnStats> stats(alive.size());
     if (o.log2) {
-#pragma omp parallel for schedule(dynamic, 64) num_threads(threads)
-      for (std::size_t a = 0; a < alive.size(); ++a)
+      internal::for_each_column(t.values, alive, threads, [&](std::size_t a) {
         stats[a] = column_stats(std::span<const float>(t.values.col(alive[a]).data(), static_cast<std::size_t>(n)));
+      });
     } else {
       for (std::size_t a = 0; a < alive.size(); ++a) stats[a] = r.raw_stats[static_cast<std::size_t>(alive[a])];
     }
@@ -221,14 +226,13 @@ Reduction reduce(FeatureTable& t, const ReduceOptions& o) {
                      static_cast<std::int64_t>(ordered.size()), timer.lap()});
 
   // Fill the gaps of the candidates (transformed fill value, as apply will compute it).
-#pragma omp parallel for schedule(dynamic, 64) num_threads(threads)
-  for (std::size_t a = 0; a < ordered.size(); ++a) {
+  internal::for_each_column(t.values, ordered, threads, [&](std::size_t a) {
     const std::int64_t j = ordered[a];
     const float fill = transform_value(r.fill[static_cast<std::size_t>(j)], o.log2);
     float* x = t.values.col(j).data();
     for (Eigen::Index i = 0; i < n; ++i)
       if (std::isnan(x[i])) x[i] = fill;
-  }
+  });
 
   // 6. redundancy
   std::vector<std::int64_t> survivors;
@@ -238,6 +242,7 @@ Reduction reduce(FeatureTable& t, const ReduceOptions& o) {
     po.max_corr = o.max_corr;
     po.max_kept = o.keep;
     po.threads = o.threads;
+    po.memory_budget = o.memory_budget;
     const PruneResult pr = prune_correlated(t.values, ordered, po);
     std::vector<std::int64_t> kept_rank(ordered.size(), 0);
     std::int64_t rank = 0;
@@ -291,8 +296,7 @@ Reduction reduce(FeatureTable& t, const ReduceOptions& o) {
   // Kept features: their rank, and the centre and scale of the transformed, filled column.
   r.center.resize(r.kept.size());
   r.scale.resize(r.kept.size());
-#pragma omp parallel for schedule(dynamic, 16) num_threads(threads)
-  for (std::size_t k = 0; k < r.kept.size(); ++k) {
+  internal::for_each_column(t.values, r.kept, threads, [&](std::size_t k) {
     float* x = t.values.col(r.kept[k]).data();
     const ColumnStats s = column_stats(std::span<const float>(x, static_cast<std::size_t>(n)));
     r.center[k] = s.mean;
@@ -300,7 +304,7 @@ Reduction reduce(FeatureTable& t, const ReduceOptions& o) {
     if (o.scale)
       for (Eigen::Index i = 0; i < n; ++i)
         x[i] = static_cast<float>((static_cast<double>(x[i]) - r.center[k]) / r.scale[k]);
-  }
+  });
   for (std::size_t k = 0; k < r.kept.size(); ++k) {
     Decision& d = r.decisions[static_cast<std::size_t>(r.kept[k])];
     d.kept = true;
@@ -450,9 +454,11 @@ void write_reduced_matrix(const FeatureTable& t, const std::vector<std::int64_t>
       if (by_sample) {
         const Eigen::Index rows = end - begin;
         std::vector<float> block(static_cast<std::size_t>(rows * k));  // row-major rows x k
+        const bool on_disk = internal::any_on_disk();
         for (Eigen::Index c = 0; c < k; ++c) {
           const float* x = t.values.col(columns[static_cast<std::size_t>(c)]).data() + begin;
           for (Eigen::Index i = 0; i < rows; ++i) block[static_cast<std::size_t>(i * k + c)] = x[i];
+          if (on_disk) internal::release_pages(x, static_cast<std::size_t>(rows) * sizeof(float));
         }
         for (Eigen::Index i = 0; i < rows; ++i) {
           internal::append_field(out, t.sample_ids[static_cast<std::size_t>(begin + i)], d);
@@ -478,6 +484,9 @@ void write_reduced_matrix(const FeatureTable& t, const std::vector<std::int64_t>
         }
       }
     }
+    if (internal::any_on_disk() && !by_sample)
+      for (Eigen::Index c = first * kGroup; c < std::min(k, (first + count) * kGroup); ++c)
+        internal::release_column_span(t.values, columns[static_cast<std::size_t>(c)], columns[static_cast<std::size_t>(c)]);
     for (Eigen::Index g = 0; g < count; ++g) sink(texts[static_cast<std::size_t>(g)]);
   }
 }

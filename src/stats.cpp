@@ -5,6 +5,7 @@
 #include <limits>     // std::numeric_limits
 
 #include "internal/omp.h"
+#include "internal/spill.h"
 
 namespace pare {
 
@@ -56,29 +57,42 @@ ColumnStats stats_of(std::span<const T> values) {
 
 }  // namespace
 
+// Columns per parallel chunk; a matrix on disk gives back each chunk's pages once it is done.
+constexpr Eigen::Index kChunk = 64;
+
 ColumnStats column_stats(std::span<const float> values) { return stats_of(values); }
 ColumnStats column_stats(std::span<const double> values) { return stats_of(values); }
 
-std::vector<ColumnStats> compute_column_stats(const Matrix& m, int threads) {
+std::vector<ColumnStats> compute_column_stats(const ConstMatrixRef& m, int threads) {
   std::vector<ColumnStats> out(static_cast<std::size_t>(m.cols()));
   const auto n = static_cast<std::size_t>(m.rows());
-#pragma omp parallel for schedule(dynamic, 64) num_threads(internal::thread_count(threads))
-  for (Eigen::Index j = 0; j < m.cols(); ++j)
-    out[static_cast<std::size_t>(j)] = column_stats(std::span<const float>(m.col(j).data(), n));
+  const Eigen::Index chunks = (m.cols() + kChunk - 1) / kChunk;
+#pragma omp parallel for schedule(dynamic, 1) num_threads(internal::thread_count(threads))
+  for (Eigen::Index c = 0; c < chunks; ++c) {
+    const Eigen::Index end = std::min(m.cols(), (c + 1) * kChunk);
+    for (Eigen::Index j = c * kChunk; j < end; ++j)
+      out[static_cast<std::size_t>(j)] = column_stats(std::span<const float>(m.col(j).data(), n));
+    internal::release_column_span(m, c * kChunk, end - 1);
+  }
   return out;
 }
 
-std::vector<std::int64_t> missing_per_row(const Matrix& m, int threads) {
+std::vector<std::int64_t> missing_per_row(const ConstMatrixRef& m, int threads) {
   const Eigen::Index n = m.rows();
   std::vector<std::int64_t> total(static_cast<std::size_t>(n), 0);
 #pragma omp parallel num_threads(internal::thread_count(threads))
   {
     // Integer counts: the sum is exact whatever the split between threads.
     std::vector<std::int64_t> local(static_cast<std::size_t>(n), 0);
-#pragma omp for schedule(static)
-    for (Eigen::Index j = 0; j < m.cols(); ++j) {
-      const float* col = m.col(j).data();
-      for (Eigen::Index i = 0; i < n; ++i) local[static_cast<std::size_t>(i)] += std::isnan(col[i]);
+    const Eigen::Index chunks = (m.cols() + kChunk - 1) / kChunk;
+#pragma omp for schedule(dynamic, 1)
+    for (Eigen::Index c = 0; c < chunks; ++c) {
+      const Eigen::Index end = std::min(m.cols(), (c + 1) * kChunk);
+      for (Eigen::Index j = c * kChunk; j < end; ++j) {
+        const float* col = m.col(j).data();
+        for (Eigen::Index i = 0; i < n; ++i) local[static_cast<std::size_t>(i)] += std::isnan(col[i]);
+      }
+      internal::release_column_span(m, c * kChunk, end - 1);
     }
 #pragma omp critical
     for (Eigen::Index i = 0; i < n; ++i) total[static_cast<std::size_t>(i)] += local[static_cast<std::size_t>(i)];

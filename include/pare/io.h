@@ -22,6 +22,7 @@ struct ReadOptions {
   bool allow_inf = false;                            ///< accept inf/-inf as values
   std::string label_column;                          ///< column (or row, rows=features) of labels
   int threads = 0;                                   ///< 0: OpenMP's default
+  MemoryBudget memory;                               ///< past it the matrix goes to a cache file
 };
 
 /// Reads a whole matrix. Throws Error(kInput) with file:line:column on malformed input.

@@ -5,6 +5,7 @@
 #include <Eigen/Core>
 
 #include <cstdint>  // std::int64_t
+#include <memory>   // std::shared_ptr
 #include <string>   // std::string
 #include <vector>   // std::vector
 
@@ -12,6 +13,60 @@ namespace pare {
 
 /// Samples are rows, features are columns; storage is column-major so a feature is contiguous.
 using Matrix = Eigen::Matrix<float, Eigen::Dynamic, Eigen::Dynamic, Eigen::ColMajor>;
+
+/// A read-only (or writable) view of any column-major float matrix: a Matrix, a Columns, a block.
+using MatrixRef = Eigen::Ref<Matrix>;
+using ConstMatrixRef = Eigen::Ref<const Matrix>;
+
+/// Where a large matrix may live: in memory while it fits `bytes`, else in a cache file.
+struct MemoryBudget {
+  std::int64_t bytes = 0;  ///< 0: no budget, everything in memory
+  std::string cache_dir;   ///< folder of the cache file (empty: $TMPDIR or /tmp)
+
+  bool fits(std::int64_t need) const { return bytes <= 0 || need <= bytes; }
+};
+
+namespace internal {
+class ColumnStorage;
+}
+
+/// The matrix of a FeatureTable: a column-major float matrix (usable wherever an Eigen matrix
+/// is) whose memory is either anonymous memory or, past the memory budget, a file in the cache
+/// folder mapped into memory. The file is unlinked as soon as it is mapped, so it disappears
+/// with the process whatever way the process ends. Code that walks the columns of a matrix on
+/// disk calls internal::release_pages() on what it has finished with, so the resident size stays
+/// near the columns in use rather than growing to the whole matrix.
+class Columns : public Eigen::Map<Matrix> {
+  using Base = Eigen::Map<Matrix>;
+
+ public:
+  Columns() : Base(nullptr, 0, 0) {}
+  Columns(const Columns& other);  ///< a copy in memory
+  Columns& operator=(const Columns& other);
+  Columns(Columns&& other) noexcept;
+  Columns& operator=(Columns&& other) noexcept;
+  ~Columns();
+
+  /// Fresh zeroed storage for n x p values in memory (the previous contents are dropped).
+  void resize(Eigen::Index n, Eigen::Index p);
+  /// Fresh zeroed storage for n x p values: in memory when 4 n p bytes fit `budget`, else in a
+  /// cache file. Throws Error(kOutput) when the cache file cannot be made.
+  void allocate(Eigen::Index n, Eigen::Index p, const MemoryBudget& budget);
+  /// True when the values live in a cache file.
+  bool on_disk() const;
+  /// Drops every resident page of a matrix on disk (its content stays in the file).
+  void release_all() const;
+
+  template <typename Derived>
+  Columns& operator=(const Eigen::DenseBase<Derived>& other) {
+    Base::operator=(other);
+    return *this;
+  }
+
+ private:
+  void reseat(float* data, Eigen::Index n, Eigen::Index p);
+  std::shared_ptr<internal::ColumnStorage> storage_;
+};
 
 /// How a delimited file is laid out.
 enum class Layout {
@@ -21,7 +76,7 @@ enum class Layout {
 
 /// A data set as read from a file.
 struct FeatureTable {
-  Matrix values;                           ///< n_samples x n_features, NaN = missing
+  Columns values;                          ///< n_samples x n_features, NaN = missing
   std::vector<std::string> feature_names;  ///< one per column of `values`
   std::vector<std::string> sample_ids;     ///< one per row of `values`
   std::vector<std::string> labels;         ///< one per sample, or empty when unlabelled

@@ -44,11 +44,11 @@ struct Projection {
 /// features, no NaN). `x` is centred and scaled in place (it is not copied); on return it holds
 /// the analysed matrix. Throws Error(kUsage) when K is out of range and Error(kOther) when the
 /// iteration does not converge.
-Projection truncated_pca(Matrix& x, const ProjectionOptions& options);
+Projection truncated_pca(MatrixRef x, const ProjectionOptions& options);
 
 /// Scores of new samples (rows of `x`, columns in the projection's feature order, no NaN):
 /// ((x - center) / scale) * loadings, in double.
-Eigen::MatrixXd project_rows(const Matrix& x, const Eigen::VectorXd& center, const Eigen::VectorXd& scale,
+Eigen::MatrixXd project_rows(const ConstMatrixRef& x, const Eigen::VectorXd& center, const Eigen::VectorXd& scale,
                              const Eigen::MatrixXd& loadings);
 
 }  // namespace pare

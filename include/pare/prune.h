@@ -16,6 +16,7 @@ struct PruneOptions {
   std::int64_t max_kept = 0;   ///< stop once this many are kept (0 = no limit)
   std::int64_t block = 512;    ///< candidates standardised and compared per matrix product
   int threads = 0;
+  std::int64_t memory_budget = 0;  ///< bytes the kept set may use (0 = no limit); past it, Error(kUsage)
 };
 
 /// The decision for each candidate, in candidate order.
@@ -31,7 +32,7 @@ struct PruneResult {
 /// is that of the sequential walk in double precision: products run in float32 and every pair
 /// within the float rounding margin of the threshold is recomputed in double. A column with zero
 /// variance correlates with nothing. Results do not depend on `threads`.
-PruneResult prune_correlated(const Matrix& m, std::span<const std::int64_t> candidates,
+PruneResult prune_correlated(const ConstMatrixRef& m, std::span<const std::int64_t> candidates,
                              const PruneOptions& options);
 
 }  // namespace pare

@@ -81,7 +81,7 @@ std::vector<double> bonferroni_adjust(std::span<const double> p);
 
 /// Scores the columns `features` of `m` against `classes` (one code per row of `m`), in parallel
 /// over features. Results do not depend on the thread count. Needs at least 2 classes.
-FeatureScores score_features(const Matrix& m, std::span<const std::int64_t> features,
+FeatureScores score_features(const ConstMatrixRef& m, std::span<const std::int64_t> features,
                              const ClassCodes& classes, const ScoreOptions& options);
 
 /// The positions 0..size-1 of `scores` in ranking order for `criterion`: score descending, ties in

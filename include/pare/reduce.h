@@ -39,6 +39,7 @@ struct ReduceOptions {
   double max_corr = 0.9;
   std::int64_t keep = 0;             ///< keep the first K (0 = all survivors)
   int threads = 0;
+  std::int64_t memory_budget = 0;    ///< bytes the pruning's kept set may use (0 = no limit)
 };
 
 /// What a step did: features in and out, and its wall time.

@@ -32,9 +32,9 @@ ColumnStats column_stats(std::span<const double> values);
 
 /// Statistics of every column of `m`, in parallel over columns (results do not depend on
 /// `threads`; 0 = OpenMP's default).
-std::vector<ColumnStats> compute_column_stats(const Matrix& m, int threads = 0);
+std::vector<ColumnStats> compute_column_stats(const ConstMatrixRef& m, int threads = 0);
 
 /// Missing (NaN) cells of every row of `m`.
-std::vector<std::int64_t> missing_per_row(const Matrix& m, int threads = 0);
+std::vector<std::int64_t> missing_per_row(const ConstMatrixRef& m, int threads = 0);
 
 }  // namespace pare

@@ -1,5 +1,8 @@
 #include "cli/options.h"
 
+#include <cctype>      // std::toupper
+#include <filesystem>  // std::filesystem::is_directory
+#include <string>      // std::stod
 
 #include "pare/error.h"
 
@@ -30,7 +33,37 @@ void add_input_options(po::options_description& desc, InputOptions& input) {
       ("na",
        po::value(&input.na)->notifier([&input](const std::string&) { input.na_given = true; }),
        "comma-separated missing-value tokens (default: empty,NA,NaN,nan,null,?)")
-      ("allow-inf", po::bool_switch(&input.allow_inf), "accept inf and -inf as values");
+      ("allow-inf", po::bool_switch(&input.allow_inf), "accept inf and -inf as values")
+      ("memory", po::value(&input.memory),
+       "memory budget, e.g. 4G or 500M: a larger matrix is kept in a cache file on disk and "
+       "worked through in column blocks (results are identical)")
+      ("cache-dir", po::value(&input.cache_dir),
+       "folder for that cache file (default: the output folder if it exists, else $TMPDIR)");
+}
+
+std::int64_t parse_size(const std::string& text, const char* option) {
+  const auto bad = [&]() -> std::int64_t {
+    throw_usage_error(std::string(option) + " " + text + " is not a size", "write it like 500M, 2G or 1.5GiB");
+  };
+  std::size_t used = 0;
+  double value = 0;
+  try {
+    value = std::stod(text, &used);
+  } catch (const std::exception&) {
+    return bad();
+  }
+  std::string unit = text.substr(used);
+  for (char& c : unit) c = static_cast<char>(std::toupper(static_cast<unsigned char>(c)));
+  if (unit.ends_with("IB")) unit.erase(unit.size() - 2);
+  else if (unit.size() > 1 && unit.ends_with("B")) unit.pop_back();
+  double scale = 1;
+  if (unit == "K") scale = 1024.0;
+  else if (unit == "M") scale = 1024.0 * 1024;
+  else if (unit == "G") scale = 1024.0 * 1024 * 1024;
+  else if (unit == "T") scale = 1024.0 * 1024 * 1024 * 1024;
+  else if (!unit.empty() && unit != "B") return bad();
+  if (!(value > 0) || value * scale > 9e18) return bad();
+  return static_cast<std::int64_t>(value * scale);
 }
 
 bool parse_command_line(const std::vector<std::string>& args, const po::options_description& desc,
@@ -106,6 +139,16 @@ ReadOptions read_options_from(const InputOptions& input, const CommonOptions& co
   if (!input.label.empty() && !input.labels.empty())
     throw_usage_error("give --label or --labels, not both");
   r.label_column = input.label;
+  if (!input.memory.empty()) {
+    r.memory.bytes = parse_size(input.memory, "--memory");
+    r.memory.cache_dir = input.cache_dir;
+    if (r.memory.cache_dir.empty()) {
+      std::error_code ec;
+      if (std::filesystem::is_directory(common.out, ec)) r.memory.cache_dir = common.out;
+    }
+  } else if (!input.cache_dir.empty()) {
+    throw_usage_error("--cache-dir is only used with --memory");
+  }
   return r;
 }
 

@@ -3,7 +3,7 @@
 
 #include <boost/program_options.hpp>
 
-#include <cstdint>           // std::uint64_t
+#include <cstdint>           // std::int64_t, std::uint64_t
 #include <initializer_list>  // std::initializer_list
 #include <ostream>           // std::ostream
 #include <string>   // std::string
@@ -33,7 +33,12 @@ struct InputOptions {
   std::string na;
   bool na_given = false;
   bool allow_inf = false;
+  std::string memory;     ///< --memory SIZE, empty for no budget
+  std::string cache_dir;  ///< --cache-dir
 };
+
+/// Parses a size such as 500M, 2G, 1.5GiB or 800000000 (bytes; K, M, G, T are powers of 1024).
+std::int64_t parse_size(const std::string& text, const char* option);
 
 void add_common_options(po::options_description& desc, CommonOptions& common,
                         const std::string& default_out);

@@ -8,6 +8,7 @@
 
 #include "cli/text.h"
 #include "internal/sha256.h"
+#include "internal/spill.h"
 #include "pare/error.h"
 #include "pare/io.h"
 #include "pare/demo.h"
@@ -132,7 +133,9 @@ ReduceRun reduce_and_write(const InputOptions& input, const CommonOptions& commo
   record.allow_inf = read.allow_inf;
   record.seed = common.seed;
 
-  run.reduction = reduce(run.table, options);
+  ReduceOptions reduce_options = options;
+  reduce_options.memory_budget = read.memory.bytes;
+  run.reduction = reduce(run.table, reduce_options);
   run.reduction.steps.insert(run.reduction.steps.begin(),
                              StepRecord{"read", run.table.n_features(), run.table.n_features(), read_seconds});
   const Reduction& r = run.reduction;
@@ -161,8 +164,19 @@ ReduceRun reduce_and_write(const InputOptions& input, const CommonOptions& commo
       // All features in input order: analyse the matrix in place, no copy.
       run.projection = std::make_unique<Projection>(truncated_pca(run.table.values, po));
     } else {
-      Matrix kept(run.table.n_samples(), static_cast<Eigen::Index>(r.kept.size()));
-      for (std::size_t k = 0; k < r.kept.size(); ++k) kept.col(static_cast<Eigen::Index>(k)) = run.table.values.col(r.kept[k]);
+      // The kept columns in their final order; on disk too when the data are and the copy would
+      // take more than half the budget.
+      MemoryBudget budget = read.memory;
+      if (budget.bytes > 0) budget.bytes = std::max<std::int64_t>(1, budget.bytes / 2);
+      Columns kept;
+      kept.allocate(run.table.n_samples(), static_cast<Eigen::Index>(r.kept.size()), budget);
+      for (std::size_t k = 0; k < r.kept.size(); ++k) {
+        kept.col(static_cast<Eigen::Index>(k)) = run.table.values.col(r.kept[k]);
+        if (run.table.values.on_disk()) {
+          internal::release_column_span(run.table.values, r.kept[k], r.kept[k]);
+          internal::release_column_span(kept, static_cast<Eigen::Index>(k), static_cast<Eigen::Index>(k));
+        }
+      }
       run.projection = std::make_unique<Projection>(truncated_pca(kept, po));
     }
     const Projection& pr = *run.projection;

@@ -7,6 +7,8 @@
 #include <string>       // std::string
 #include <string_view>  // std::string_view
 
+#include "pare/matrix.h"
+
 namespace pare::internal {
 
 /// Asks the kernel to back [data, data + bytes) with transparent huge pages (a hint; ignored when
@@ -38,8 +40,9 @@ class GrowableBuffer {
 /// a gzip file.
 class InputText {
  public:
-  /// Opens `path`; throws Error(kInput) when it cannot be read or its gzip data is damaged.
-  static InputText open(const std::string& path);
+  /// Opens `path`; throws Error(kInput) when it cannot be read or its gzip data is damaged. With a
+  /// memory budget, gzip text is inflated into a cache file (see pare::Columns) rather than memory.
+  static InputText open(const std::string& path, const MemoryBudget& budget = {});
 
   InputText(InputText&& other) noexcept;
   InputText& operator=(InputText&& other) noexcept;

@@ -11,9 +11,12 @@ bool is_gzip(std::string_view bytes);
 
 class GrowableBuffer;
 
-/// Inflates a whole gzip file (one or more members) into `out`; returns the inflated size. Throws
-/// Error(kInput) naming `path` when the stream is corrupt or ends early.
-std::size_t gunzip_into(std::string_view compressed, const std::string& path, GrowableBuffer& out);
+/// Inflates a whole gzip file (one or more members) into `out`; returns the inflated size. With
+/// `spill_fd` >= 0 the text goes to that file instead, through `out` as a 16 MiB window, and the
+/// pages of `compressed` (a mapping) are given back as it is read. Throws Error(kInput) naming
+/// `path` when the stream is corrupt or ends early, Error(kOutput) when the file cannot be written.
+std::size_t gunzip_into(std::string_view compressed, const std::string& path, GrowableBuffer& out,
+                        int spill_fd = -1);
 
 /// Compresses `bytes` into one gzip member.
 std::string gzip(std::string_view bytes, int level);

@@ -1,0 +1,65 @@
+// Keeping the resident size of a matrix on disk bounded (see pare::Columns).
+#pragma once
+
+#include <algorithm>  // std::max, std::min
+#include <cstddef>    // std::size_t
+#include <cstdint>    // std::int64_t, std::uintptr_t
+#include <span>       // std::span
+#include <string>     // std::string
+
+#include "pare/matrix.h"
+
+namespace pare::internal {
+
+/// Drops from memory the pages of [data, data + bytes) when they belong to a matrix held in a
+/// cache file; does nothing for memory of any other kind. Safe while other threads use
+/// neighbouring values: the mapping is shared with the file, so a dropped page keeps its content
+/// and is read back from the page cache when next touched. Whole pages are dropped, including the
+/// whole 2 MiB windows of the file around the range (see columns.cpp).
+void release_pages(const void* data, std::size_t bytes);
+
+/// release_pages for the columns `first` to `last` (inclusive, in either order) of `m`.
+inline void release_column_span(const ConstMatrixRef& m, Eigen::Index first, Eigen::Index last) {
+  if (m.size() == 0) return;
+  const Eigen::Index a = std::min(first, last), b = std::max(first, last);
+  release_pages(m.col(a).data(), static_cast<std::size_t>((b - a + 1) * m.rows()) * sizeof(float));
+}
+
+/// Creates an unlinked cache file in `dir` ($TMPDIR or /tmp when empty) and returns its
+/// descriptor. Throws Error(kOutput) when it cannot.
+int make_cache_file(const std::string& dir);
+
+/// The 2 MiB window of a matrix on disk that holds `data` (see release_pages), as an address.
+std::uintptr_t window_of(const void* data);
+
+/// True when some matrix lives in a cache file (so callers can skip bookkeeping otherwise).
+bool any_on_disk();
+
+/// Calls body(a) for every position a of `columns` (column indices of `m`), in parallel chunks
+/// of 64 positions; each chunk then gives back the pages of its columns when `m` is on disk.
+template <typename Body>
+void for_each_column(const ConstMatrixRef& m, std::span<const std::int64_t> columns, int threads, Body&& body) {
+  constexpr std::size_t kChunk = 64;
+  const std::size_t chunks = (columns.size() + kChunk - 1) / kChunk;
+  const bool on_disk = any_on_disk();
+#pragma omp parallel for schedule(dynamic, 1) num_threads(threads)
+  for (std::size_t c = 0; c < chunks; ++c) {
+    const std::size_t begin = c * kChunk, end = std::min(columns.size(), begin + kChunk);
+    // On disk, a window is given back when the walk leaves it: at once for columns in random
+    // order, once per window for columns in file order.
+    std::uintptr_t window = 0;
+    const float* last = nullptr;
+    for (std::size_t a = begin; a < end; ++a) {
+      body(a);
+      if (!on_disk) continue;
+      const float* x = m.col(columns[a]).data();
+      const std::uintptr_t w = window_of(x);
+      if (last && w != window) release_pages(last, static_cast<std::size_t>(m.rows()) * sizeof(float));
+      window = w;
+      last = x;
+    }
+    if (last) release_pages(last, static_cast<std::size_t>(m.rows()) * sizeof(float));
+  }
+}
+
+}  // namespace pare::internal
