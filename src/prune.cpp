@@ -96,10 +96,14 @@ PruneResult prune_correlated(const ConstMatrixRef& m, std::span<const std::int64
   // columns appends memory) and uses 2 MiB pages: large buffers reallocated per block would spend
   // their time in page faults.
   internal::GrowableBuffer zk_memory, c_memory;
-  const std::int64_t block_cap = std::max<std::int64_t>(1, options.block);
-  Matrix zb_storage(n, std::min<std::int64_t>(block_cap, std::max<std::int64_t>(count, 1)));
+
   Matrix g_storage;
-  const std::int64_t block = std::max<std::int64_t>(1, options.block);
+  // Under a memory budget the candidate block takes at most a sixteenth of it (the decisions do
+  // not depend on the block size).
+  std::int64_t block = std::max<std::int64_t>(1, options.block);
+  if (options.memory_budget > 0)
+    block = std::min(block, std::max<std::int64_t>(8, options.memory_budget / (16 * std::max<std::int64_t>(n, 1) * 4)));
+  Matrix zb_storage(n, std::min<std::int64_t>(block, std::max<std::int64_t>(count, 1)));
   auto col = [&](std::int64_t position) { return m.col(candidates[static_cast<std::size_t>(position)]).data(); };
   auto release = [&](std::int64_t position) {
     const std::int64_t j = candidates[static_cast<std::size_t>(position)];
@@ -163,8 +167,7 @@ PruneResult prune_correlated(const ConstMatrixRef& m, std::span<const std::int64
     const auto n_kept = static_cast<Eigen::Index>(kept_positions.size());
     if (options.memory_budget > 0) {
       // The kept set is compared with every later candidate, so it must stay in memory.
-      const std::int64_t need = (n_kept + width) * (n + width) * static_cast<std::int64_t>(sizeof(float)) +
-                                n * width * static_cast<std::int64_t>(sizeof(float));
+      const std::int64_t need = (n_kept + width) * n * static_cast<std::int64_t>(sizeof(float));
       if (need > options.memory_budget)
         throw Error(ErrorKind::kUsage,
                     "correlation pruning needs its " + std::to_string(n_kept) + " kept features in memory (" +

@@ -253,8 +253,8 @@ TEST_CASE("prune: the sequential walk on planted groups, several shapes, blocks 
   struct Shape {
     Eigen::Index n, p;
   };
-  // n < p (wide), n > p (tall), and n close to p.
-  const Shape shapes[] = {{12, 90}, {40, 300}, {150, 60}, {300, 25}, {33, 33}};
+  // n < p (wide), n > p (tall), and n close to p; from 64 samples on, the subset bound is used.
+  const Shape shapes[] = {{12, 90}, {40, 300}, {150, 60}, {300, 25}, {33, 33}, {120, 700}};
   std::uint64_t seed = 11;
   for (const Shape s : shapes) {
     const Matrix m = planted(s.n, s.p, seed);
