@@ -197,15 +197,27 @@ PruneResult prune_correlated(const ConstMatrixRef& m, std::span<const std::int64
         std::vector<std::int64_t> near;
         const float rb = rest_norm[static_cast<std::size_t>(start + b)];
         const float* cb = c.col(b).data();
-        for (Eigen::Index k = 0; k < n_kept; ++k) {
-          if (std::abs(cb[k]) + kept_rest[static_cast<std::size_t>(k)] * rb < cut) continue;
+        const float* kr = kept_rest.data();
+        auto judge = [&](Eigen::Index k) {
+          if (std::abs(cb[k]) + kr[k] * rb < cut) return;
           const float r = zk.col(k).dot(zb.col(b));
           if (std::abs(r) > std::abs(best_r) || best < 0) {
             best_r = r;
             best = kept_positions[static_cast<std::size_t>(k)];
           }
           if (std::abs(r) > limit - margin) near.push_back(kept_positions[static_cast<std::size_t>(k)]);
+        };
+        // Almost every pair is ruled out: test 16 at a time without branches (the loop
+        // vectorises), and look at single pairs only in a group with a survivor.
+        constexpr Eigen::Index kGroup = 16;
+        Eigen::Index k = 0;
+        for (; k + kGroup <= n_kept; k += kGroup) {
+          bool any = false;
+          for (Eigen::Index g = k; g < k + kGroup; ++g) any |= std::abs(cb[g]) + kr[g] * rb >= cut;
+          if (any)
+            for (Eigen::Index g = k; g < k + kGroup; ++g) judge(g);
         }
+        for (; k < n_kept; ++k) judge(k);
         if (best >= 0 && std::abs(best_r) > limit - margin)
           dropped[static_cast<std::size_t>(b)] = decide(start + b, best, best_r, near);
       }
