@@ -151,6 +151,10 @@ Plan load_plan(const std::string& path) {
       }
     }
     throw_input_error({path, line, column}, "not valid JSON", "use a plan.json written by pare reduce, unedited");
+  } catch (const json::exception& e) {
+    // Valid syntax the parser cannot hold, such as a number beyond double's range.
+    throw_input_error({path}, std::string("not a usable plan: ") + e.what(),
+                      "use a plan.json written by pare reduce, unedited");
   }
   if (!plan.is_object()) bad_plan(path, "the top level must be an object");
   const json& format = member(path, plan, "pare_plan", "plan");

@@ -99,14 +99,19 @@ Margins margins_of(std::span<const double> table, int rows, int cols) {
 double mutual_information(std::span<const double> table, int rows, int cols) {
   const auto [row_sum, col_sum, total] = margins_of(table, rows, cols);
   if (total <= 0) return 0;
-  double mi = 0;
-  for (int r = 0; r < rows; ++r)
-    for (int c = 0; c < cols; ++c) {
-      const double v = table[static_cast<std::size_t>(r * cols + c)];
-      if (v <= 0) continue;
-      mi += v / total *
-            std::log(v * total / (row_sum[static_cast<std::size_t>(r)] * col_sum[static_cast<std::size_t>(c)]));
-    }
+  // MI = (sum v ln v - sum r ln r - sum c ln c + N ln N) / N over the cells v, row totals r and
+  // column totals c. Each sum runs over its values in ascending order, so two tables with the same
+  // multisets of cells and totals (equal MI in exact arithmetic) get the same bits, and the
+  // ranking breaks such ties by input order rather than by rounding.
+  auto sum_x_log_x = [](std::vector<double> values) {
+    std::sort(values.begin(), values.end());
+    double sum = 0;
+    for (const double v : values)
+      if (v > 0) sum += v * std::log(v);
+    return sum;
+  };
+  const double cells = sum_x_log_x(std::vector<double>(table.begin(), table.begin() + rows * cols));
+  const double mi = (cells - sum_x_log_x(row_sum) - sum_x_log_x(col_sum) + total * std::log(total)) / total;
   return std::max(0.0, mi);
 }
 
@@ -117,16 +122,22 @@ double pearson_chi2(std::span<const double> table, int rows, int cols, int& df) 
   for (double v : col_sum) used_cols += v > 0;
   df = std::max(0, (used_rows - 1) * (used_cols - 1));
   if (df == 0) return 0;
-  double chi2 = 0;
+  // The terms are summed in ascending order, so tables that are row and column permutations of
+  // each other (equal in exact arithmetic) get the same bits.
+  std::vector<double> terms;
+  terms.reserve(static_cast<std::size_t>(rows * cols));
   for (int r = 0; r < rows; ++r) {
     if (row_sum[static_cast<std::size_t>(r)] <= 0) continue;
     for (int c = 0; c < cols; ++c) {
       if (col_sum[static_cast<std::size_t>(c)] <= 0) continue;
       const double expected = row_sum[static_cast<std::size_t>(r)] * col_sum[static_cast<std::size_t>(c)] / total;
       const double d = table[static_cast<std::size_t>(r * cols + c)] - expected;
-      chi2 += d * d / expected;
+      terms.push_back(d * d / expected);
     }
   }
+  std::sort(terms.begin(), terms.end());
+  double chi2 = 0;
+  for (const double t : terms) chi2 += t;
   return chi2;
 }
 
