@@ -3,6 +3,7 @@
 #include <fast_float/fast_float.h>
 #include <omp.h>
 #include <fcntl.h>
+#include <signal.h>
 #include <sys/stat.h>
 #include <unistd.h>
 
@@ -10,6 +11,7 @@
 #include <atomic>         // std::atomic
 #include <cerrno>         // errno
 #include <cmath>          // std::isinf, std::isnan
+#include <cstdlib>        // std::strtol
 #include <cstring>        // std::memchr, std::strerror
 #include <filesystem>     // std::filesystem::create_directories
 #include <limits>         // std::numeric_limits
@@ -849,9 +851,33 @@ namespace {
 std::atomic<unsigned> temp_counter{0};
 }
 
+namespace {
+
+// Removes ".NAME.part-PID-N" files left in `folder` by runs that were killed (their process no
+// longer exists), so a killed run's leftovers go with the next successful one. Parts of a run
+// still alive, this one included, are left alone.
+void remove_stale_parts(const std::filesystem::path& folder, const std::string& base) {
+  const std::string prefix = "." + base + ".part-";
+  std::error_code ec;
+  for (std::filesystem::directory_iterator it(folder.empty() ? "." : folder, ec), end; !ec && it != end; it.increment(ec)) {
+    const std::string name = it->path().filename().string();
+    if (name.rfind(prefix, 0) != 0) continue;
+    const char* digits = name.c_str() + prefix.size();
+    char* stop = nullptr;
+    const long pid = std::strtol(digits, &stop, 10);
+    if (stop == digits || *stop != '-' || pid <= 0) continue;
+    if (::kill(static_cast<pid_t>(pid), 0) == 0 || errno != ESRCH) continue;  // alive, or not ours to judge
+    std::error_code ignored;
+    std::filesystem::remove(it->path(), ignored);
+  }
+}
+
+}  // namespace
+
 OutputFile::OutputFile(std::string path) : path_(std::move(path)) {
   const std::filesystem::path final_path(path_);
   const std::string base = final_path.filename().string();
+  remove_stale_parts(final_path.parent_path(), base);
   temp_path_ = (final_path.parent_path() /
                 ("." + base + ".part-" + std::to_string(::getpid()) + "-" +
                  std::to_string(temp_counter++)))
