@@ -11,6 +11,8 @@ packages=(
   catch2 libfast-float-dev nlohmann-json3-dev zlib1g-dev libssl-dev
   # reference checks and benchmarks (general-purpose libraries, Debian's builds)
   python3 python3-numpy python3-scipy python3-sklearn python3-pandas libopenblas0
+  # report.html checks: a strict HTML parser, headless rendering, reading the picture, a font
+  python3-html5lib chromium python3-pil fonts-dejavu-core
   time
 )
 

@@ -4,16 +4,21 @@
 #include <chrono>     // std::chrono::steady_clock
 #include <cmath>      // std::isinf, std::abs
 #include <cstdio>     // std::snprintf
+#include <filesystem>  // std::filesystem::path, std::filesystem::exists
+#include <future>     // std::async
 #include <new>        // std::bad_alloc
 
 #include "cli/options.h"
 #include "cli/pipeline.h"
 #include "cli/text.h"
+#include "internal/sha256.h"
 #include "pare/demo.h"
 #include "pare/error.h"
 #include "pare/io.h"
+#include "pare/outliers.h"
 #include "pare/profile.h"
 #include "pare/ranking.h"
+#include "pare/report.h"
 
 namespace pare::cli {
 
@@ -39,8 +44,7 @@ constexpr const char* kUsage =
 
 
 
-void print_scan_summary(std::ostream& out, const FeatureTable& t, const Profile& p,
-                        const std::string& profile_path, double seconds) {
+void print_scan_summary(std::ostream& out, const FeatureTable& t, const Profile& p, double seconds) {
   const auto n = t.n_samples(), m = t.n_features();
   const double cells = static_cast<double>(n) * static_cast<double>(m);
   out << "pare scan: " << t.source << "\n";
@@ -71,38 +75,108 @@ void print_scan_summary(std::ostream& out, const FeatureTable& t, const Profile&
   } else {
     out << "  classes    no labels given (--label COLUMN or --labels SHEET.csv)\n";
   }
-  out << "  wrote      " << profile_path << "\n";
 }
 
 
 
-// Profiles `input` and writes profile.tsv to common.out.
-int scan_and_report(const InputOptions& input, const CommonOptions& common, std::ostream& out) {
+// Profiles `input` and screens its samples (on log2(x + 1) with `log2`); writes profile.tsv,
+// samples.tsv and report.html to common.out.
+int scan_and_report(const InputOptions& input, const CommonOptions& common, bool log2,
+                    const std::vector<std::string>& command_line, std::ostream& out) {
+  // Hash the input (for the report's run record) while it is parsed.
+  auto data_hash = std::async(std::launch::async, [&] { return internal::sha256_file(input.data); });
   const auto start = std::chrono::steady_clock::now();
   const FeatureTable table = load_table(input, common);
   const double read_seconds = seconds_since(start);
   ProfileOptions options;
   options.threads = common.threads;
+  auto lap = std::chrono::steady_clock::now();
   const Profile profile = profile_table(table, options);
+  const double profile_seconds = seconds_since(lap);
+  lap = std::chrono::steady_clock::now();
+  ScreenOptions screen_options;
+  screen_options.log2 = log2;
+  screen_options.seed = common.seed;
+  screen_options.threads = common.threads;
+  const SampleScreen screen = screen_samples(table.values, screen_options, encode_classes(table.labels).codes);
+  const double screen_seconds = seconds_since(lap);
+
+  ReportData report;
+  report.command = "scan";
+  report.title = "pare scan: " + std::filesystem::path(input.data).filename().string();
+  report.samples = table.n_samples();
+  report.features = table.n_features();
+  report.glance.push_back(thousands(table.n_features()) + " features: " + thousands(profile.n_constant) + " constant, " +
+                          thousands(profile.n_near_constant) + " near-constant, " +
+                          thousands(profile.n_mostly_missing) + " mostly missing (> " +
+                          percent(profile.options.mostly_missing) + "), " + thousands(profile.n_all_missing) +
+                          " all missing; scan removes nothing.");
+  add_profile(report, table, profile);
+  add_screen(report, screen, table.sample_ids, table.labels, table.label_name, {});
+  ReportRecord& record = report.record;
+  record.version = PARE_VERSION;
+  record.command_line = command_line;
+  record.inputs.push_back({"data", input.data, data_hash.get()});
+  if (!input.labels.empty()) {
+    std::string sheet = input.labels;
+    std::error_code ec;
+    if (const auto colon = sheet.rfind(':'); !std::filesystem::exists(sheet, ec) && colon != std::string::npos && colon > 0)
+      sheet.resize(colon);
+    record.inputs.push_back({"sample sheet (" + table.label_name + ")", sheet, internal::sha256_file(sheet)});
+  }
+  const ReadOptions read = read_options_from(input, common);
+  std::string na;
+  for (std::size_t i = 0; i < read.na_tokens.size(); ++i) na += (i ? "," : "") + read.na_tokens[i];
+  record.parameters = {{"seed", std::to_string(common.seed)},
+                       {"read.layout", layout_name(table.layout)},
+                       {"read.delimiter", delimiter_name(table.delimiter)},
+                       {"read.label", input.label},
+                       {"read.na", na},
+                       {"read.allow_inf", read.allow_inf ? "true" : "false"},
+                       {"mostly_missing", short_number(profile.options.mostly_missing)},
+                       {"sample_missing", short_number(profile.options.sample_missing)},
+                       {"near_constant_cv", short_number(profile.options.near_constant_cv)},
+                       {"screen.log2", log2 ? "true" : "false"}};
+  record.timings = {{"read", read_seconds}, {"profile", profile_seconds}, {"sample screen", screen_seconds}};
+  record.outputs = {"profile.tsv", "samples.tsv", "report.html"};
+
   ensure_directory(common.out);
   const std::string path = join_path(common.out, "profile.tsv");
-  write_file_atomically(path, profile_tsv(table, profile));
-  if (!common.quiet) print_scan_summary(out, table, profile, path, read_seconds);
+  // All three renamed into place together, only once each is complete.
+  OutputFile profile_file(path), samples_file(join_path(common.out, "samples.tsv")),
+      report_file(join_path(common.out, "report.html"));
+  profile_file.write(profile_tsv(table, profile));
+  samples_file.write(samples_tsv(screen, table.sample_ids, table.labels, table.label_name, {}));
+  report_file.write(report_html(report));
+  profile_file.commit();
+  samples_file.commit();
+  report_file.commit();
+  if (!common.quiet) {
+    print_scan_summary(out, table, profile, read_seconds);
+    print_sample_screen(out, screen, table.sample_ids, {}, "  outliers   ");
+    out << "  wrote      " << path << "\n";
+    out << "  report     " << join_path(common.out, "report.html") << " (per-sample flags in samples.tsv)\n";
+  }
   return 0;
 }
 
 int command_scan(const std::vector<std::string>& args, std::ostream& out) {
   CommonOptions common;
   InputOptions input;
+  bool log2 = false;
   po::options_description desc(
       "pare scan DATA [options]\n\n"
       "Profiles a matrix and writes profile.tsv (one line per feature: n, missing, missing_rate,\n"
-      "mean, variance, sd, min, max, flags).\n\noptions");
-  desc.add_options()("data", po::value(&input.data)->required(), "the data file (CSV/TSV, may be gzip)");
+      "mean, variance, sd, min, max, flags), samples.tsv (per sample: missing rate, outlier distance\n"
+      "and flag) and report.html (plots; open it in a browser).\n\noptions");
+  desc.add_options()("data", po::value(&input.data)->required(), "the data file (CSV/TSV, may be gzip)")
+      ("log2", po::bool_switch(&log2), "screen samples for outliers on log2(x + 1), as reduce --log2 does");
   add_input_options(desc, input);
   add_common_options(desc, common, ".");
   if (!parse_command_line(args, desc, positionals({"data"}), out)) return 0;
-  return scan_and_report(input, common, out);
+  std::vector<std::string> command_line{"pare", "scan"};
+  command_line.insert(command_line.end(), args.begin(), args.end());
+  return scan_and_report(input, common, log2, command_line, out);
 }
 
 int command_demo(const std::vector<std::string>& args, std::ostream& out) {
@@ -124,7 +198,11 @@ int command_demo(const std::vector<std::string>& args, std::ostream& out) {
   input.data = files.data;
   input.layout = "rows=features";
   input.labels = files.samples + ":condition";
-  scan_and_report(input, common, out);
+  // The demo reduces on the log2 scale, so its scan screens samples on that scale too.
+  scan_and_report(input, common, true,
+                  {"pare", "scan", files.data, "--layout", "rows=features", "--labels", input.labels, "--log2", "--out",
+                   common.out},
+                  out);
   return demo_reduce(files.data, files.samples, files.truth, common, out);
 }
 

@@ -6,15 +6,19 @@
 #include <future>      // std::async
 #include <memory>      // std::unique_ptr
 
+#include <nlohmann/json.hpp>
+
 #include "cli/text.h"
 #include "internal/sha256.h"
 #include "internal/spill.h"
 #include "pare/error.h"
 #include "pare/io.h"
 #include "pare/demo.h"
+#include "pare/outliers.h"
 #include "pare/plan.h"
 #include "pare/projection.h"
 #include "pare/reduce.h"
+#include "pare/report.h"
 
 namespace pare::cli {
 
@@ -75,12 +79,63 @@ struct ReduceRun {
   Reduction reduction;
   std::unique_ptr<Projection> projection;
   std::string out_dir;
+  SampleScreen screen;                                   // of every input sample
+  std::vector<std::string> input_ids, input_labels;      // before --drop-outliers
+  std::vector<char> dropped;                             // per input sample, or empty
 };
+
+// Removes the rows `drop` (ascending) from `table` before anything is computed on it.
+void drop_samples(FeatureTable& table, const std::vector<std::int64_t>& drop, const MemoryBudget& budget) {
+  std::vector<Eigen::Index> keep;
+  std::size_t next = 0;
+  for (Eigen::Index i = 0; i < table.n_samples(); ++i) {
+    if (next < drop.size() && drop[next] == i) ++next;
+    else keep.push_back(i);
+  }
+  Columns values;
+  values.allocate(static_cast<Eigen::Index>(keep.size()), table.n_features(), budget);
+  for (Eigen::Index j = 0; j < table.n_features(); ++j) {
+    const float* src = table.values.col(j).data();
+    float* dst = values.col(j).data();
+    for (std::size_t k = 0; k < keep.size(); ++k) dst[k] = src[keep[k]];
+    if (table.values.on_disk()) {
+      internal::release_column_span(table.values, j, j);
+      internal::release_column_span(values, j, j);
+    }
+  }
+  table.values = std::move(values);
+  std::vector<std::string> ids, labels;
+  for (const Eigen::Index i : keep) {
+    ids.push_back(table.sample_ids[static_cast<std::size_t>(i)]);
+    if (table.has_labels()) labels.push_back(table.labels[static_cast<std::size_t>(i)]);
+  }
+  table.sample_ids = std::move(ids);
+  table.labels = std::move(labels);
+}
+
+// plan.json with the sample screen's record: its rule and which samples it flagged and dropped.
+std::string plan_with_screen(const std::string& text, const ReduceRun& run) {
+  nlohmann::json plan = nlohmann::json::parse(text);
+  nlohmann::json flagged = nlohmann::json::array(), dropped = nlohmann::json::array();
+  for (const std::int64_t i : run.screen.flagged()) flagged.push_back(run.input_ids[static_cast<std::size_t>(i)]);
+  for (std::size_t i = 0; i < run.dropped.size(); ++i)
+    if (run.dropped[i]) dropped.push_back(run.input_ids[i]);
+  plan["sample_screen"] = {{"screened", run.screen.done},
+                           {"rule", screen_rule(run.screen)},
+                           {"flagged", flagged},
+                           {"dropped", dropped},
+                           {"samples_before_dropping", run.input_ids.size()}};
+  if (run.screen.done) plan["sample_screen"]["threshold"] = run.screen.robust.threshold;
+  plan["outputs"]["samples"] = "samples.tsv";
+  plan["outputs"]["report"] = "report.html";
+  return plan.dump(1) + "\n";
+}
 
 // What to run after the selection: a projection of the kept features (components > 0).
 struct ProjectSettings {
   ProjectionOptions options;
   bool selection_outputs = true;  // false for `project`: no ranking, log or reduced matrix
+  bool drop_outliers = false;     // remove the samples the screen flags before anything else
 };
 
 void add_projection_options(po::options_description& desc, ProjectionOptions& o, bool& no_center,
@@ -112,6 +167,24 @@ ReduceRun reduce_and_write(const InputOptions& input, const CommonOptions& commo
   ReduceRun run;
   run.table = load_table(input, common);
   const double read_seconds = seconds_since(start);
+  // The sample screen sees the input as the reduction will (log2 included), before any sample
+  // is dropped.
+  const auto start_screen = std::chrono::steady_clock::now();
+  ScreenOptions screen_options;
+  screen_options.log2 = options.log2;
+  screen_options.seed = common.seed;
+  screen_options.threads = common.threads;
+  // With labels, each sample is measured from its own class (classes are meant to separate).
+  run.screen = screen_samples(run.table.values, screen_options, encode_classes(run.table.labels).codes);
+  run.input_ids = run.table.sample_ids;
+  run.input_labels = run.table.labels;
+  if (project.drop_outliers) {
+    run.dropped = run.screen.robust.flagged;
+    run.dropped.resize(run.input_ids.size(), 0);
+    const std::vector<std::int64_t> flagged = run.screen.flagged();
+    if (!flagged.empty()) drop_samples(run.table, flagged, read_options_from(input, common).memory);
+  }
+  const double screen_seconds = seconds_since(start_screen);
   if (run.table.has_labels() && options.relevance) require_two_classes(run.table, input);
   // (`project` selects nothing, so the note is only for `reduce`)
   if (!common.quiet && !run.table.has_labels() && project.selection_outputs)
@@ -193,7 +266,34 @@ ReduceRun reduce_and_write(const InputOptions& input, const CommonOptions& commo
     run.reduction.steps.push_back(StepRecord{"project", static_cast<std::int64_t>(r.kept.size()),
                                              static_cast<std::int64_t>(r.kept.size()), seconds_since(start_pca)});
   }
-  files.add("plan.json", plan_json(run.table, r, options, record, plan_projection));
+  const std::string plan = plan_with_screen(plan_json(run.table, r, options, record, plan_projection), run);
+  files.add("plan.json", plan);
+  files.add("samples.tsv", samples_tsv(run.screen, run.input_ids, run.input_labels, run.table.label_name, run.dropped));
+  {
+    ReportData report;
+    report.command = project.selection_outputs ? "reduce" : "project";
+    report.title = "pare " + report.command + ": " + std::filesystem::path(input.data).filename().string();
+    report.samples = static_cast<std::int64_t>(run.input_ids.size());
+    report.features = run.table.n_features();
+    add_plan_record(report, plan);
+    auto& timings = report.record.timings;
+    timings.insert(timings.begin() + (timings.empty() ? 0 : 1), {"sample screen", screen_seconds});
+    add_reduction(report, run.table, r, options, project.selection_outputs);
+    if (run.projection) {
+      add_components(report, *run.projection,
+                     project.selection_outputs
+                         ? "the " + thousands(static_cast<std::int64_t>(r.kept.size())) + " kept features"
+                         : "all " + thousands(run.table.n_features()) + " features (mean-filled)");
+      if (!run.dropped.empty() && run.table.n_samples() < static_cast<std::int64_t>(run.input_ids.size())) {
+        for (std::size_t i = 0; i < run.dropped.size(); ++i)
+          if (!run.dropped[i]) report.components.sample_of.push_back(i);
+        report.components.note = "The samples dropped as outliers (--drop-outliers) are not on these plots: the "
+                                 "components were computed without them.";
+      }
+    }
+    add_screen(report, run.screen, run.input_ids, run.input_labels, run.table.label_name, run.dropped);
+    files.add("report.html", report_html(report));
+  }
   files.commit();
   run.out_dir = common.out;
 
@@ -220,10 +320,11 @@ ReduceRun reduce_and_write(const InputOptions& input, const CommonOptions& commo
       out << (pr.ratio.size() > 5 ? ", ..." : "") << " (cumulative " << percent(pr.cumulative(pr.cumulative.size() - 1))
           << ")\n";
     }
+    print_sample_screen(out, run.screen, run.input_ids, run.dropped);
     out << "  wrote " << files.path("plan.json");
     if (project.selection_outputs) out << ", ranking.tsv, selection-log.tsv, reduced.csv";
     if (run.projection) out << ", scores.csv, loadings.tsv, explained.tsv";
-    out << "\n";
+    out << ", samples.tsv, report.html\n";
   }
   return run;
 }
@@ -276,12 +377,15 @@ int command_reduce(const std::vector<std::string>& args, std::ostream& out) {
       "pare reduce DATA [--label COLUMN | --labels SHEET[:COLUMN]] --out DIR [options]\n\n"
       "Runs the reduction pipeline (steps 1-7 below, in order) and writes ranking.tsv,\n"
       "selection-log.tsv (one line per input feature: kept or dropped, by which step, why),\n"
-      "reduced.csv and plan.json (replayable with pare apply).\n\noptions");
+      "reduced.csv, plan.json (replayable with pare apply), samples.tsv (per sample: missing rate,\n"
+      "outlier distance and flag) and report.html (plots; open it in a browser).\n\noptions");
   desc.add_options()("data", po::value(&input.data)->required(), "the data file (CSV/TSV, may be gzip)");
   ProjectSettings project;
   bool no_center = false;
   add_reduce_options(desc, options, impute, rank_by, estimator, no_missing, no_variance, no_prune);
   add_projection_options(desc, project.options, no_center, false);
+  desc.add_options()("drop-outliers", po::bool_switch(&project.drop_outliers),
+                     "remove the samples flagged as outliers (samples.tsv) before step 1");
   add_input_options(desc, input);
   add_common_options(desc, common, "pare-reduce");
   if (!parse_command_line(args, desc, positionals({"data"}), out)) return 0;
@@ -305,10 +409,13 @@ int command_project(const std::vector<std::string>& args, std::ostream& out) {
       "pare project DATA --components K --out DIR [options]\n\n"
       "Truncated PCA (centred; --scale for correlation PCA) or truncated SVD (--no-center) of every\n"
       "feature, no selection. Gaps are filled with the feature's mean first. Writes scores.csv,\n"
-      "loadings.tsv, explained.tsv and plan.json (pare apply projects new samples with it).\n\noptions");
+      "loadings.tsv, explained.tsv, plan.json (pare apply projects new samples with it),\n"
+      "samples.tsv and report.html.\n\noptions");
   desc.add_options()("data", po::value(&input.data)->required(), "the data file (CSV/TSV, may be gzip)")
       ("scale", po::bool_switch(&project.options.scale), "divide each centred feature by its sd");
   add_projection_options(desc, project.options, no_center, true);
+  desc.add_options()("drop-outliers", po::bool_switch(&project.drop_outliers),
+                     "remove the samples flagged as outliers (samples.tsv) before the PCA");
   add_input_options(desc, input);
   add_common_options(desc, common, "pare-project");
   if (!parse_command_line(args, desc, positionals({"data"}), out)) return 0;
@@ -429,8 +536,32 @@ int demo_reduce(const std::string& data, const std::string& samples, const std::
         << d.copies_named_twin << " naming their original or a module-mate)\n";
     out << "  (near-)constant by variance    " << d.near_constant_variance << " of " << d.near_constant << "\n";
     out << "  mostly-missing by missing      " << d.mostly_missing_missing << " of " << d.mostly_missing << "\n";
+    out << "\nreport: " << join_path(reduce_common.out, "report.html") << " (open it in a browser)\n";
   }
   return 0;
+}
+
+void print_sample_screen(std::ostream& out, const SampleScreen& screen, const std::vector<std::string>& ids,
+                         const std::vector<char>& dropped, const std::string& label) {
+  const std::int64_t n = static_cast<std::int64_t>(ids.size());
+  if (!screen.done) {
+    out << label << "not screened for outliers: " << screen.reason << "\n";
+    return;
+  }
+  const std::vector<std::int64_t> flagged = screen.flagged();
+  out << label << (flagged.empty() ? "none" : thousands(static_cast<std::int64_t>(flagged.size()))) << " of "
+      << thousands(n) << " samples flagged as outliers (robust distance > " << short_number(screen.robust.threshold) << " on "
+      << screen.scores.cols() << " screening components)";
+  if (flagged.empty()) {
+    out << "\n";
+    return;
+  }
+  bool any_dropped = false;
+  for (const char d : dropped) any_dropped = any_dropped || d;
+  out << (any_dropped ? " and dropped before the reduction: " : ": ");
+  for (std::size_t k = 0; k < flagged.size() && k < 20; ++k) out << (k ? ", " : "") << ids[static_cast<std::size_t>(flagged[k])];
+  if (flagged.size() > 20) out << ", ... (samples.tsv lists all)";
+  out << (any_dropped ? "\n" : "; kept (--drop-outliers removes them)\n");
 }
 
 }  // namespace pare::cli

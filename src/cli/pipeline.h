@@ -6,12 +6,17 @@
 #include <vector>   // std::vector
 
 #include "cli/options.h"
+#include "pare/outliers.h"
 
 namespace pare::cli {
 
 int command_reduce(const std::vector<std::string>& args, std::ostream& out);
 int command_apply(const std::vector<std::string>& args, std::ostream& out);
 int command_project(const std::vector<std::string>& args, std::ostream& out);
+
+/// Prints one line on the sample screen: how many samples were flagged (and dropped), and which.
+void print_sample_screen(std::ostream& out, const SampleScreen& screen, const std::vector<std::string>& ids,
+                         const std::vector<char>& dropped, const std::string& label = "  samples: ");
 
 /// Reduces the demo data into common.out/reduce and reports recovery of the planted truth.
 int demo_reduce(const std::string& data, const std::string& samples, const std::string& truth,
