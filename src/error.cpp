@@ -1,6 +1,10 @@
 #include "pare/error.h"
 
+#include "internal/utf8.h"
+
 namespace pare {
+
+std::string Error::one_line(const std::string& message) { return internal::printable(message); }
 
 std::string format_message(const Location& where, const std::string& what,
                            const std::string& hint) {

@@ -17,12 +17,15 @@ enum class ErrorKind : int {
 };
 
 /// An error with a kind and a message already formatted as `FILE:LINE:COLUMN: what (what to do)`.
+/// The message is kept to one printable line: line breaks, control characters and bytes that
+/// are not UTF-8 (quoted from a damaged file, say) are shown escaped (\n, \xNN).
 class Error : public std::runtime_error {
  public:
-  Error(ErrorKind kind, const std::string& message) : std::runtime_error(message), kind_(kind) {}
+  Error(ErrorKind kind, const std::string& message) : std::runtime_error(one_line(message)), kind_(kind) {}
   ErrorKind kind() const noexcept { return kind_; }
 
  private:
+  static std::string one_line(const std::string& message);
   ErrorKind kind_;
 };
 
