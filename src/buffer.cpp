@@ -3,9 +3,12 @@
 #include <fcntl.h>
 #include <sys/mman.h>
 #include <sys/stat.h>
+#include <sys/statvfs.h>
 #include <unistd.h>
 
 #include <cerrno>   // errno
+#include <cstdio>   // std::fopen, std::fgets, std::sscanf, std::snprintf
+#include <cstdlib>  // std::getenv
 #include <cstdint>  // std::uintptr_t
 #include <cstring>  // std::strerror
 #include <new>      // std::bad_alloc
@@ -58,6 +61,48 @@ void GrowableBuffer::reserve(std::size_t bytes) {
   capacity_ = size;
 }
 
+namespace {
+
+// MemAvailable of /proc/meminfo in bytes (the whole memory when it cannot be read).
+std::size_t available_memory() {
+  std::FILE* f = std::fopen("/proc/meminfo", "r");
+  std::size_t kib = 0;
+  if (f) {
+    char line[256];
+    while (std::fgets(line, sizeof line, f))
+      if (std::sscanf(line, "MemAvailable: %zu kB", &kib) == 1) break;
+    std::fclose(f);
+  }
+  if (kib == 0)
+    return static_cast<std::size_t>(::sysconf(_SC_PHYS_PAGES)) * static_cast<std::size_t>(::sysconf(_SC_PAGESIZE));
+  return kib * 1024;
+}
+
+// Bytes free for us in `folder` ($TMPDIR or /tmp when empty), less 1 GiB kept for everyone else.
+std::size_t free_space(const std::string& folder) {
+  std::string dir = folder;
+  if (dir.empty()) {
+    const char* tmp = std::getenv("TMPDIR");
+    dir = tmp && *tmp ? tmp : "/tmp";
+  }
+  struct statvfs fs {};
+  if (::statvfs(dir.c_str(), &fs) != 0) return static_cast<std::size_t>(-1);
+  const auto bytes = static_cast<std::size_t>(fs.f_bavail) * static_cast<std::size_t>(fs.f_frsize);
+  constexpr std::size_t kReserve = std::size_t{1} << 30;
+  return bytes > kReserve ? bytes - kReserve : 0;
+}
+
+std::string gib(std::size_t bytes) {
+  char text[32];
+  if (bytes >= 1'000'000'000)
+    std::snprintf(text, sizeof text, "%.1f GB", static_cast<double>(bytes) / 1e9);
+  else
+    std::snprintf(text, sizeof text, "%.1f MB", static_cast<double>(bytes) / 1e6);
+  return text;
+}
+
+}  // namespace
+
 InputText InputText::open(const std::string& path, const MemoryBudget& budget) {
   const int fd = ::open(path.c_str(), O_RDONLY | O_CLOEXEC);
   if (fd < 0) {
@@ -70,6 +115,12 @@ InputText InputText::open(const std::string& path, const MemoryBudget& budget) {
     ::close(fd);
     throw_input_error({path}, "is a folder, not a file", "give the path of a data file");
   }
+  if (!S_ISREG(st.st_mode) && !S_ISFIFO(st.st_mode)) {
+    // A device such as /dev/zero would be read forever.
+    ::close(fd);
+    throw_input_error({path}, "is not a regular file", "give the path of a data file");
+  }
+  const std::size_t memory_cap = available_memory();
   InputText text;
   if (S_ISREG(st.st_mode) && st.st_size > 0) {
     const auto size = static_cast<std::size_t>(st.st_size);
@@ -86,6 +137,11 @@ InputText InputText::open(const std::string& path, const MemoryBudget& budget) {
     // Not mappable (a pipe, a special file): read it.
     std::size_t have = 0;
     while (true) {
+      if (have > memory_cap) {
+        ::close(fd);
+        throw_input_error({path}, "reading it would take more than the memory available (" + gib(memory_cap) + ")",
+                          "save it to a file and give --memory SIZE");
+      }
       if (have == text.inflated_.capacity()) text.inflated_.reserve(std::max<std::size_t>(have * 2, 1 << 21));
       const ssize_t got = ::read(fd, text.inflated_.data() + have, text.inflated_.capacity() - have);
       if (got < 0) {
@@ -107,7 +163,11 @@ InputText InputText::open(const std::string& path, const MemoryBudget& budget) {
     {
       GrowableBuffer window;
       try {
-        size = gunzip_into(text.view(), path, window, cache);
+        // A legitimate CSV's text is about twice its float32 matrix, so this allows matrices up to
+        // 128 times the budget; a small file that inflates past it is most likely a
+        // decompression bomb. The free space of the cache folder bounds it too.
+        const std::size_t cap = std::min(static_cast<std::size_t>(budget.bytes) * 256, free_space(budget.cache_dir));
+        size = gunzip_into(text.view(), path, window, cache, cap, "256 times --memory or the free space of the cache folder");
       } catch (...) {
         ::close(cache);
         throw;
@@ -131,7 +191,7 @@ InputText InputText::open(const std::string& path, const MemoryBudget& budget) {
   }
   if (is_gzip(text.view())) {
     GrowableBuffer inflated;
-    const std::size_t size = gunzip_into(text.view(), path, inflated);
+    const std::size_t size = gunzip_into(text.view(), path, inflated, -1, memory_cap, "the memory available");
     InputText out;
     out.inflated_ = std::move(inflated);
     out.data_ = size ? out.inflated_.data() : "";

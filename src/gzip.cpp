@@ -7,6 +7,7 @@
 #include <algorithm>  // std::min
 #include <cstdint>    // std::uint32_t
 #include <cerrno>     // errno
+#include <cstdio>     // std::snprintf
 #include <cstring>    // std::memcpy, std::strerror
 
 #include "internal/buffer.h"
@@ -31,7 +32,8 @@ bool is_gzip(std::string_view bytes) {
          static_cast<unsigned char>(bytes[1]) == 0x8b;
 }
 
-std::size_t gunzip_into(std::string_view compressed, const std::string& path, GrowableBuffer& out, int spill_fd) {
+std::size_t gunzip_into(std::string_view compressed, const std::string& path, GrowableBuffer& out, int spill_fd,
+                        std::size_t max_bytes, const char* limit_name) {
   // Spilling, `out` is a staging window written to the file whenever it fills.
   constexpr std::size_t kWindow = std::size_t{16} << 20;
   std::size_t flushed = 0;
@@ -63,6 +65,19 @@ std::size_t gunzip_into(std::string_view compressed, const std::string& path, Gr
   int status = Z_OK;
   constexpr std::size_t kStep = std::size_t{1} << 22;
   while (true) {
+    if (flushed + produced > max_bytes) {
+      inflateEnd(&zs);
+      char size[32];
+      if (max_bytes >= 1'000'000'000)
+        std::snprintf(size, sizeof size, "%.1f GB", static_cast<double>(max_bytes) / 1e9);
+      else
+        std::snprintf(size, sizeof size, "%.1f MB", static_cast<double>(max_bytes) / 1e6);
+      throw_input_error({path},
+                        std::string("the gzip data inflates past ") + size + " (" + limit_name + ") after " +
+                            std::to_string(compressed.size() - left) + " compressed bytes",
+                        "a small file that inflates this far is most likely a decompression bomb; if the file is "
+                        "genuine, give (a larger) --memory");
+    }
     if (spill_fd >= 0 && produced >= kWindow) {
       write_out(produced);
       produced = 0;

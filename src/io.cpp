@@ -22,6 +22,7 @@
 #include "internal/gzip.h"
 #include "internal/omp.h"
 #include "internal/spill.h"
+#include "internal/utf8.h"
 #include "pare/error.h"
 #include "pare/progress.h"
 
@@ -101,6 +102,31 @@ void fail(Failure& f, std::int64_t line, std::int64_t column, std::string what,
           std::string hint = {}) {
   if (f.set) return;
   f = Failure{true, line, column, std::move(what), std::move(hint)};
+}
+
+// Names, ids and labels end up in every output (JSON among them), so they must be text: UTF-8
+// without NUL bytes. Returns what is wrong with `name` (and sets `at` to the byte), or nullptr.
+const char* name_problem(std::string_view name, std::size_t& at) {
+  at = name.find('\0');
+  if (at != std::string_view::npos) return "holds a NUL byte";
+  at = internal::invalid_utf8_at(name);
+  if (at != std::string_view::npos) return "is not valid UTF-8";
+  return nullptr;
+}
+
+constexpr const char* kNameHint =
+    "names, ids and labels must be UTF-8 text: is it a binary file, or text in another encoding? "
+    "Convert it, e.g. with iconv -f latin1 -t utf-8";
+
+// Checks every name of a split line (header, label line); throws at the first bad one.
+void check_names(const std::string& path, std::int64_t line, const std::vector<std::string>& fields,
+                 const std::vector<std::int64_t>& columns, const char* what) {
+  for (std::size_t i = 0; i < fields.size(); ++i) {
+    std::size_t at = 0;
+    if (const char* problem = name_problem(fields[i], at))
+      throw_input_error({path, line, columns[i]},
+                        std::string(what) + " " + in_quotes(fields[i]) + " " + problem, kNameHint);
+  }
 }
 
 // The set of missing-value tokens, for the slow path of cell parsing.
@@ -551,6 +577,12 @@ FeatureTable read_rows_are_samples(const std::string& path, const internal::Inpu
       record_lines[static_cast<std::size_t>(record)] = line;
       const char* q = b;
       read_text_field(q, e, delim, t.sample_ids[static_cast<std::size_t>(record)]);
+      std::size_t at = 0;
+      if (const char* problem = name_problem(t.sample_ids[static_cast<std::size_t>(record)], at)) {
+        fail(c.failure, line, 1, "sample id " + in_quotes(t.sample_ids[static_cast<std::size_t>(record)]) + " " + problem,
+             kNameHint);
+        return false;
+      }
       float* row = block.data() + in_block;
       for (std::int64_t j = 1; j < n_fields; ++j) {
         if (q >= e) {
@@ -565,6 +597,11 @@ FeatureTable read_rows_are_samples(const std::string& path, const internal::Inpu
         if (f < 0) {
           label_columns[static_cast<std::size_t>(record)] = q - b + 1;
           read_text_field(q, e, delim, t.labels[static_cast<std::size_t>(record)]);
+          if (const char* problem = name_problem(t.labels[static_cast<std::size_t>(record)], at)) {
+            fail(c.failure, line, label_columns[static_cast<std::size_t>(record)],
+                 "label " + in_quotes(t.labels[static_cast<std::size_t>(record)]) + " " + problem, kNameHint);
+            return false;
+          }
           continue;
         }
         const char* cell = q;
@@ -673,12 +710,24 @@ FeatureTable read_rows_are_features(const std::string& path, const internal::Inp
                "give one label per sample");
           return false;
         }
+        for (std::size_t i = 1; i < fields.size(); ++i) {
+          std::size_t at = 0;
+          if (const char* problem = name_problem(fields[i], at)) {
+            fail(c.failure, line, columns[i], "label " + in_quotes(fields[i]) + " " + problem, kNameHint);
+            return false;
+          }
+        }
         t.labels.assign(fields.begin() + 1, fields.end());
         label_columns.assign(columns.begin() + 1, columns.end());
         return true;
       }
       std::string& name = t.feature_names[static_cast<std::size_t>(record)];
       read_text_field(q, e, delim, name);
+      std::size_t at = 0;
+      if (const char* problem = name_problem(name, at)) {
+        fail(c.failure, line, 1, "feature name " + in_quotes(name) + " " + problem, kNameHint);
+        return false;
+      }
       float* column = out + record * n;
       for (std::int64_t i = 0; i < n; ++i) {
         if (q >= e) {
@@ -723,6 +772,7 @@ FeatureTable read_table(const std::string& path, const ReadOptions& options) {
   const internal::InputText input = internal::InputText::open(path, options.memory);
   const std::string_view text = input.view();
   const Header h = read_header(path, text, options.delimiter);
+  check_names(path, 1, h.fields, h.columns, "the column name");
   ProgressStep progress("reading", static_cast<std::int64_t>(text.size()), "bytes");
   if (options.layout == Layout::kRowsAreSamples)
     return read_rows_are_samples(path, input, text, h, options, progress);
@@ -743,6 +793,7 @@ SampleSheet read_sample_sheet(const std::string& spec, char delimiter) {
   }
   const std::string text = read_file_text(sheet.path);
   const Header h = read_header(sheet.path, text, delimiter);
+  check_names(sheet.path, 1, h.fields, h.columns, "the column name");
   if (h.fields.size() < 2)
     throw_input_error({sheet.path, 1}, "a sample sheet needs at least two columns",
                       "first the sample id, then the label");
@@ -774,6 +825,12 @@ SampleSheet read_sample_sheet(const std::string& spec, char delimiter) {
                         "line has " + std::to_string(fields.size()) + " fields, the header has " +
                             std::to_string(h.fields.size()),
                         "every line needs one field per header column");
+    for (const std::size_t i : {std::size_t{0}, label_field}) {
+      std::size_t at = 0;
+      if (const char* problem = name_problem(fields[i], at))
+        throw_input_error({sheet.path, line, 1},
+                          std::string(i == 0 ? "sample id " : "label ") + in_quotes(fields[i]) + " " + problem, kNameHint);
+    }
     const auto [it, fresh] = seen.emplace(fields[0], line);
     if (!fresh)
       throw_input_error({sheet.path, line, 1},

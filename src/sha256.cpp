@@ -3,6 +3,7 @@
 #include <openssl/evp.h>
 
 #include <cstring>  // std::strerror
+#include <filesystem>  // std::filesystem::is_regular_file
 #include <fstream>  // std::ifstream
 #include <memory>   // std::unique_ptr
 #include <vector>   // std::vector
@@ -35,6 +36,13 @@ std::string sha256_hex(std::string_view bytes) {
 }
 
 std::string sha256_file(const std::string& path) {
+  // Inputs are read twice (hashed, then parsed), so they must be regular files: a pipe would be
+  // split between the two readers and a device such as /dev/zero never ends.
+  std::error_code ec;
+  if (!std::filesystem::is_regular_file(path, ec))
+    throw_input_error({path}, std::filesystem::exists(path, ec) ? "is not a regular file" : "cannot open the file",
+                      std::filesystem::exists(path, ec) ? "give the path of a data file (a pipe or a device cannot be read twice)"
+                                                        : "check the path");
   std::ifstream in(path, std::ios::binary);
   if (!in) throw_input_error({path}, std::string("cannot open the file: ") + std::strerror(errno));
   const std::unique_ptr<EVP_MD_CTX, decltype(&EVP_MD_CTX_free)> ctx(EVP_MD_CTX_new(), &EVP_MD_CTX_free);

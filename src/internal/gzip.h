@@ -14,9 +14,11 @@ class GrowableBuffer;
 /// Inflates a whole gzip file (one or more members) into `out`; returns the inflated size. With
 /// `spill_fd` >= 0 the text goes to that file instead, through `out` as a 16 MiB window, and the
 /// pages of `compressed` (a mapping) are given back as it is read. Throws Error(kInput) naming
-/// `path` when the stream is corrupt or ends early, Error(kOutput) when the file cannot be written.
+/// `path` when the stream is corrupt or ends early or inflates past `max_bytes` (named
+/// `limit_name` in the message), Error(kOutput) when the file cannot be written.
 std::size_t gunzip_into(std::string_view compressed, const std::string& path, GrowableBuffer& out,
-                        int spill_fd = -1);
+                        int spill_fd = -1, std::size_t max_bytes = static_cast<std::size_t>(-1),
+                        const char* limit_name = "");
 
 /// Compresses `bytes` into one gzip member.
 std::string gzip(std::string_view bytes, int level);
