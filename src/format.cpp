@@ -1,5 +1,7 @@
 #include "internal/format.h"
 
+#include <atomic>  // std::atomic
+
 #include <charconv>  // std::to_chars
 #include <cmath>     // std::isnan
 
@@ -34,7 +36,31 @@ void append_rounded(std::string& out, double value, int digits) {
   out.append(buffer, result.ptr);
 }
 
+namespace {
+
+std::atomic<bool> formula_guard{true};
+
+bool formula_start(char c) { return c == '=' || c == '+' || c == '-' || c == '@' || c == '\t' || c == '\r'; }
+
+}  // namespace
+
+bool needs_formula_guard(std::string_view field) {
+  if (field.empty()) return false;
+  return formula_start(field[0]) || (field[0] == '\'' && field.size() > 1 && (formula_start(field[1]) || field[1] == '\''));
+}
+
+void remove_formula_guard(std::string& field) {
+  if (field.size() > 1 && field[0] == '\'' && (formula_start(field[1]) || field[1] == '\'')) field.erase(0, 1);
+}
+
 void append_field(std::string& out, std::string_view field, char delimiter) {
+  std::string guarded;
+  if (formula_guard.load(std::memory_order_relaxed) && needs_formula_guard(field)) {
+    guarded.reserve(field.size() + 1);
+    guarded += '\'';
+    guarded += field;
+    field = guarded;
+  }
   const bool needs_quotes = field.find_first_of(std::string{delimiter} + "\"\r\n") !=
                             std::string_view::npos;
   if (!needs_quotes) {
@@ -50,3 +76,9 @@ void append_field(std::string& out, std::string_view field, char delimiter) {
 }
 
 }  // namespace pare::internal
+
+namespace pare {
+
+void set_formula_guard(bool on) { internal::formula_guard.store(on); }
+
+}  // namespace pare

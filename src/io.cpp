@@ -19,6 +19,7 @@
 #include <unordered_set>  // std::unordered_set
 
 #include "internal/buffer.h"
+#include "internal/format.h"
 #include "internal/gzip.h"
 #include "internal/omp.h"
 #include "internal/spill.h"
@@ -82,12 +83,14 @@ void read_text_field(const char*& p, const char* end, char delim, std::string& o
     }
     // Anything between the closing quote and the delimiter is kept as written.
     while (p < end && *p != delim) out += *p++;
+    internal::remove_formula_guard(out);
     return;
   }
   const char* stop = static_cast<const char*>(std::memchr(p, delim, static_cast<std::size_t>(end - p)));
   if (!stop) stop = end;
   out.assign(p, stop);
   p = stop;
+  internal::remove_formula_guard(out);
 }
 
 struct Failure {

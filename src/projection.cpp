@@ -410,13 +410,22 @@ Eigen::MatrixXd read_loadings_tsv(const std::string& path, const std::vector<std
   Eigen::MatrixXd loadings;
   Index columns = -1;
   std::size_t row = 0;
+  std::int64_t next_line = 1;
   while (pos < text.size()) {
-    std::size_t end = text.find('\n', pos);
-    if (end == std::string::npos) end = text.size();
+    // A record ends at the first line break outside quotes (a quoted name may hold one).
+    std::size_t end = pos;
+    bool quoted = false;
+    line = next_line;
+    for (; end < text.size(); ++end) {
+      if (text[end] == '"') quoted = !quoted;
+      if (text[end] == '\n') {
+        ++next_line;
+        if (!quoted) break;
+      }
+    }
     std::string_view content(text.data() + pos, end - pos);
     if (!content.empty() && content.back() == '\r') content.remove_suffix(1);
     pos = end + 1;
-    ++line;
     if (content.empty()) continue;
     const auto fields = split_fields(content, '\t');
     if (line == 1) {

@@ -4,12 +4,16 @@
 
 #include <cstdint>     // std::uint64_t
 #include <filesystem>  // std::filesystem::exists
+#include <set>         // std::set
 #include <string>      // std::string
+#include <tuple>       // std::tuple
 #include <vector>      // std::vector
 
 #include <catch2/catch.hpp>
 
+#include "internal/format.h"
 #include "internal/gzip.h"
+#include "pare/io.h"
 #include "support/cli_run.h"
 #include "support/temp_dir.h"
 
@@ -120,4 +124,105 @@ TEST_CASE("hostile: a gzip bomb is stopped by the memory budget", "[hostile]") {
   REQUIRE(r.err.find("inflates past 16.8 MB") != std::string::npos);
   REQUIRE(r.err.find("decompression bomb") != std::string::npos);
   REQUIRE(!std::filesystem::exists(dir.file("o/profile.tsv")));
+}
+
+namespace {
+
+// Splits delimited text into records, honouring quotes (a quoted field may hold line breaks),
+// and each record into fields with pare's own field reader.
+std::vector<std::vector<std::string>> records(const std::string& text, char delimiter) {
+  std::vector<std::vector<std::string>> out;
+  std::size_t start = 0;
+  bool quoted = false;
+  for (std::size_t i = 0; i < text.size(); ++i) {
+    if (text[i] == '"') quoted = !quoted;
+    if (text[i] == '\n' && !quoted) {
+      out.push_back(pare::split_fields(std::string_view(text).substr(start, i - start), delimiter));
+      start = i + 1;
+    }
+  }
+  return out;
+}
+
+}  // namespace
+
+TEST_CASE("hostile: names with delimiters, quotes, tabs, line breaks and formula starts round-trip", "[hostile]") {
+  TempDir dir;
+  const std::vector<std::string> names = {"a,b", "q\"uote", "tab\there", "new\nline", "=SUM(A1)", "+1",
+                                          "-x",  "@cmd",    "'=quoted",  "plain",     "semi;colon", "'ok"};
+  const std::vector<std::string> ids = {"=id1", "id\t2", "id,3", "\"id4\"", "id5", "-6", "@7", "id8",
+                                        "id9",  "id10",  "id11", "id12"};
+  auto quote = [](const std::string& s) {
+    std::string q = "\"";
+    for (char c : s) {
+      if (c == '"') q += '"';
+      q += c;
+    }
+    return q + "\"";
+  };
+  // The input is written the way pare writes: guarded (a leading apostrophe before = + - @, and
+  // before an apostrophe that precedes one), then quoted.
+  auto guard = [](const std::string& s) {
+    std::string g;
+    if (pare::internal::needs_formula_guard(s)) g += '\'';
+    g += s;
+    return g;
+  };
+  std::string csv = "sample";
+  for (const auto& n : names) {
+    csv += ',';
+    csv += quote(guard(n));
+  }
+  csv += ",group\n";
+  std::uint64_t x = 12345;
+  for (std::size_t i = 0; i < ids.size(); ++i) {
+    csv += quote(guard(ids[i]));
+    for (std::size_t j = 0; j < names.size(); ++j) {
+      x ^= x << 13, x ^= x >> 7, x ^= x << 17;
+      csv += ',';
+      csv += std::to_string(static_cast<double>(x % 1000) / 100.0 + static_cast<double>(i % 2) * (j < 4 ? 3 : 0));
+    }
+    csv += i % 2 ? ",b\n" : ",a\n";
+  }
+  const std::string data = dir.write("names.csv", csv);
+  // The reader undoes CSV quoting exactly.
+  pare::ReadOptions read;
+  read.label_column = "group";
+  const pare::FeatureTable t = pare::read_table(data, read);
+  REQUIRE(t.feature_names == names);
+  REQUIRE(t.sample_ids == ids);
+
+  const auto r = run({"reduce", data, "--label", "group", "--no-prune", "--components", "2", "--out", dir.file("o")});
+  INFO(r.err);
+  REQUIRE(r.code == 0);
+  // Every output that lists names gives them back exactly.
+  const pare::FeatureTable reduced = pare::read_table(dir.file("o/reduced.csv"), read);
+  REQUIRE(std::set<std::string>(reduced.feature_names.begin(), reduced.feature_names.end()) ==
+          std::set<std::string>(names.begin(), names.end()));
+  REQUIRE(reduced.sample_ids == ids);
+  for (const auto& [file, delimiter, column, expected] :
+       {std::tuple{"ranking.tsv", '\t', 1, &names}, {"selection-log.tsv", '\t', 0, &names},
+        {"loadings.tsv", '\t', 0, &names}, {"scores.csv", ',', 0, &ids}, {"samples.tsv", '\t', 0, &ids}}) {
+    INFO(file);
+    const auto rows = records(TempDir::read(dir.file(std::string("o/") + file)), delimiter);
+    std::set<std::string> seen;
+    for (std::size_t i = 1; i < rows.size(); ++i) seen.insert(rows[i][static_cast<std::size_t>(column)]);
+    REQUIRE(seen == std::set<std::string>(expected->begin(), expected->end()));
+  }
+  // Safe by default: no field starts with a formula character; --raw-names writes them as they are.
+  const std::string text = TempDir::read(dir.file("o/reduced.csv"));
+  REQUIRE(text.find("'=SUM(A1)") != std::string::npos);
+  REQUIRE(text.find("\n'=id1,") != std::string::npos);
+  REQUIRE(text.find(",-x") == std::string::npos);
+  REQUIRE(text.find(",'-x") != std::string::npos);
+  REQUIRE(text.find(",''=quoted") != std::string::npos);  // an apostrophe already there is kept
+  REQUIRE(run({"reduce", data, "--label", "group", "--no-prune", "--raw-names", "--out", dir.file("raw")}).code == 0);
+  const std::string raw = TempDir::read(dir.file("raw/reduced.csv"));
+  REQUIRE(raw.find(",=SUM(A1)") != std::string::npos);
+  REQUIRE(raw.find("\n=id1,") != std::string::npos);
+  // The guard is back on for the next run, and apply matches the names through it.
+  const auto a = run({"apply", dir.file("o/plan.json"), data, "--out", dir.file("applied")});
+  INFO(a.err);
+  REQUIRE(a.code == 0);
+  REQUIRE(TempDir::read(dir.file("applied/reduced.csv")).find("'=SUM(A1)") != std::string::npos);
 }

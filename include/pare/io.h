@@ -78,6 +78,11 @@ class OutputFile {
   bool committed_ = false;
 };
 
+/// Whether names written to delimited outputs are guarded against spreadsheet formulas: a name
+/// starting with = + - @ (or a tab or carriage return) is written with a leading apostrophe, which
+/// the reader removes again. On by default; process-wide.
+void set_formula_guard(bool on);
+
 /// Writes `content` to `path` through an OutputFile.
 void write_file_atomically(const std::string& path, std::string_view content);
 

@@ -17,6 +17,9 @@ void add_common_options(po::options_description& desc, CommonOptions& common,
        "worker threads (0 = all cores); results do not depend on it")
       ("seed", po::value(&common.seed)->default_value(1), "seed for anything random")
       ("quiet", po::bool_switch(&common.quiet), "print nothing but errors")
+      ("raw-names", po::bool_switch()->notifier([](bool raw) { set_formula_guard(!raw); }),
+       "write names exactly, even one a spreadsheet would run as a formula (by default a name "
+       "starting with = + - @ is written with a leading ', which pare removes when reading)")
       ("help", "show this help");
 }
 

@@ -13,7 +13,17 @@ void append_number(std::string& out, float value);
 /// Appends `value` with `digits` significant digits (for people, not for round trips).
 void append_rounded(std::string& out, double value, int digits);
 
-/// Appends `field`, quoted as CSV does when it holds the delimiter, a quote or a line break.
+/// Appends `field`, quoted as CSV does when it holds the delimiter, a quote or a line break. With
+/// the formula guard on (the default, see pare::set_formula_guard), a field a spreadsheet would
+/// run as a formula (first character = + - @, tab or carriage return) gets a leading apostrophe,
+/// as does one that already starts with an apostrophe followed by one of those, so reading it
+/// back (remove_formula_guard) gives the name exactly.
 void append_field(std::string& out, std::string_view field, char delimiter);
+
+/// Whether `field` needs the formula guard.
+bool needs_formula_guard(std::string_view field);
+/// Undoes the guard of a field read from a file: drops a leading apostrophe followed by one of
+/// = + - @ ' tab or carriage return.
+void remove_formula_guard(std::string& field);
 
 }  // namespace pare::internal
