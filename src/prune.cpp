@@ -2,6 +2,8 @@
 
 #include <algorithm>  // std::clamp, std::max, std::min
 #include <cmath>      // std::abs, std::sqrt
+#include <cstdio>     // std::snprintf
+#include <string>     // std::string
 
 #include "internal/buffer.h"
 #include "internal/gemm.h"
@@ -43,6 +45,19 @@ double exact_r(const float* a, const Moments& ma, const float* b, const Moments&
   // Rounding can put an exact copy at 1 + 2^-52; |r| <= 1 by definition, and --max-corr 1 must
   // keep copies whichever way the rounding falls.
   return std::clamp(s / (ma.norm * mb.norm), -1.0, 1.0);
+}
+
+// "512 KiB", "3.2 MiB", "1.5 GiB".
+std::string size_text(std::int64_t bytes) {
+  char text[32];
+  const auto b = static_cast<double>(bytes);
+  if (bytes < (1 << 20))
+    std::snprintf(text, sizeof text, "%.0f KiB", b / 1024);
+  else if (bytes < (std::int64_t{1} << 30))
+    std::snprintf(text, sizeof text, "%.1f MiB", b / (1 << 20));
+  else
+    std::snprintf(text, sizeof text, "%.1f GiB", b / (1 << 30));
+  return text;
 }
 
 }  // namespace
@@ -171,9 +186,9 @@ PruneResult prune_correlated(const ConstMatrixRef& m, std::span<const std::int64
       if (need > options.memory_budget)
         throw Error(ErrorKind::kUsage,
                     "correlation pruning needs its " + std::to_string(n_kept) + " kept features in memory (" +
-                        std::to_string(need >> 20) + " MiB with the block being compared), more than --memory allows (" +
-                        std::to_string(options.memory_budget >> 20) +
-                        " MiB); raise --memory, cap the kept set with --keep, or prune harder with a lower --max-corr");
+                        size_text(need) + " with the block being compared), more than --memory allows (" +
+                        size_text(options.memory_budget) +
+                        "); raise --memory, cap the kept set with --keep, or prune harder with a lower --max-corr");
     }
     std::vector<char> dropped(static_cast<std::size_t>(width), 0);
     if (n_kept > 0 && bounded) {

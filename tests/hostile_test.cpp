@@ -7,9 +7,11 @@
 #include <set>         // std::set
 #include <string>      // std::string
 #include <tuple>       // std::tuple
+#include <utility>     // std::pair
 #include <vector>      // std::vector
 
 #include <catch2/catch.hpp>
+#include <nlohmann/json.hpp>
 
 #include "internal/format.h"
 #include "internal/gzip.h"
@@ -225,4 +227,97 @@ TEST_CASE("hostile: names with delimiters, quotes, tabs, line breaks and formula
   INFO(a.err);
   REQUIRE(a.code == 0);
   REQUIRE(TempDir::read(dir.file("applied/reduced.csv")).find("'=SUM(A1)") != std::string::npos);
+}
+
+TEST_CASE("hostile: a loadings file edited after the plan was written is refused", "[hostile]") {
+  TempDir dir;
+  std::string csv = "sample,a,b,c,g\n";
+  for (int i = 0; i < 8; ++i)
+    csv += "s" + std::to_string(i) + "," + std::to_string(i) + "," + std::to_string((i * 7) % 5) + "," +
+           std::to_string((i * 3) % 4) + (i % 2 ? ",x\n" : ",y\n");
+  const std::string data = dir.write("d.csv", csv);
+  REQUIRE(run({"reduce", data, "--label", "g", "--components", "2", "--out", dir.file("fit"), "--quiet"}).code == 0);
+  // Change one digit of one loading: still a well-formed file, but not the one the plan names.
+  std::string loadings = TempDir::read(dir.file("fit/loadings.tsv"));
+  const std::size_t digit = loadings.find_first_of("123456789", loadings.find('\n') + 1);
+  loadings[digit] = loadings[digit] == '9' ? '8' : static_cast<char>(loadings[digit] + 1);
+  dir.write("fit/loadings.tsv", loadings);
+  const auto r = run({"apply", dir.file("fit/plan.json"), data, "--out", dir.file("o")});
+  require_one_error(r, 3);
+  REQUIRE(r.err.find("loadings.tsv") != std::string::npos);
+  REQUIRE(r.err.find("does not match the plan") != std::string::npos);
+  REQUIRE(!std::filesystem::exists(dir.file("o")));
+}
+
+TEST_CASE("determinism: every command writes the same bytes with 1, 2 and 4 threads and any --memory",
+          "[hostile]") {
+  TempDir dir;
+  // 90 samples x 400 features, labelled, with gaps and correlated pairs.
+  std::string csv = "sample";
+  for (int j = 0; j < 400; ++j) csv += ",f" + std::to_string(j);
+  csv += ",group\n";
+  std::uint64_t x = 99;
+  auto next = [&] {
+    x ^= x << 13, x ^= x >> 7, x ^= x << 17;
+    return static_cast<double>(x % 100000) / 1000.0;
+  };
+  for (int i = 0; i < 90; ++i) {
+    csv += "s" + std::to_string(i);
+    double previous = 0;
+    for (int j = 0; j < 400; ++j) {
+      double v = next() + (i % 3 == 0 && j < 30 ? 20 : 0);
+      if (j % 5 == 1) v = previous + next() / 50;
+      previous = v;
+      csv += ',';
+      csv += x % 37 == 0 ? std::string("NA") : std::to_string(v);
+    }
+    csv += i % 3 == 0 ? ",case\n" : ",control\n";
+  }
+  const std::string data = dir.write("d.csv", csv);
+  REQUIRE(run({"reduce", data, "--label", "group", "--keep", "20", "--components", "3", "--out", dir.file("fit"),
+               "--quiet"})
+              .code == 0);
+  const std::vector<std::vector<std::string>> commands = {
+      {"scan", data, "--label", "group"},
+      {"rank", data, "--label", "group", "--rank-by", "f"},
+      {"rank", data, "--label", "group", "--mi-estimator", "knn"},
+      {"reduce", data, "--label", "group", "--keep", "25", "--components", "4"},
+      {"reduce", data, "--label", "group", "--max-corr", "0.5", "--log2", "--scale", "--keep", "60", "--components", "2"},
+      {"project", data, "--label", "group", "--components", "5"},
+      {"apply", dir.file("fit/plan.json"), data},
+  };
+  // The run record (timings, command line) is the only thing allowed to differ.
+  auto comparable = [](const std::filesystem::path& file) {
+    const std::string text = TempDir::read(file.string());
+    if (file.filename() == "plan.json") {
+      auto plan = nlohmann::json::parse(text);
+      plan.erase("command_line");
+      for (auto& step : plan["steps"]) step.erase("seconds");
+      return plan.dump();
+    }
+    return text;
+  };
+  int tag = 0;
+  for (const auto& command : commands) {
+    INFO(command[0] << " " << command.back());
+    std::vector<std::string> folders;
+    for (const auto& [threads, memory] : {std::pair{"1", ""}, {"2", ""}, {"4", ""}, {"2", "48K"}, {"4", "100K"}}) {
+      auto args = command;
+      const std::string out = dir.file("run" + std::to_string(tag++));
+      args.insert(args.end(), {"--threads", threads, "--out", out, "--quiet"});
+      if (*memory) args.insert(args.end(), {"--memory", memory, "--cache-dir", dir.path()});
+      const auto r = run(args);
+      INFO("--threads " << threads << " --memory " << memory << ": " << r.err);
+      REQUIRE(r.code == 0);
+      folders.push_back(out);
+    }
+    for (const auto& entry : std::filesystem::directory_iterator(folders[0])) {
+      if (entry.path().filename() == "report.html") continue;  // shows the timings
+      const std::string first = comparable(entry.path());
+      for (std::size_t k = 1; k < folders.size(); ++k) {
+        INFO(entry.path().filename().string() << " vs run " << k);
+        REQUIRE(comparable(folders[k] + "/" + entry.path().filename().string()) == first);
+      }
+    }
+  }
 }
