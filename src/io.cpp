@@ -396,10 +396,15 @@ Header read_header(const std::string& path, std::string_view text, char delimite
     throw_input_error({path, 1, 1}, "the header line is empty",
                       "the first line must name the columns");
   Header h;
-  h.delimiter = delimiter ? delimiter : detect_delimiter(line);
-  split_fields_at(line, h.delimiter, h.fields, h.columns);
   h.data_begin = he < end ? he + 1 : end;
   h.first_data_line = 2 + std::count(begin, he, '\n');
+  // Checked before the header is split: a file that is one enormous line (a header of millions
+  // of names, or no line breaks at all) stops here, cheaply.
+  if (std::all_of(h.data_begin, end, [](char c) { return c == '\n' || c == '\r' || c == ' ' || c == '\t'; }))
+    throw_input_error({path, h.first_data_line, 1}, "no data lines after the header",
+                      "each sample (or, with rows=features, each feature) needs a line of values");
+  h.delimiter = delimiter ? delimiter : detect_delimiter(line);
+  split_fields_at(line, h.delimiter, h.fields, h.columns);
   return h;
 }
 
