@@ -233,7 +233,7 @@ TEST_CASE("hostile: a loadings file edited after the plan was written is refused
   TempDir dir;
   std::string csv = "sample,a,b,c,g\n";
   for (int i = 0; i < 8; ++i)
-    csv += "s" + std::to_string(i) + "," + std::to_string(i) + "," + std::to_string((i * 7) % 5) + "," +
+    csv += 's' + std::to_string(i) + ',' + std::to_string(i) + ',' + std::to_string((i * 7) % 5) + ',' +
            std::to_string((i * 3) % 4) + (i % 2 ? ",x\n" : ",y\n");
   const std::string data = dir.write("d.csv", csv);
   REQUIRE(run({"reduce", data, "--label", "g", "--components", "2", "--out", dir.file("fit"), "--quiet"}).code == 0);
@@ -262,7 +262,8 @@ TEST_CASE("determinism: every command writes the same bytes with 1, 2 and 4 thre
     return static_cast<double>(x % 100000) / 1000.0;
   };
   for (int i = 0; i < 90; ++i) {
-    csv += "s" + std::to_string(i);
+    csv += 's';
+    csv += std::to_string(i);
     double previous = 0;
     for (int j = 0; j < 400; ++j) {
       double v = next() + (i % 3 == 0 && j < 30 ? 20 : 0);
