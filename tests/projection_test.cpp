@@ -357,7 +357,7 @@ TEST_CASE("block Krylov and dense agree with the eigensolver on the Gram matrix"
              << ": Krylov " << krylov.iterations << " blocks, residual " << krylov.residual << " ("
              << krylov.precision << ")");
     REQUIRE(krylov.method == "block Krylov");
-    REQUIRE(krylov.precision == "double");  // n p < 2^27
+    REQUIRE(krylov.precision == "double");  // n p < 2^24
     REQUIRE(dense.method == "dense");
     REQUIRE(xk == xd);  // the same analysed matrix
     const Reference ref = gram_reference(xd, k);
