@@ -219,9 +219,17 @@ DemoFiles write_demo(const std::string& dir, std::uint64_t seed, const DemoScena
     std::string text = "feature\trole\tmodule\tcopy_of\tbatch_shift\n";
     for (std::int64_t j = 0; j < p; ++j) {
       const FeaturePlan& f = plan[static_cast<std::size_t>(j)];
-      text += name_of("TR", j, 5) + '\t' + role_name(f.role) + '\t' +
-              (f.module >= 0 ? "M" + std::to_string(f.module + 1) : std::string()) + '\t' +
-              (f.copy_of >= 0 ? name_of("TR", f.copy_of, 5) : std::string()) + '\t';
+      text += name_of("TR", j, 5);
+      text += '\t';
+      text += role_name(f.role);
+      text += '\t';
+      if (f.module >= 0) {
+        text += 'M';
+        text += std::to_string(f.module + 1);
+      }
+      text += '\t';
+      if (f.copy_of >= 0) text += name_of("TR", f.copy_of, 5);
+      text += '\t';
       internal::append_rounded(text, f.batch_shift, 3);
       text += '\n';
     }
