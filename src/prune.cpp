@@ -105,7 +105,13 @@ PruneResult prune_correlated(const ConstMatrixRef& m, std::span<const std::int64
   out.kept.assign(static_cast<std::size_t>(count), 0);
 
   std::vector<Moments> moments(static_cast<std::size_t>(count));
-  std::vector<float> rest_norm(static_cast<std::size_t>(count), 0.0f);  // |z_R|, rounded up
+  std::vector<float> rest_norm(static_cast<std::size_t>(count), 0.0f);   // |z_R|, rounded up
+  std::vector<float> rest_norm2(static_cast<std::size_t>(count), 0.0f);  // |z_R2|, rounded up
+  // A second look for the pairs the first cannot rule out: the next m rows too, so the rest is
+  // R2 = rows from 2m on. About 1% of unrelated pairs survive the first look; their full dot
+  // product (n rows) would cost as much as the whole first product, the second look m rows.
+  const Eigen::Index m2_rows = std::min<Eigen::Index>(n, 2 * m_rows);
+  const bool second_look = bounded && m2_rows < n;
   std::vector<std::int64_t> kept_positions;  // candidate positions of the kept features, in order
   // Their standardised columns, column-major n x kept, in a mapping that grows in place (appending
   // columns appends memory) and uses 2 MiB pages: large buffers reallocated per block would spend
@@ -177,6 +183,9 @@ PruneResult prune_correlated(const ConstMatrixRef& m, std::span<const std::int64
       double rest = 0;
       for (Eigen::Index i = m_rows; i < n; ++i) rest += static_cast<double>(zb(i, b)) * static_cast<double>(zb(i, b));
       rest_norm[static_cast<std::size_t>(start + b)] = static_cast<float>(std::sqrt(rest) * (1 + 1e-6));
+      double rest2 = 0;
+      for (Eigen::Index i = m2_rows; i < n; ++i) rest2 += static_cast<double>(zb(i, b)) * static_cast<double>(zb(i, b));
+      rest_norm2[static_cast<std::size_t>(start + b)] = static_cast<float>(std::sqrt(rest2) * (1 + 1e-6));
       release(start + b);
     }
     const auto n_kept = static_cast<Eigen::Index>(kept_positions.size());
@@ -202,19 +211,27 @@ PruneResult prune_correlated(const ConstMatrixRef& m, std::span<const std::int64
       // The bound's own rounding (m products in float) is within `margin`, so a pair is ruled out
       // only when its bound is below limit - 2 margin; the survivors are judged as without it.
       const float cut = static_cast<float>(limit - 2 * margin);
-      std::vector<float> kept_rest(static_cast<std::size_t>(n_kept));
-      for (Eigen::Index k = 0; k < n_kept; ++k)
-        kept_rest[static_cast<std::size_t>(k)] = rest_norm[static_cast<std::size_t>(kept_positions[static_cast<std::size_t>(k)])];
+      std::vector<float> kept_rest(static_cast<std::size_t>(n_kept)), kept_rest2(static_cast<std::size_t>(n_kept));
+      for (Eigen::Index k = 0; k < n_kept; ++k) {
+        const auto at = static_cast<std::size_t>(kept_positions[static_cast<std::size_t>(k)]);
+        kept_rest[static_cast<std::size_t>(k)] = rest_norm[at];
+        kept_rest2[static_cast<std::size_t>(k)] = rest_norm2[at];
+      }
 #pragma omp parallel for schedule(dynamic, 16) num_threads(threads)
       for (std::int64_t b = 0; b < width; ++b) {
         std::int64_t best = -1;
         float best_r = 0;
         std::vector<std::int64_t> near;
         const float rb = rest_norm[static_cast<std::size_t>(start + b)];
+        const float rb2 = rest_norm2[static_cast<std::size_t>(start + b)];
         const float* cb = c.col(b).data();
         const float* kr = kept_rest.data();
         auto judge = [&](Eigen::Index k) {
           if (std::abs(cb[k]) + kr[k] * rb < cut) return;
+          if (second_look) {
+            const float p2 = cb[k] + zk.col(k).segment(m_rows, m2_rows - m_rows).dot(zb.col(b).segment(m_rows, m2_rows - m_rows));
+            if (std::abs(p2) + kept_rest2[static_cast<std::size_t>(k)] * rb2 < cut) return;
+          }
           const float r = zk.col(k).dot(zb.col(b));
           if (std::abs(r) > std::abs(best_r) || best < 0) {
             best_r = r;
