@@ -133,8 +133,8 @@ def compare(pare_dir, py_dir, show=10):
                    if a in py_mi and b in py_mi and float(py_mi[a]) == float(py_mi[b]))
         out.append(f"  {ties:,} of the {len(differing):,} differing positions hold features whose MI is "
                    f"equal in exact arithmetic (the reference finds them from the tables: same "
-                   f"multisets of cells, bin totals and class totals) and which pare orders by the "
-                   f"rounding of its sum instead of by input order")
+                   f"multisets of cells, bin totals and class totals): ties the two sides break "
+                   f"differently (the definition: input order)")
         for name in sorted(ps - ys)[:show]:
             out.append(f"  only pare keeps {name}")
         for name in sorted(ys - ps)[:show]:

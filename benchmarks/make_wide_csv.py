@@ -45,7 +45,6 @@ planted (for bench_reduce.py: every step of `pare reduce` has something to do):
 
 import argparse
 import gzip
-import math
 import sys
 import time
 

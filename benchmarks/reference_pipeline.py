@@ -49,7 +49,7 @@ c), so two features whose tables have the same multisets of cells, bin totals an
 the same N have equal MI in exact arithmetic, while the rounded sums of their cell terms can differ
 in the last bits. Such features are given the same MI (the value of the first of them), so the
 stable sort keeps them in input order, as the definition asks ("score descending, ties in input
-order"). The 1,000 x 50,000 benchmark data hold 102 such pairs of features; without this, about
+order"). The 1,000 x 50,000 benchmark data hold 102 groups of such features; without this, about
 half of them come out in an order set by rounding.
 
 Prints one line per step; exits 1 on bad input.
@@ -278,11 +278,11 @@ def prune(x, candidates, limit, block):
                     dropped[b] = True
                     partner[start + b], partner_r[start + b] = who, exact_r(who, start + b)
                     continue
-                best, best_r = -1, 0.0
+                best = -1.0  # largest exact |r| above the limit, first in rank order on a tie
                 for k in np.flatnonzero(col > low):
                     r = exact_r(kept_pos[k], start + b)
                     if abs(r) > limit and abs(r) > best:
-                        best, best_r = abs(r), r
+                        best = abs(r)
                         partner[start + b], partner_r[start + b] = kept_pos[k], r
                 dropped[b] = best >= 0
             del c
