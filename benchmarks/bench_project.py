@@ -38,6 +38,9 @@ import time
 
 import numpy as np
 
+sys.path.insert(0, os.path.dirname(os.path.abspath(__file__)))
+from bench_common import load_average, time_report  # noqa: E402
+
 HERE = os.path.dirname(os.path.abspath(__file__))
 
 
@@ -77,28 +80,8 @@ def write_csv(path, x):
 def timed(cmd):
     """Runs cmd under /usr/bin/time -v; returns (result, wall s, cpu s, peak RSS bytes)."""
     res = subprocess.run(["/usr/bin/time", "-v"] + cmd, capture_output=True, text=True)
-    err = res.stderr
-
-    def field(name):
-        m = re.search(re.escape(name) + r":\s*(.+)", err)
-        return m.group(1).strip() if m else None
-
-    wall_text = field("Elapsed (wall clock) time (h:mm:ss or m:ss)")
-    parts = [float(t) for t in wall_text.split(":")] if wall_text else [math.nan]
-    wall = 0.0
-    for t in parts:
-        wall = wall * 60 + t
-    cpu = float(field("User time (seconds)") or "nan") + float(field("System time (seconds)") or "nan")
-    rss = int(field("Maximum resident set size (kbytes)") or "0") * 1024
+    wall, cpu, rss = time_report(res.stderr)
     return res, wall, cpu, rss
-
-
-def load_average():
-    try:
-        with open("/proc/loadavg") as f:
-            return " ".join(f.read().split()[:3])
-    except OSError:
-        return "?"
 
 
 def blas_info():

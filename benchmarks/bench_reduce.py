@@ -43,6 +43,9 @@ import subprocess
 import sys
 import time
 
+sys.path.insert(0, os.path.dirname(os.path.abspath(__file__)))
+from bench_common import load_average, time_report  # noqa: E402
+
 HERE = os.path.dirname(os.path.abspath(__file__))
 PY = "/usr/bin/python3"
 
@@ -65,26 +68,8 @@ def timed(cmd, log_path):
         rc = subprocess.run(["/usr/bin/time", "-v", "-o", time_path] + cmd, stdout=log,
                             stderr=subprocess.STDOUT).returncode
     with open(time_path) as f:
-        text = f.read()
-
-    def field(name):
-        m = re.search(re.escape(name) + r":\s*(.+)", text)
-        return m.group(1).strip() if m else None
-
-    wall = 0.0
-    for part in (field("Elapsed (wall clock) time (h:mm:ss or m:ss)") or "nan").split(":"):
-        wall = wall * 60 + float(part)
-    cpu = float(field("User time (seconds)") or "nan") + float(field("System time (seconds)") or "nan")
-    rss = int(field("Maximum resident set size (kbytes)") or "0") * 1024
+        wall, cpu, rss = time_report(f.read())
     return rc, wall, cpu, rss
-
-
-def load_average():
-    try:
-        with open("/proc/loadavg") as f:
-            return " ".join(f.read().split()[:3])
-    except OSError:
-        return "?"
 
 
 def read_tsv(path):
