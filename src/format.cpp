@@ -22,6 +22,15 @@ void append_shortest(std::string& out, T value) {
 
 }  // namespace
 
+char* write_number(char* p, float value) {
+  if (std::isnan(value)) {
+    p[0] = 'N';
+    p[1] = 'A';
+    return p + 2;
+  }
+  return std::to_chars(p, p + kNumberRoom, value).ptr;
+}
+
 void append_number(std::string& out, double value) { append_shortest(out, value); }
 void append_number(std::string& out, float value) { append_shortest(out, value); }
 

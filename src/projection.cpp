@@ -378,14 +378,26 @@ std::string loadings_tsv(const Eigen::MatrixXd& loadings, const std::vector<std:
   std::string out = "feature";
   for (Index c = 0; c < loadings.cols(); ++c) out += "\tPC" + std::to_string(c + 1);
   out += '\n';
-  for (Index j = 0; j < loadings.rows(); ++j) {
-    internal::append_field(out, names[static_cast<std::size_t>(j)], '\t');
-    for (Index c = 0; c < loadings.cols(); ++c) {
-      out += '\t';
-      internal::append_number(out, loadings(j, c));
+  // Pieces of lines formatted in parallel, joined in order.
+  constexpr Index kLines = 1024;
+  const Index pieces = (loadings.rows() + kLines - 1) / kLines;
+  std::vector<std::string> text(static_cast<std::size_t>(pieces));
+#pragma omp parallel for schedule(dynamic, 1) num_threads(internal::thread_count(0))
+  for (Index piece = 0; piece < pieces; ++piece) {
+    std::string& t = text[static_cast<std::size_t>(piece)];
+    for (Index j = piece * kLines; j < std::min(loadings.rows(), (piece + 1) * kLines); ++j) {
+      internal::append_field(t, names[static_cast<std::size_t>(j)], '\t');
+      for (Index c = 0; c < loadings.cols(); ++c) {
+        t += '\t';
+        internal::append_number(t, loadings(j, c));
+      }
+      t += '\n';
     }
-    out += '\n';
   }
+  std::size_t size = out.size();
+  for (const auto& t : text) size += t.size();
+  out.reserve(size);
+  for (const auto& t : text) out += t;
   return out;
 }
 

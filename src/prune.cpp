@@ -8,6 +8,7 @@
 #include "internal/buffer.h"
 #include "internal/gemm.h"
 #include "internal/omp.h"
+#include "internal/pair_screen.h"
 #include "internal/spill.h"
 #include "pare/error.h"
 #include "pare/progress.h"
@@ -78,16 +79,18 @@ PruneResult prune_correlated(const ConstMatrixRef& m, std::span<const std::int64
   // A cheaper first look. Split the samples into a subset S of m rows and the rest R. For
   // standardised columns a and b, Cauchy-Schwarz on R gives
   //   |r| = |a_S . b_S + a_R . b_R| <= |a_S . b_S| + |a_R| |b_R|,
-  // so the product over S alone (m/n of the work) rules out every pair whose bound stays below
-  // the threshold; only the pairs it cannot rule out get the full dot product. For unrelated
+  // so a product over S alone (m/n of the work, and in 8-bit codes with a rigorous allowance for
+  // their rounding: internal/pair_screen.h) rules out every pair whose bound stays below the
+  // threshold; only the pairs it cannot rule out get the full dot product. For unrelated
   // features |a_R| |b_R| is about 1 - m/n and a_S . b_S about sqrt(m)/n, so S is sized to leave
-  // a gap of five such standard deviations below the threshold: m/n = (1 - limit) +
-  // 5 sqrt((m/n)/n). Every sixth row for n = 1000 at 0.9. Rows are taken at a fixed stride, so
-  // samples sorted by group do not bias S.
+  // a gap of seven such standard deviations below the threshold: m/n = (1 - limit) +
+  // 7 sqrt((m/n)/n). Every fifth row for n = 1000 at 0.9 (five to nine standard deviations
+  // measured the same at 1,000 x 50,000: more rows cost the 8-bit product what fewer full
+  // products save). Rows are taken at a fixed stride, so samples sorted by group do not bias S.
   std::int64_t stride = 1;
   if (n >= 64 && limit > 0) {
     double f = 1 - limit;
-    for (int i = 0; i < 20; ++i) f = (1 - limit) + 5 * std::sqrt(f / static_cast<double>(n));
+    for (int i = 0; i < 20; ++i) f = (1 - limit) + 7 * std::sqrt(f / static_cast<double>(n));
     if (f < 0.6) stride = std::max<std::int64_t>(2, static_cast<std::int64_t>(1 / f));
   }
   // Permuted row order: the rows of S first. Dot products over all rows do not depend on it.
@@ -105,7 +108,6 @@ PruneResult prune_correlated(const ConstMatrixRef& m, std::span<const std::int64
   out.kept.assign(static_cast<std::size_t>(count), 0);
 
   std::vector<Moments> moments(static_cast<std::size_t>(count));
-  std::vector<float> rest_norm(static_cast<std::size_t>(count), 0.0f);   // |z_R|, rounded up
   std::vector<float> rest_norm2(static_cast<std::size_t>(count), 0.0f);  // |z_R2|, rounded up
   // A second look for the pairs the first cannot rule out: the next m rows too, so the rest is
   // R2 = rows from 2m on. About 1% of unrelated pairs survive the first look; their full dot
@@ -117,6 +119,11 @@ PruneResult prune_correlated(const ConstMatrixRef& m, std::span<const std::int64
   // columns appends memory) and uses 2 MiB pages: large buffers reallocated per block would spend
   // their time in page faults.
   internal::GrowableBuffer zk_memory, c_memory;
+  // The first look's codes of the block's candidates and of the kept features.
+  internal::ScreenBlock screen_block;
+  internal::ScreenKept screen_kept((m_rows + 3) / 4 * 4);
+  // |z_R2| of the kept features, in kept order, for the second look.
+  std::vector<float> kept_rest2;
 
   Matrix g_storage;
   // Under a memory budget the candidate block takes at most a sixteenth of it (the decisions do
@@ -172,6 +179,7 @@ PruneResult prune_correlated(const ConstMatrixRef& m, std::span<const std::int64
     const std::int64_t width = std::min(block, count - start);
     // Standardise the block: z = (x - mean) / norm, so z_a . z_b = r.
     Eigen::Map<Matrix> zb(zb_storage.data(), n, width);
+    if (bounded) screen_block.reset(m_rows, width);
 #pragma omp parallel for schedule(static) num_threads(threads)
     for (std::int64_t b = 0; b < width; ++b) {
       const float* x = col(start + b);
@@ -182,7 +190,7 @@ PruneResult prune_correlated(const ConstMatrixRef& m, std::span<const std::int64
         zb(i, b) = static_cast<float>((static_cast<double>(x[order[static_cast<std::size_t>(i)]]) - mo.mean) * scale);
       double rest = 0;
       for (Eigen::Index i = m_rows; i < n; ++i) rest += static_cast<double>(zb(i, b)) * static_cast<double>(zb(i, b));
-      rest_norm[static_cast<std::size_t>(start + b)] = static_cast<float>(std::sqrt(rest) * (1 + 1e-6));
+      if (bounded) screen_block.set(b, zb.col(b).data(), std::sqrt(rest));
       double rest2 = 0;
       for (Eigen::Index i = m2_rows; i < n; ++i) rest2 += static_cast<double>(zb(i, b)) * static_cast<double>(zb(i, b));
       rest_norm2[static_cast<std::size_t>(start + b)] = static_cast<float>(std::sqrt(rest2) * (1 + 1e-6));
@@ -201,57 +209,52 @@ PruneResult prune_correlated(const ConstMatrixRef& m, std::span<const std::int64
     }
     std::vector<char> dropped(static_cast<std::size_t>(width), 0);
     if (n_kept > 0 && bounded) {
-      c_memory.reserve(static_cast<std::size_t>(n_kept * width) * sizeof(float));
-      Eigen::Map<Matrix> c(reinterpret_cast<float*>(c_memory.data()), n_kept, width);  // over S only
+      // First look: the 8-bit bound over S (internal/pair_screen.h) for every pair, in tasks of
+      // 64 candidates that walk the kept set in chunks of 1,024 features (their codes stay in
+      // cache while the task's candidates pass over them).
       const Eigen::Map<const Matrix> zk(reinterpret_cast<const float*>(zk_memory.data()), n, n_kept);
-      using Rows = Eigen::Map<const Matrix, 0, Eigen::OuterStride<>>;
-      const Rows zk_s(zk.data(), m_rows, n_kept, Eigen::OuterStride<>(n));
-      const Rows zb_s(zb.data(), m_rows, width, Eigen::OuterStride<>(n));
-      internal::product_tn(zk_s, zb_s, c, threads);
-      // The bound's own rounding (m products in float) is within `margin`, so a pair is ruled out
-      // only when its bound is below limit - 2 margin; the survivors are judged as without it.
+      // The bound's own rounding is far inside `margin`, so a pair is ruled out only when its
+      // bound is below limit - 2 margin; the survivors are judged as without it.
       const float cut = static_cast<float>(limit - 2 * margin);
-      std::vector<float> kept_rest(static_cast<std::size_t>(n_kept)), kept_rest2(static_cast<std::size_t>(n_kept));
-      for (Eigen::Index k = 0; k < n_kept; ++k) {
-        const auto at = static_cast<std::size_t>(kept_positions[static_cast<std::size_t>(k)]);
-        kept_rest[static_cast<std::size_t>(k)] = rest_norm[at];
-        kept_rest2[static_cast<std::size_t>(k)] = rest_norm2[at];
-      }
-#pragma omp parallel for schedule(dynamic, 16) num_threads(threads)
-      for (std::int64_t b = 0; b < width; ++b) {
-        std::int64_t best = -1;
-        float best_r = 0;
+      constexpr Eigen::Index kTiles = 8, kChunk = 64;  // tiles of 8 candidates per task; groups of 16 per chunk
+      const Eigen::Index tiles = (width + internal::kScreenTile - 1) / internal::kScreenTile;
+      const Eigen::Index groups = screen_kept.groups();
+#pragma omp parallel for schedule(dynamic, 1) num_threads(threads)
+      for (Eigen::Index task = 0; task < (tiles + kTiles - 1) / kTiles; ++task) {
+        const Eigen::Index t0 = task * kTiles, t1 = std::min(tiles, t0 + kTiles);
+        std::vector<internal::ScreenSurvivors> survivors(static_cast<std::size_t>(t1 - t0));
+        for (Eigen::Index g0 = 0; g0 < groups; g0 += kChunk)
+          for (Eigen::Index t = t0; t < t1; ++t) {
+            const Eigen::Index first = t * internal::kScreenTile;
+            const auto tile_width = static_cast<int>(std::min<Eigen::Index>(internal::kScreenTile, width - first));
+            internal::screen_pairs(screen_kept, screen_block, cut, first, tile_width, g0,
+                                   std::min(groups, g0 + kChunk), survivors[static_cast<std::size_t>(t - t0)]);
+          }
         std::vector<std::int64_t> near;
-        const float rb = rest_norm[static_cast<std::size_t>(start + b)];
-        const float rb2 = rest_norm2[static_cast<std::size_t>(start + b)];
-        const float* cb = c.col(b).data();
-        const float* kr = kept_rest.data();
-        auto judge = [&](Eigen::Index k) {
-          if (std::abs(cb[k]) + kr[k] * rb < cut) return;
-          if (second_look) {
-            const float p2 = cb[k] + zk.col(k).segment(m_rows, m2_rows - m_rows).dot(zb.col(b).segment(m_rows, m2_rows - m_rows));
-            if (std::abs(p2) + kept_rest2[static_cast<std::size_t>(k)] * rb2 < cut) return;
+        for (Eigen::Index t = t0; t < t1; ++t)
+          for (int c = 0; c < internal::kScreenTile; ++c) {
+            const Eigen::Index b = t * internal::kScreenTile + c;
+            if (b >= width) break;
+            std::int64_t best = -1;
+            float best_r = 0;
+            near.clear();
+            const float rb2 = rest_norm2[static_cast<std::size_t>(start + b)];
+            for (const std::int32_t k : survivors[static_cast<std::size_t>(t - t0)][static_cast<std::size_t>(c)]) {
+              // Second look: the products over the next m rows too.
+              if (second_look) {
+                const float p2 = zk.col(k).head(m2_rows).dot(zb.col(b).head(m2_rows));
+                if (std::abs(p2) + kept_rest2[static_cast<std::size_t>(k)] * rb2 < cut) continue;
+              }
+              const float r = zk.col(k).dot(zb.col(b));
+              if (std::abs(r) > std::abs(best_r) || best < 0) {
+                best_r = r;
+                best = kept_positions[static_cast<std::size_t>(k)];
+              }
+              if (std::abs(r) > limit - margin) near.push_back(kept_positions[static_cast<std::size_t>(k)]);
+            }
+            if (best >= 0 && std::abs(best_r) > limit - margin)
+              dropped[static_cast<std::size_t>(b)] = decide(start + b, best, best_r, near);
           }
-          const float r = zk.col(k).dot(zb.col(b));
-          if (std::abs(r) > std::abs(best_r) || best < 0) {
-            best_r = r;
-            best = kept_positions[static_cast<std::size_t>(k)];
-          }
-          if (std::abs(r) > limit - margin) near.push_back(kept_positions[static_cast<std::size_t>(k)]);
-        };
-        // Almost every pair is ruled out: test 16 at a time without branches (the loop
-        // vectorises), and look at single pairs only in a group with a survivor.
-        constexpr Eigen::Index kGroup = 16;
-        Eigen::Index k = 0;
-        for (; k + kGroup <= n_kept; k += kGroup) {
-          bool any = false;
-          for (Eigen::Index g = k; g < k + kGroup; ++g) any |= std::abs(cb[g]) + kr[g] * rb >= cut;
-          if (any)
-            for (Eigen::Index g = k; g < k + kGroup; ++g) judge(g);
-        }
-        for (; k < n_kept; ++k) judge(k);
-        if (best >= 0 && std::abs(best_r) > limit - margin)
-          dropped[static_cast<std::size_t>(b)] = decide(start + b, best, best_r, near);
       }
     } else if (n_kept > 0) {
       c_memory.reserve(static_cast<std::size_t>(n_kept * width) * sizeof(float));
@@ -321,6 +324,10 @@ PruneResult prune_correlated(const ConstMatrixRef& m, std::span<const std::int64
     for (std::size_t t = 0; t < block_kept.size(); ++t) {
       zk.col(n_kept + static_cast<Eigen::Index>(t)) = zb.col(block_kept[t]);
       kept_positions.push_back(start + block_kept[t]);
+      if (bounded) {
+        screen_kept.append(screen_block, block_kept[t]);
+        kept_rest2.push_back(rest_norm2[static_cast<std::size_t>(start + block_kept[t])]);
+      }
       out.kept[static_cast<std::size_t>(start + block_kept[t])] = 1;
     }
     progress.add(width);

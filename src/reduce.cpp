@@ -4,9 +4,12 @@
 #include <chrono>     // std::chrono::steady_clock
 #include <cmath>      // std::log2, std::isnan, std::sqrt
 #include <cstdio>     // std::snprintf
+#include <cstring>    // std::memcpy
+#include <future>     // std::async
 #include <limits>     // std::numeric_limits
 #include <numeric>    // std::iota
 
+#include "internal/buffer.h"
 #include "internal/format.h"
 #include "internal/omp.h"
 #include "internal/spill.h"
@@ -400,10 +403,7 @@ std::string reduced_matrix_text(const FeatureTable& t, const std::vector<std::in
 void write_reduced_matrix(const FeatureTable& t, const std::vector<std::int64_t>& columns,
                           const std::vector<std::string>& names,
                           const std::function<void(std::string_view)>& sink) {
-  // Lines are formatted in parallel, a group of lines per task, and handed to `sink` in order.
-  // For rows=samples a group's values are first gathered row-major from the column-major matrix,
-  // 64 contiguous floats per column, so formatting does not jump a column's length per value.
-  constexpr Eigen::Index kGroup = 64;
+  constexpr Eigen::Index kGroup = 16;
   const char d = t.delimiter;
   const Eigen::Index n = t.values.rows();
   const auto k = static_cast<Eigen::Index>(columns.size());
@@ -439,56 +439,87 @@ void write_reduced_matrix(const FeatureTable& t, const std::vector<std::int64_t>
   }
   sink(header);
 
+  // Lines are formatted in parallel, kGroup lines per task, straight into reused buffers (numbers
+  // by std::to_chars, nothing appended through std::string), and a round of groups is handed to
+  // `sink` on another thread while the next round is formatted. For rows=samples a group's values
+  // are first gathered row-major from the column-major matrix, kGroup contiguous floats (one
+  // cache line) per column.
   const Eigen::Index lines = by_sample ? n : k;
   const Eigen::Index groups = (lines + kGroup - 1) / kGroup;
   const int threads = internal::thread_count(0);
-  const Eigen::Index batch = 4 * static_cast<Eigen::Index>(threads);  // groups formatted per round
-  std::vector<std::string> texts(static_cast<std::size_t>(batch));
-  for (Eigen::Index first = 0; first < groups; first += batch) {
-    const Eigen::Index count = std::min(batch, groups - first);
-#pragma omp parallel for schedule(dynamic, 1) num_threads(threads)
-    for (Eigen::Index g = 0; g < count; ++g) {
-      std::string& out = texts[static_cast<std::size_t>(g)];
-      out.clear();
-      const Eigen::Index begin = (first + g) * kGroup, end = std::min(lines, begin + kGroup);
-      if (by_sample) {
-        const Eigen::Index rows = end - begin;
-        std::vector<float> block(static_cast<std::size_t>(rows * k));  // row-major rows x k
-        const bool on_disk = internal::any_on_disk();
-        for (Eigen::Index c = 0; c < k; ++c) {
-          const float* x = t.values.col(columns[static_cast<std::size_t>(c)]).data() + begin;
-          for (Eigen::Index i = 0; i < rows; ++i) block[static_cast<std::size_t>(i * k + c)] = x[i];
-          if (on_disk) internal::release_pages(x, static_cast<std::size_t>(rows) * sizeof(float));
+  const Eigen::Index batch = 2 * static_cast<Eigen::Index>(threads);  // groups per round
+  struct Text {
+    internal::GrowableBuffer memory;
+    std::size_t size = 0;
+  };
+  std::vector<Text> texts(static_cast<std::size_t>(2 * batch));  // two rounds: one formatted, one written
+  const bool on_disk = internal::any_on_disk();
+  auto format_group = [&](Eigen::Index group, Text& text) {
+    text.size = 0;
+    auto room = [&](std::size_t bytes) {
+      if (text.size + bytes > text.memory.capacity()) text.memory.reserve(2 * (text.size + bytes));
+      return text.memory.data() + text.size;
+    };
+    auto put_field = [&](std::string_view field) {
+      std::string piece;
+      internal::append_field(piece, field, d);
+      std::memcpy(room(piece.size()), piece.data(), piece.size());
+      text.size += piece.size();
+    };
+    // One line of `count` numbers after its first field, all values written with a delimiter first.
+    auto put_numbers = [&](const float* x, Eigen::Index count, Eigen::Index step) {
+      char* p = room(static_cast<std::size_t>(count) * (internal::kNumberRoom + 1));
+      char* const begin = p;
+      for (Eigen::Index i = 0; i < count; ++i) {
+        *p++ = d;
+        p = internal::write_number(p, x[i * step]);
+      }
+      text.size += static_cast<std::size_t>(p - begin);
+    };
+    const Eigen::Index begin = group * kGroup, end = std::min(lines, begin + kGroup);
+    if (by_sample) {
+      const Eigen::Index rows = end - begin;
+      thread_local std::vector<float> block;  // rows x k, row-major
+      block.resize(static_cast<std::size_t>(rows * k));
+      for (Eigen::Index c = 0; c < k; ++c) {
+        const float* x = t.values.col(columns[static_cast<std::size_t>(c)]).data() + begin;
+        for (Eigen::Index i = 0; i < rows; ++i) block[static_cast<std::size_t>(i * k + c)] = x[i];
+        if (on_disk) internal::release_pages(x, static_cast<std::size_t>(rows) * sizeof(float));
+      }
+      for (Eigen::Index i = 0; i < rows; ++i) {
+        put_field(t.sample_ids[static_cast<std::size_t>(begin + i)]);
+        put_numbers(block.data() + i * k, k, 1);
+        if (t.has_labels()) {
+          *room(1) = d;
+          ++text.size;
+          put_field(t.labels[static_cast<std::size_t>(begin + i)]);
         }
-        for (Eigen::Index i = 0; i < rows; ++i) {
-          internal::append_field(out, t.sample_ids[static_cast<std::size_t>(begin + i)], d);
-          for (Eigen::Index c = 0; c < k; ++c) {
-            out += d;
-            internal::append_number(out, block[static_cast<std::size_t>(i * k + c)]);
-          }
-          if (t.has_labels()) {
-            out += d;
-            internal::append_field(out, t.labels[static_cast<std::size_t>(begin + i)], d);
-          }
-          out += '\n';
-        }
-      } else {
-        for (Eigen::Index c = begin; c < end; ++c) {
-          internal::append_field(out, names[static_cast<std::size_t>(c)], d);
-          const float* x = t.values.col(columns[static_cast<std::size_t>(c)]).data();
-          for (Eigen::Index i = 0; i < n; ++i) {
-            out += d;
-            internal::append_number(out, x[i]);
-          }
-          out += '\n';
-        }
+        *room(1) = '\n';
+        ++text.size;
+      }
+    } else {
+      for (Eigen::Index c = begin; c < end; ++c) {
+        put_field(names[static_cast<std::size_t>(c)]);
+        const float* x = t.values.col(columns[static_cast<std::size_t>(c)]).data();
+        put_numbers(x, n, 1);
+        *room(1) = '\n';
+        ++text.size;
+        if (on_disk) internal::release_column_span(t.values, columns[static_cast<std::size_t>(c)], columns[static_cast<std::size_t>(c)]);
       }
     }
-    if (internal::any_on_disk() && !by_sample)
-      for (Eigen::Index c = first * kGroup; c < std::min(k, (first + count) * kGroup); ++c)
-        internal::release_column_span(t.values, columns[static_cast<std::size_t>(c)], columns[static_cast<std::size_t>(c)]);
-    for (Eigen::Index g = 0; g < count; ++g) sink(texts[static_cast<std::size_t>(g)]);
+  };
+  std::future<void> writing;
+  for (Eigen::Index first = 0, round = 0; first < groups; first += batch, ++round) {
+    const Eigen::Index count = std::min(batch, groups - first);
+    Text* const set = texts.data() + (round % 2) * batch;
+#pragma omp parallel for schedule(dynamic, 1) num_threads(threads)
+    for (Eigen::Index g = 0; g < count; ++g) format_group(first + g, set[g]);
+    if (writing.valid()) writing.get();  // the previous round is written; its buffers are free
+    writing = std::async(std::launch::async, [&sink, set, count] {
+      for (Eigen::Index g = 0; g < count; ++g) sink(std::string_view(set[g].memory.data(), set[g].size));
+    });
   }
+  if (writing.valid()) writing.get();
 }
 
 }  // namespace pare

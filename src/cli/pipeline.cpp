@@ -9,6 +9,7 @@
 #include <nlohmann/json.hpp>
 
 #include "cli/text.h"
+#include "internal/omp.h"
 #include "internal/sha256.h"
 #include "internal/spill.h"
 #include "pare/error.h"
@@ -243,9 +244,11 @@ ReduceRun reduce_and_write(const InputOptions& input, const CommonOptions& commo
       if (budget.bytes > 0) budget.bytes = std::max<std::int64_t>(1, budget.bytes / 2);
       Columns kept;
       kept.allocate(run.table.n_samples(), static_cast<Eigen::Index>(r.kept.size()), budget);
+      const bool on_disk = run.table.values.on_disk();
+#pragma omp parallel for schedule(dynamic, 256) num_threads(internal::thread_count(common.threads)) if (!on_disk)
       for (std::size_t k = 0; k < r.kept.size(); ++k) {
         kept.col(static_cast<Eigen::Index>(k)) = run.table.values.col(r.kept[k]);
-        if (run.table.values.on_disk()) {
+        if (on_disk) {
           internal::release_column_span(run.table.values, r.kept[k], r.kept[k]);
           internal::release_column_span(kept, static_cast<Eigen::Index>(k), static_cast<Eigen::Index>(k));
         }

@@ -10,6 +10,12 @@ namespace pare::internal {
 void append_number(std::string& out, double value);
 /// Same for a float32 value (shortest float text, so 0.1f prints as 0.1).
 void append_number(std::string& out, float value);
+/// Room a number written by write_number can take ("-1.17549435e-38" and the like, with margin).
+inline constexpr std::size_t kNumberRoom = 24;
+/// Writes the shortest text that reads back as exactly `value` ("NA" for NaN) at `p`, which must
+/// have kNumberRoom bytes of room, and returns the end of what it wrote.
+char* write_number(char* p, float value);
+
 /// Appends `value` with `digits` significant digits (for people, not for round trips).
 void append_rounded(std::string& out, double value, int digits);
 

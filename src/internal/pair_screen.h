@@ -1,0 +1,105 @@
+// The first look of correlation pruning: a bound on |r| for every (kept, candidate) pair from an
+// 8-bit product over a subset of the samples, so that only the pairs the bound cannot rule out
+// get a full product.
+//
+// For standardised columns a and b (unit norm), split the samples into the subset S and the rest
+// R. Cauchy-Schwarz on R gives
+//   |r| = |a_S . b_S + a_R . b_R| <= |a_S . b_S| + |a_R| |b_R|.
+// a_S is stored as s_a q_a + e_a with q_a in [-127, 127] (s_a = max |a_S| / 127) and e_a the
+// rounding left over, so
+//   a_S . b_S = s_a s_b (q_a . q_b) + (s_a q_a) . e_b + e_a . b_S,
+// and the last two terms are at most |s_a q_a| |e_b| + |e_a| |b_S| (Cauchy-Schwarz again). The
+// integer product q_a . q_b is exact, so
+//   |r| <= s_a s_b |q_a . q_b| + |s_a q_a| |e_b| + |e_a| |b_S| + |a_R| |b_R|
+// holds without any assumption on the data; the norms are computed in double and rounded up. On
+// processors with AVX-512 VNNI the integer products run 64 per instruction, four times the float
+// rate; elsewhere a portable loop computes the same integers, so the pairs found never depend on
+// the processor.
+#pragma once
+
+#include <Eigen/Core>
+
+#include <array>    // std::array
+#include <cstdint>  // std::int32_t, std::uint8_t
+#include <vector>   // std::vector
+
+#include "internal/buffer.h"
+
+namespace pare::internal {
+
+/// The quantities of one feature the bound needs.
+struct ScreenNorms {
+  float scale = 0;   ///< s = max |z_S| / 127
+  float coded = 0;   ///< |s q|, rounded up
+  float error = 0;   ///< |z_S - s q|, rounded up
+  float subset = 0;  ///< |z_S|, rounded up
+  float rest = 0;    ///< |z_R|, rounded up
+  std::int32_t sum = 0;  ///< sum of q
+};
+
+/// Codes `z` (the m subset values of a standardised column) into `q` (m values in [-127, 127],
+/// then zeros up to `padded`); `rest` is |z_R|, passed through. Returns the norms.
+ScreenNorms code_subset(const float* z, Eigen::Index m, Eigen::Index padded, double rest, std::int8_t* q);
+
+/// The candidates of one block: each one's codes plus 128 (so unsigned), a row of `padded` bytes.
+class ScreenBlock {
+ public:
+  void reset(Eigen::Index rows, Eigen::Index count);
+  /// Codes candidate `b` (thread-safe for distinct b).
+  void set(Eigen::Index b, const float* z, double rest);
+  Eigen::Index padded() const { return padded_; }
+  const std::uint8_t* row(Eigen::Index b) const { return codes_.data() + b * padded_; }
+  const ScreenNorms& norms(Eigen::Index b) const { return norms_[static_cast<std::size_t>(b)]; }
+
+ private:
+  Eigen::Index rows_ = 0, padded_ = 0;
+  std::vector<std::uint8_t> codes_;
+  std::vector<ScreenNorms> norms_;
+};
+
+/// The kept features, interleaved in groups of 16 for the product: for group g and sample quad t,
+/// 64 bytes hold the 4 codes of samples 4t..4t+3 of each of the group's 16 features.
+class ScreenKept {
+ public:
+  explicit ScreenKept(Eigen::Index padded) : padded_(padded) {}
+  /// Appends candidate `b` of `block`.
+  void append(const ScreenBlock& block, Eigen::Index b);
+  Eigen::Index size() const { return size_; }
+  Eigen::Index groups() const { return (size_ + 15) / 16; }
+  Eigen::Index quads() const { return padded_ / 4; }
+  const std::int8_t* group(Eigen::Index g) const {
+    return reinterpret_cast<const std::int8_t*>(codes_.data()) + g * 16 * padded_;
+  }
+  // Per feature, padded to whole groups (zeros past size()).
+  const float* scale() const { return scale_.data(); }
+  const float* coded() const { return coded_.data(); }
+  const float* error() const { return error_.data(); }
+  const float* rest() const { return rest_.data(); }
+  const std::int32_t* offset() const { return offset_.data(); }  ///< 128 sum q
+
+ private:
+  Eigen::Index padded_, size_ = 0;
+  GrowableBuffer codes_;  // whole groups; new memory is zero
+  std::vector<float> scale_, coded_, error_, rest_;
+  std::vector<std::int32_t> offset_;
+};
+
+/// At most this many candidates per call of screen_pairs.
+inline constexpr int kScreenTile = 8;
+/// Kept positions, for each candidate of a tile, whose bound is not below `cut`.
+using ScreenSurvivors = std::array<std::vector<std::int32_t>, kScreenTile>;
+
+/// Appends to `out[c]`, in increasing order, every kept feature k in groups [g0, g1) whose bound
+/// with candidate `first + c` (c < width <= kScreenTile) is not below `cut`.
+void screen_pairs(const ScreenKept& kept, const ScreenBlock& block, float cut, Eigen::Index first, int width,
+                  Eigen::Index g0, Eigen::Index g1, ScreenSurvivors& out);
+
+/// The bound for kept feature k and candidate b (what screen_pairs compares with `cut`, up to the
+/// rounding of its last float operations).
+float screen_bound(const ScreenKept& kept, Eigen::Index k, const ScreenBlock& block, Eigen::Index b);
+
+/// Whether screen_pairs uses the VNNI kernel; `allow = false` forces the portable loop (for tests).
+bool screen_uses_vnni();
+void screen_allow_vnni(bool allow);
+
+}  // namespace pare::internal

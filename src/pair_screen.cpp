@@ -1,0 +1,221 @@
+#include "internal/pair_screen.h"
+
+#include <algorithm>  // std::max, std::clamp, std::fill
+#include <atomic>     // std::atomic
+#include <cmath>      // std::abs, std::lrint, std::sqrt
+#include <cstring>    // std::memcpy
+
+#if defined(__x86_64__) && (defined(__GNUC__) || defined(__clang__))
+#include <immintrin.h>
+#define PARE_SCREEN_VNNI 1
+#endif
+
+namespace pare::internal {
+
+namespace {
+
+// Rounds a norm up so that its float is never below the exact value.
+float up(double norm) { return static_cast<float>(norm * (1 + 1e-6)); }
+
+// Bytes of one group of 16 features.
+std::size_t group_bytes(Eigen::Index padded) { return static_cast<std::size_t>(16 * padded); }
+
+std::atomic<bool> vnni_allowed{true};
+
+}  // namespace
+
+ScreenNorms code_subset(const float* z, Eigen::Index m, Eigen::Index padded, double rest, std::int8_t* q) {
+  ScreenNorms out;
+  out.rest = up(rest);
+  float top = 0;
+  for (Eigen::Index i = 0; i < m; ++i) top = std::max(top, std::abs(z[i]));
+  std::fill(q, q + padded, std::int8_t{0});
+  if (!(top > 0)) return out;
+  const float s = top / 127.0f;
+  double coded = 0, error = 0, subset = 0;
+  for (Eigen::Index i = 0; i < m; ++i) {
+    const auto c = static_cast<std::int32_t>(std::clamp(std::lrint(z[i] / s), -127L, 127L));
+    q[i] = static_cast<std::int8_t>(c);
+    out.sum += c;
+    const double v = static_cast<double>(s) * c, zi = z[i];
+    coded += v * v;
+    error += (zi - v) * (zi - v);
+    subset += zi * zi;
+  }
+  out.scale = s;
+  out.coded = up(std::sqrt(coded));
+  out.error = up(std::sqrt(error));
+  out.subset = up(std::sqrt(subset));
+  return out;
+}
+
+void ScreenBlock::reset(Eigen::Index rows, Eigen::Index count) {
+  rows_ = rows;
+  padded_ = (rows + 3) / 4 * 4;
+  codes_.resize(static_cast<std::size_t>(padded_ * count));
+  norms_.assign(static_cast<std::size_t>(count), ScreenNorms{});
+}
+
+void ScreenBlock::set(Eigen::Index b, const float* z, double rest) {
+  auto* row = codes_.data() + b * padded_;
+  auto* q = reinterpret_cast<std::int8_t*>(row);
+  norms_[static_cast<std::size_t>(b)] = code_subset(z, rows_, padded_, rest, q);
+  for (Eigen::Index i = 0; i < padded_; ++i) row[i] = static_cast<std::uint8_t>(q[i] + 128);
+}
+
+void ScreenKept::append(const ScreenBlock& block, Eigen::Index b) {
+  const Eigen::Index k = size_++;
+  const Eigen::Index g = k / 16, lane = k % 16;
+  // Whole pairs of groups, so the kernel can always read two.
+  const Eigen::Index pairs_of_groups = (g + 2) / 2 * 2;
+  codes_.reserve(static_cast<std::size_t>(pairs_of_groups) * group_bytes(padded_));
+  const auto slots = static_cast<std::size_t>(pairs_of_groups * 16);
+  if (scale_.size() < slots) {
+    for (auto* v : {&scale_, &coded_, &error_, &rest_}) v->resize(slots, 0.0f);
+    offset_.resize(slots, 0);
+  }
+  auto* to = reinterpret_cast<std::int8_t*>(codes_.data()) + g * 16 * padded_ + lane * 4;
+  const std::uint8_t* from = block.row(b);
+  for (Eigen::Index t = 0; t < padded_ / 4; ++t)
+    for (int i = 0; i < 4; ++i) to[t * 64 + i] = static_cast<std::int8_t>(from[4 * t + i] - 128);
+  const ScreenNorms& nb = block.norms(b);
+  const auto at = static_cast<std::size_t>(k);
+  scale_[at] = nb.scale;
+  coded_[at] = nb.coded;
+  error_[at] = nb.error;
+  rest_[at] = nb.rest;
+  offset_[at] = 128 * nb.sum;
+}
+
+namespace {
+
+// The bound for kept feature k and a candidate, given the integer product of the kept codes with
+// the candidate's codes plus 128.
+inline float bound_of(const ScreenKept& kept, Eigen::Index k, std::int32_t product, const ScreenNorms& nb) {
+  const float p = static_cast<float>(product - kept.offset()[k]) * (kept.scale()[k] * nb.scale);
+  const float slack = kept.coded()[k] * nb.error + kept.error()[k] * nb.subset + kept.rest()[k] * nb.rest;
+  return std::abs(p) + slack;
+}
+
+// The integer product of kept feature k's codes with candidate b's.
+std::int32_t product_of(const ScreenKept& kept, Eigen::Index k, const ScreenBlock& block, Eigen::Index b) {
+  const std::int8_t* codes = kept.group(k / 16) + (k % 16) * 4;
+  const std::uint8_t* u = block.row(b);
+  std::int32_t product = 0;
+  for (Eigen::Index t = 0; t < kept.quads(); ++t)
+    for (int i = 0; i < 4; ++i) product += static_cast<std::int32_t>(u[4 * t + i]) * codes[t * 64 + i];
+  return product;
+}
+
+void screen_portable(const ScreenKept& kept, const ScreenBlock& block, float cut, Eigen::Index first, int width,
+                     Eigen::Index g0, Eigen::Index g1, ScreenSurvivors& out) {
+  for (int c = 0; c < width; ++c)
+    for (Eigen::Index k = g0 * 16; k < std::min(kept.size(), g1 * 16); ++k)
+      if (!(bound_of(kept, k, product_of(kept, k, block, first + c), block.norms(first + c)) < cut))
+        out[static_cast<std::size_t>(c)].push_back(static_cast<std::int32_t>(k));
+}
+
+#ifdef PARE_SCREEN_VNNI
+
+// Two groups of 16 kept features against up to 8 candidates per pass: 16 accumulators, each
+// sample quad two loads and eight broadcasts for 16 VNNI products of 64 byte pairs.
+__attribute__((target("avx512f,avx512bw,avx512vnni"))) void screen_vnni(const ScreenKept& kept,
+                                                                         const ScreenBlock& block, float cut,
+                                                                         Eigen::Index first, int width, Eigen::Index g0,
+                                                                         Eigen::Index g1, ScreenSurvivors& out) {
+  const Eigen::Index quads = kept.quads();
+  const std::uint8_t* rows[kScreenTile];
+  __m512 scale_b[kScreenTile], error_b[kScreenTile], subset_b[kScreenTile], rest_b[kScreenTile];
+  for (int c = 0; c < kScreenTile; ++c) {
+    const Eigen::Index b = first + std::min(c, width - 1);
+    rows[c] = block.row(b);
+    const ScreenNorms& nb = block.norms(b);
+    scale_b[c] = _mm512_set1_ps(nb.scale);
+    error_b[c] = _mm512_set1_ps(nb.error);
+    subset_b[c] = _mm512_set1_ps(nb.subset);
+    rest_b[c] = _mm512_set1_ps(nb.rest);
+  }
+  const __m512 cut_v = _mm512_set1_ps(cut);
+  const __m512 sign = _mm512_set1_ps(-0.0f);
+  for (Eigen::Index g = g0; g < g1; g += 2) {
+    __m512i acc[2][kScreenTile];
+    for (auto& h : acc)
+      for (auto& a : h) a = _mm512_setzero_si512();
+    const auto* k0 = reinterpret_cast<const __m512i*>(kept.group(g));
+    const auto* k1 = reinterpret_cast<const __m512i*>(kept.group(g + 1));
+    for (Eigen::Index t = 0; t < quads; ++t) {
+      const __m512i a = _mm512_loadu_si512(k0 + t), b = _mm512_loadu_si512(k1 + t);
+      for (int c = 0; c < kScreenTile; ++c) {
+        std::int32_t quad;
+        std::memcpy(&quad, rows[c] + 4 * t, sizeof quad);
+        const __m512i u = _mm512_set1_epi32(quad);
+        acc[0][c] = _mm512_dpbusd_epi32(acc[0][c], u, a);
+        acc[1][c] = _mm512_dpbusd_epi32(acc[1][c], u, b);
+      }
+    }
+    for (int h = 0; h < 2 && g + h < g1; ++h) {
+      const Eigen::Index base = (g + h) * 16;
+      const Eigen::Index valid = std::min<Eigen::Index>(16, kept.size() - base);
+      if (valid <= 0) break;
+      const auto lanes = static_cast<__mmask16>((1u << valid) - 1u);
+      const __m512i offset = _mm512_loadu_si512(kept.offset() + base);
+      const __m512 scale_k = _mm512_loadu_ps(kept.scale() + base);
+      const __m512 coded_k = _mm512_loadu_ps(kept.coded() + base);
+      const __m512 error_k = _mm512_loadu_ps(kept.error() + base);
+      const __m512 rest_k = _mm512_loadu_ps(kept.rest() + base);
+      for (int c = 0; c < width; ++c) {
+        const __m512 p = _mm512_mul_ps(_mm512_cvtepi32_ps(_mm512_sub_epi32(acc[h][c], offset)),
+                                       _mm512_mul_ps(scale_k, scale_b[c]));
+        __m512 slack = _mm512_mul_ps(coded_k, error_b[c]);
+        slack = _mm512_add_ps(slack, _mm512_mul_ps(error_k, subset_b[c]));
+        slack = _mm512_add_ps(slack, _mm512_mul_ps(rest_k, rest_b[c]));
+        const __m512 limit = _mm512_sub_ps(cut_v, slack);
+        const __mmask16 below = _mm512_cmp_ps_mask(_mm512_andnot_ps(sign, p), limit, _CMP_LT_OQ);
+        auto hit = static_cast<unsigned>(static_cast<__mmask16>(~below & lanes));
+        while (hit) {
+          const int lane = __builtin_ctz(hit);
+          hit &= hit - 1;
+          out[static_cast<std::size_t>(c)].push_back(static_cast<std::int32_t>(base + lane));
+        }
+      }
+    }
+  }
+}
+
+bool cpu_has_vnni() {
+  static const bool has = __builtin_cpu_supports("avx512f") && __builtin_cpu_supports("avx512bw") &&
+                          __builtin_cpu_supports("avx512vnni");
+  return has;
+}
+
+#endif
+
+}  // namespace
+
+bool screen_uses_vnni() {
+#ifdef PARE_SCREEN_VNNI
+  return vnni_allowed.load(std::memory_order_relaxed) && cpu_has_vnni();
+#else
+  return false;
+#endif
+}
+
+void screen_allow_vnni(bool allow) { vnni_allowed.store(allow); }
+
+float screen_bound(const ScreenKept& kept, Eigen::Index k, const ScreenBlock& block, Eigen::Index b) {
+  return bound_of(kept, k, product_of(kept, k, block, b), block.norms(b));
+}
+
+void screen_pairs(const ScreenKept& kept, const ScreenBlock& block, float cut, Eigen::Index first, int width,
+                  Eigen::Index g0, Eigen::Index g1, ScreenSurvivors& out) {
+  if (width <= 0 || g1 <= g0) return;
+#ifdef PARE_SCREEN_VNNI
+  if (screen_uses_vnni()) {
+    screen_vnni(kept, block, cut, first, width, g0, g1, out);
+    return;
+  }
+#endif
+  screen_portable(kept, block, cut, first, width, g0, g1, out);
+}
+
+}  // namespace pare::internal
