@@ -137,22 +137,47 @@ __attribute__((target("avx512f,avx512bw,avx512vnni"))) void screen_vnni(const Sc
   }
   const __m512 cut_v = _mm512_set1_ps(cut);
   const __m512 sign = _mm512_set1_ps(-0.0f);
+  // Named accumulators (an array of them makes GCC 12 copy registers around every product).
+  const std::uint8_t *r0 = rows[0], *r1 = rows[1], *r2 = rows[2], *r3 = rows[3], *r4 = rows[4], *r5 = rows[5],
+                     *r6 = rows[6], *r7 = rows[7];
+  auto quad_of = [](const std::uint8_t* row, Eigen::Index t) {
+    std::int32_t quad;
+    std::memcpy(&quad, row + 4 * t, sizeof quad);
+    return _mm512_set1_epi32(quad);
+  };
   for (Eigen::Index g = g0; g < g1; g += 2) {
-    __m512i acc[2][kScreenTile];
-    for (auto& h : acc)
-      for (auto& a : h) a = _mm512_setzero_si512();
+    __m512i a0 = _mm512_setzero_si512(), a1 = a0, a2 = a0, a3 = a0, a4 = a0, a5 = a0, a6 = a0, a7 = a0;
+    __m512i b0 = a0, b1 = a0, b2 = a0, b3 = a0, b4 = a0, b5 = a0, b6 = a0, b7 = a0;
     const auto* k0 = reinterpret_cast<const __m512i*>(kept.group(g));
     const auto* k1 = reinterpret_cast<const __m512i*>(kept.group(g + 1));
     for (Eigen::Index t = 0; t < quads; ++t) {
-      const __m512i a = _mm512_loadu_si512(k0 + t), b = _mm512_loadu_si512(k1 + t);
-      for (int c = 0; c < kScreenTile; ++c) {
-        std::int32_t quad;
-        std::memcpy(&quad, rows[c] + 4 * t, sizeof quad);
-        const __m512i u = _mm512_set1_epi32(quad);
-        acc[0][c] = _mm512_dpbusd_epi32(acc[0][c], u, a);
-        acc[1][c] = _mm512_dpbusd_epi32(acc[1][c], u, b);
-      }
+      const __m512i x = _mm512_loadu_si512(k0 + t), y = _mm512_loadu_si512(k1 + t);
+      __m512i u = quad_of(r0, t);
+      a0 = _mm512_dpbusd_epi32(a0, u, x);
+      b0 = _mm512_dpbusd_epi32(b0, u, y);
+      u = quad_of(r1, t);
+      a1 = _mm512_dpbusd_epi32(a1, u, x);
+      b1 = _mm512_dpbusd_epi32(b1, u, y);
+      u = quad_of(r2, t);
+      a2 = _mm512_dpbusd_epi32(a2, u, x);
+      b2 = _mm512_dpbusd_epi32(b2, u, y);
+      u = quad_of(r3, t);
+      a3 = _mm512_dpbusd_epi32(a3, u, x);
+      b3 = _mm512_dpbusd_epi32(b3, u, y);
+      u = quad_of(r4, t);
+      a4 = _mm512_dpbusd_epi32(a4, u, x);
+      b4 = _mm512_dpbusd_epi32(b4, u, y);
+      u = quad_of(r5, t);
+      a5 = _mm512_dpbusd_epi32(a5, u, x);
+      b5 = _mm512_dpbusd_epi32(b5, u, y);
+      u = quad_of(r6, t);
+      a6 = _mm512_dpbusd_epi32(a6, u, x);
+      b6 = _mm512_dpbusd_epi32(b6, u, y);
+      u = quad_of(r7, t);
+      a7 = _mm512_dpbusd_epi32(a7, u, x);
+      b7 = _mm512_dpbusd_epi32(b7, u, y);
     }
+    const __m512i acc[2][kScreenTile] = {{a0, a1, a2, a3, a4, a5, a6, a7}, {b0, b1, b2, b3, b4, b5, b6, b7}};
     for (int h = 0; h < 2 && g + h < g1; ++h) {
       const Eigen::Index base = (g + h) * 16;
       const Eigen::Index valid = std::min<Eigen::Index>(16, kept.size() - base);

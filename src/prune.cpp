@@ -75,6 +75,9 @@ PruneResult prune_correlated(const ConstMatrixRef& m, std::span<const std::int64
   // of the threshold are decided in double.
   const double margin = 1e-6 + 2.0 * static_cast<double>(n) * 5.96e-8;
   const int threads = internal::thread_count(options.threads);
+  // The bound's own rounding is far inside `margin`, so a pair is ruled out only when its bound is
+  // below limit - 2 margin; the survivors are judged as without it.
+  const float cut = static_cast<float>(limit - 2 * margin);
 
   // A cheaper first look. Split the samples into a subset S of m rows and the rest R. For
   // standardised columns a and b, Cauchy-Schwarz on R gives
@@ -213,9 +216,6 @@ PruneResult prune_correlated(const ConstMatrixRef& m, std::span<const std::int64
       // 64 candidates that walk the kept set in chunks of 1,024 features (their codes stay in
       // cache while the task's candidates pass over them).
       const Eigen::Map<const Matrix> zk(reinterpret_cast<const float*>(zk_memory.data()), n, n_kept);
-      // The bound's own rounding is far inside `margin`, so a pair is ruled out only when its
-      // bound is below limit - 2 margin; the survivors are judged as without it.
-      const float cut = static_cast<float>(limit - 2 * margin);
       constexpr Eigen::Index kTiles = 8, kChunk = 64;  // tiles of 8 candidates per task; groups of 16 per chunk
       const Eigen::Index tiles = (width + internal::kScreenTile - 1) / internal::kScreenTile;
       const Eigen::Index groups = screen_kept.groups();
@@ -279,22 +279,59 @@ PruneResult prune_correlated(const ConstMatrixRef& m, std::span<const std::int64
       }
     }
     // Within the block the walk is sequential: a survivor is compared with the block's earlier
-    // survivors through the block's own Gram matrix.
-    g_storage.resize(width, width);
-    Eigen::Map<Matrix> g(g_storage.data(), width, width);
-    internal::product_tn(zb, zb, g, threads);
+    // survivors, through the block's own Gram matrix or, with the bound, through full products of
+    // the pairs the bound does not rule out (screened all at once here, so the walk stays cheap).
+    std::vector<std::vector<std::int32_t>> inner;  // bounded: for b, the earlier j whose bound reaches cut
+    if (bounded) {
+      internal::ScreenKept codes(screen_block.padded());
+      for (Eigen::Index b = 0; b < width; ++b) codes.append(screen_block, b);
+      inner.assign(static_cast<std::size_t>(width), {});
+      const Eigen::Index tiles = (width + internal::kScreenTile - 1) / internal::kScreenTile;
+#pragma omp parallel for schedule(dynamic, 1) num_threads(threads)
+      for (Eigen::Index t = 0; t < tiles; ++t) {
+        const Eigen::Index first = t * internal::kScreenTile;
+        const auto tile_width = static_cast<int>(std::min<Eigen::Index>(internal::kScreenTile, width - first));
+        internal::ScreenSurvivors found;
+        internal::screen_pairs(codes, screen_block, cut, first, tile_width, 0, (first + tile_width + 15) / 16, found);
+        for (int c = 0; c < tile_width; ++c)
+          for (const std::int32_t j : found[static_cast<std::size_t>(c)])
+            if (j < first + c) inner[static_cast<std::size_t>(first + c)].push_back(j);
+      }
+    } else {
+      g_storage.resize(width, width);
+      Eigen::Map<Matrix> g(g_storage.data(), width, width);
+      internal::product_tn(zb, zb, g, threads);
+    }
+    // The block's kept candidates that b is compared with, and their float r.
     std::vector<Eigen::Index> block_kept;
+    std::vector<std::pair<Eigen::Index, float>> compared;
+    auto compare = [&](std::int64_t b) {
+      compared.clear();
+      if (!bounded) {
+        for (const Eigen::Index j : block_kept) compared.emplace_back(j, g_storage(j, b));
+        return;
+      }
+      // block_kept and inner[b] both ascend: their intersection.
+      const auto& near_b = inner[static_cast<std::size_t>(b)];
+      auto it = near_b.begin();
+      for (const Eigen::Index j : block_kept) {
+        while (it != near_b.end() && *it < j) ++it;
+        if (it == near_b.end()) break;
+        if (*it == j) compared.emplace_back(j, zb.col(j).dot(zb.col(b)));
+      }
+    };
     for (std::int64_t b = 0; b < width; ++b) {
       if (options.max_kept > 0 && static_cast<std::int64_t>(kept_positions.size() + block_kept.size()) >= options.max_kept)
         break;
       out.examined = start + b + 1;
+      compare(b);
       if (dropped[static_cast<std::size_t>(b)]) {
         // Already dropped by an earlier block's feature; name the most correlated kept feature,
         // whichever block it is in (earlier rank wins a tie), so the name does not depend on the
         // block size.
         const auto ci = static_cast<std::size_t>(start + b);
-        for (const Eigen::Index j : block_kept) {
-          if (std::abs(g(j, b)) < std::abs(out.r[ci]) - margin) continue;
+        for (const auto& [j, g] : compared) {
+          if (std::abs(g) < std::abs(out.r[ci]) - margin) continue;
           const double r = exact(start + j, start + b);
           if (std::abs(r) > std::abs(out.r[ci])) {
             out.r[ci] = r;
@@ -306,8 +343,7 @@ PruneResult prune_correlated(const ConstMatrixRef& m, std::span<const std::int64
       std::int64_t best = -1;
       float best_r = 0;
       std::vector<std::int64_t> near;
-      for (const Eigen::Index j : block_kept) {
-        const float r = g(j, b);
+      for (const auto& [j, r] : compared) {
         if (std::abs(r) > std::abs(best_r) || best < 0) {
           best_r = r;
           best = start + j;
