@@ -49,18 +49,24 @@ ScreenNorms code_subset(const float* z, Eigen::Index m, Eigen::Index padded, dou
   return out;
 }
 
-void ScreenBlock::reset(Eigen::Index rows, Eigen::Index count) {
+void ScreenBlock::reset(Eigen::Index rows, Eigen::Index count, Eigen::Index rows2) {
   rows_ = rows;
   padded_ = (rows + 3) / 4 * 4;
+  rows2_ = rows2;
+  padded2_ = (rows2 + 63) / 64 * 64;
   codes_.resize(static_cast<std::size_t>(padded_ * count));
+  codes2_.resize(static_cast<std::size_t>(padded2_ * count));
   norms_.assign(static_cast<std::size_t>(count), ScreenNorms{});
+  norms2_.assign(static_cast<std::size_t>(count), ScreenNorms{});
 }
 
-void ScreenBlock::set(Eigen::Index b, const float* z, double rest) {
+void ScreenBlock::set(Eigen::Index b, const float* z, double rest, double rest2) {
   auto* row = codes_.data() + b * padded_;
   auto* q = reinterpret_cast<std::int8_t*>(row);
   norms_[static_cast<std::size_t>(b)] = code_subset(z, rows_, padded_, rest, q);
   for (Eigen::Index i = 0; i < padded_; ++i) row[i] = static_cast<std::uint8_t>(q[i] + 128);
+  if (rows2_ > 0)
+    norms2_[static_cast<std::size_t>(b)] = code_subset(z + rows_, rows2_, padded2_, rest2, codes2_.data() + b * padded2_);
 }
 
 void ScreenKept::append(const ScreenBlock& block, Eigen::Index b) {
@@ -78,6 +84,11 @@ void ScreenKept::append(const ScreenBlock& block, Eigen::Index b) {
   const std::uint8_t* from = block.row(b);
   for (Eigen::Index t = 0; t < padded_ / 4; ++t)
     for (int i = 0; i < 4; ++i) to[t * 64 + i] = static_cast<std::int8_t>(from[4 * t + i] - 128);
+  if (block.padded2() > 0) {
+    padded2_ = block.padded2();
+    codes2_.insert(codes2_.end(), block.row2(b), block.row2(b) + padded2_);
+    norms2_.push_back(block.norms2(b));
+  }
   const ScreenNorms& nb = block.norms(b);
   const auto at = static_cast<std::size_t>(k);
   scale_[at] = nb.scale;
@@ -89,10 +100,15 @@ void ScreenKept::append(const ScreenBlock& block, Eigen::Index b) {
 
 namespace {
 
+// s_k s_b (q_k . q_b) from the integer product of the kept codes with the candidate's plus 128.
+inline float signed_product(const ScreenKept& kept, Eigen::Index k, std::int32_t product, const ScreenNorms& nb) {
+  return static_cast<float>(product - kept.offset()[k]) * (kept.scale()[k] * nb.scale);
+}
+
 // The bound for kept feature k and a candidate, given the integer product of the kept codes with
 // the candidate's codes plus 128.
 inline float bound_of(const ScreenKept& kept, Eigen::Index k, std::int32_t product, const ScreenNorms& nb) {
-  const float p = static_cast<float>(product - kept.offset()[k]) * (kept.scale()[k] * nb.scale);
+  const float p = signed_product(kept, k, product, nb);
   const float slack = kept.coded()[k] * nb.error + kept.error()[k] * nb.subset + kept.rest()[k] * nb.rest;
   return std::abs(p) + slack;
 }
@@ -110,9 +126,12 @@ std::int32_t product_of(const ScreenKept& kept, Eigen::Index k, const ScreenBloc
 void screen_portable(const ScreenKept& kept, const ScreenBlock& block, float cut, Eigen::Index first, int width,
                      Eigen::Index g0, Eigen::Index g1, ScreenSurvivors& out) {
   for (int c = 0; c < width; ++c)
-    for (Eigen::Index k = g0 * 16; k < std::min(kept.size(), g1 * 16); ++k)
-      if (!(bound_of(kept, k, product_of(kept, k, block, first + c), block.norms(first + c)) < cut))
-        out[static_cast<std::size_t>(c)].push_back(static_cast<std::int32_t>(k));
+    for (Eigen::Index k = g0 * 16; k < std::min(kept.size(), g1 * 16); ++k) {
+      const ScreenNorms& nb = block.norms(first + c);
+      const std::int32_t product = product_of(kept, k, block, first + c);
+      if (!(bound_of(kept, k, product, nb) < cut))
+        out[static_cast<std::size_t>(c)].push_back(ScreenHit{static_cast<std::int32_t>(k), signed_product(kept, k, product, nb)});
+    }
 }
 
 #ifdef PARE_SCREEN_VNNI
@@ -197,10 +216,14 @@ __attribute__((target("avx512f,avx512bw,avx512vnni"))) void screen_vnni(const Sc
         const __m512 limit = _mm512_sub_ps(cut_v, slack);
         const __mmask16 below = _mm512_cmp_ps_mask(_mm512_andnot_ps(sign, p), limit, _CMP_LT_OQ);
         auto hit = static_cast<unsigned>(static_cast<__mmask16>(~below & lanes));
-        while (hit) {
-          const int lane = __builtin_ctz(hit);
-          hit &= hit - 1;
-          out[static_cast<std::size_t>(c)].push_back(static_cast<std::int32_t>(base + lane));
+        if (hit) {
+          alignas(64) float products[16];
+          _mm512_store_ps(products, p);
+          while (hit) {
+            const int lane = __builtin_ctz(hit);
+            hit &= hit - 1;
+            out[static_cast<std::size_t>(c)].push_back(ScreenHit{static_cast<std::int32_t>(base + lane), products[lane]});
+          }
         }
       }
     }
@@ -226,6 +249,19 @@ bool screen_uses_vnni() {
 }
 
 void screen_allow_vnni(bool allow) { vnni_allowed.store(allow); }
+
+float screen_second_bound(const ScreenKept& kept, const ScreenBlock& block, Eigen::Index b, const ScreenHit& hit) {
+  const Eigen::Index k = hit.k;
+  const std::int8_t* x = kept.row2(k);
+  const std::int8_t* y = block.row2(b);
+  std::int32_t product = 0;
+  for (Eigen::Index i = 0; i < block.padded2(); ++i) product += static_cast<std::int32_t>(x[i]) * y[i];
+  const ScreenNorms &n1 = block.norms(b), &n2k = kept.norms2(k), &n2b = block.norms2(b);
+  const float p = hit.product + static_cast<float>(product) * (n2k.scale * n2b.scale);
+  const float slack = kept.coded()[k] * n1.error + kept.error()[k] * n1.subset + n2k.coded * n2b.error +
+                      n2k.error * n2b.subset + n2k.rest * n2b.rest;
+  return std::abs(p) + slack;
+}
 
 float screen_bound(const ScreenKept& kept, Eigen::Index k, const ScreenBlock& block, Eigen::Index b) {
   return bound_of(kept, k, product_of(kept, k, block, b), block.norms(b));

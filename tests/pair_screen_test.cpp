@@ -73,7 +73,7 @@ Standardised standardise(const std::vector<std::vector<double>>& cols) {
   return s;
 }
 
-double rest_norm(const std::vector<double>& z, Eigen::Index m) {
+double rest_norm(const std::vector<double>& z, Eigen::Index m) {  // |z| over rows m..n
   double s = 0;
   for (std::size_t i = static_cast<std::size_t>(m); i < z.size(); ++i) s += z[i] * z[i];
   return std::sqrt(s);
@@ -111,7 +111,8 @@ TEST_CASE("pair screen: the 8-bit bound is never below |r|, and the kernels agre
   // Every cut: the survivors are exactly the pairs whose bound reaches it (up to the last float
   // roundings), the same with the VNNI kernel (where the processor has it) and the portable loop.
   for (float cut : {0.3f, 0.6f, 0.8f, 0.9f, 0.95f}) {
-    std::vector<ScreenSurvivors> found(2);
+    std::vector<std::int64_t> found[2];  // candidate * 1000 + kept
+    std::vector<float> products[2];
     for (int path = 0; path < 2; ++path) {
       pare::internal::screen_allow_vnni(path == 0);
       for (Eigen::Index first = 0; first < count; first += pare::internal::kScreenTile) {
@@ -121,25 +122,66 @@ TEST_CASE("pair screen: the 8-bit bound is never below |r|, and the kernels agre
         pare::internal::screen_pairs(kept, block, cut, first, width, 0, 3, tile);
         pare::internal::screen_pairs(kept, block, cut, first, width, 3, kept.groups(), tile);
         for (int c = 0; c < width; ++c)
-          for (const std::int32_t k : tile[static_cast<std::size_t>(c)]) found[static_cast<std::size_t>(path)][0].push_back(static_cast<std::int32_t>((first + c) * 1000 + k));
+          for (const auto& hit : tile[static_cast<std::size_t>(c)]) {
+            found[path].push_back((first + c) * 1000 + hit.k);
+            products[path].push_back(hit.product);
+          }
       }
     }
     pare::internal::screen_allow_vnni(true);
     INFO("cut " << cut << (pare::internal::screen_uses_vnni() ? " (VNNI kernel)" : " (portable loop only)"));
-    REQUIRE(found[0][0] == found[1][0]);
+    REQUIRE(found[0] == found[1]);
+    REQUIRE(products[0] == products[1]);
     std::size_t expected = 0, at = 0;
     for (int b = 0; b < count; ++b)
       for (int k = 0; k < count; ++k) {
         const float bound = pare::internal::screen_bound(kept, k, block, b);
-        const bool listed = at < found[1][0].size() && found[1][0][at] == b * 1000 + k;
+        const bool listed = at < found[1].size() && found[1][at] == b * 1000 + k;
         if (listed) ++at;
         if (std::abs(bound - cut) < 1e-5f) continue;  // too close to call from outside
         REQUIRE(listed == (bound >= cut));
         expected += bound >= cut;
       }
-    REQUIRE(at == found[1][0].size());
+    REQUIRE(at == found[1].size());
     REQUIRE(expected > 0);
   }
+}
+
+TEST_CASE("pair screen: the second look's bound over S and S2 is never below |r|", "[prune]") {
+  const Eigen::Index n = 400, m = 57, m2 = 70;  // S: rows 0..56, S2: rows 57..126
+  const int count = 60;
+  const Standardised s = standardise(columns(n, count, 29));
+  ScreenBlock block;
+  block.reset(m, count, m2);
+  for (int b = 0; b < count; ++b) {
+    const auto& z = s.zd[static_cast<std::size_t>(b)];
+    block.set(b, s.z[static_cast<std::size_t>(b)].data(), rest_norm(z, m), rest_norm(z, m + m2));
+  }
+  ScreenKept kept(block.padded());
+  for (int b = 0; b < count; ++b) kept.append(block, b);
+  std::int64_t pairs = 0, tighter = 0;
+  for (Eigen::Index first = 0; first < count; first += pare::internal::kScreenTile) {
+    const int width = static_cast<int>(std::min<Eigen::Index>(pare::internal::kScreenTile, count - first));
+    ScreenSurvivors tile;
+    pare::internal::screen_pairs(kept, block, -1.0f, first, width, 0, kept.groups(), tile);  // every pair
+    for (int c = 0; c < width; ++c) {
+      const Eigen::Index b = first + c;
+      REQUIRE(tile[static_cast<std::size_t>(c)].size() == static_cast<std::size_t>(count));
+      for (const auto& hit : tile[static_cast<std::size_t>(c)]) {
+        double r = 0;
+        for (Eigen::Index i = 0; i < n; ++i) r += s.zd[static_cast<std::size_t>(hit.k)][static_cast<std::size_t>(i)] * s.zd[static_cast<std::size_t>(b)][static_cast<std::size_t>(i)];
+        const float first_bound = pare::internal::screen_bound(kept, hit.k, block, b);
+        const float second = pare::internal::screen_second_bound(kept, block, b, hit);
+        INFO("kept " << hit.k << ", candidate " << b << ", |r| " << std::abs(r) << ", bounds " << first_bound << ", " << second);
+        REQUIRE(second >= std::abs(r) - 1e-6);
+        ++pairs;
+        tighter += second < first_bound;
+      }
+    }
+  }
+  REQUIRE(pairs == count * count);
+  // Looking at more rows tightens the bound for most pairs.
+  REQUIRE(tighter > pairs / 2);
 }
 
 TEST_CASE("pair screen: constant and all-zero subsets code to zero with zero allowances", "[prune]") {

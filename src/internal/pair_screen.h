@@ -42,19 +42,27 @@ struct ScreenNorms {
 ScreenNorms code_subset(const float* z, Eigen::Index m, Eigen::Index padded, double rest, std::int8_t* q);
 
 /// The candidates of one block: each one's codes plus 128 (so unsigned), a row of `padded` bytes.
+/// With a second look, also the codes of the next `rows2` samples S2 (signed, a row of `padded2`
+/// bytes), for the pairs the first look cannot rule out: the same bound over S and S2 with
+/// Cauchy-Schwarz on the rest R2 only.
 class ScreenBlock {
  public:
-  void reset(Eigen::Index rows, Eigen::Index count);
-  /// Codes candidate `b` (thread-safe for distinct b).
-  void set(Eigen::Index b, const float* z, double rest);
+  void reset(Eigen::Index rows, Eigen::Index count, Eigen::Index rows2 = 0);
+  /// Codes candidate `b` (thread-safe for distinct b) from its standardised column `z` (at least
+  /// rows + rows2 values): `rest` is |z| over every row past S, `rest2` over every row past S2.
+  void set(Eigen::Index b, const float* z, double rest, double rest2 = 0);
   Eigen::Index padded() const { return padded_; }
+  Eigen::Index padded2() const { return padded2_; }
   const std::uint8_t* row(Eigen::Index b) const { return codes_.data() + b * padded_; }
+  const std::int8_t* row2(Eigen::Index b) const { return codes2_.data() + b * padded2_; }
   const ScreenNorms& norms(Eigen::Index b) const { return norms_[static_cast<std::size_t>(b)]; }
+  const ScreenNorms& norms2(Eigen::Index b) const { return norms2_[static_cast<std::size_t>(b)]; }
 
  private:
-  Eigen::Index rows_ = 0, padded_ = 0;
+  Eigen::Index rows_ = 0, padded_ = 0, rows2_ = 0, padded2_ = 0;
   std::vector<std::uint8_t> codes_;
-  std::vector<ScreenNorms> norms_;
+  std::vector<std::int8_t> codes2_;
+  std::vector<ScreenNorms> norms_, norms2_;
 };
 
 /// The kept features, interleaved in groups of 16 for the product: for group g and sample quad t,
@@ -62,7 +70,7 @@ class ScreenBlock {
 class ScreenKept {
  public:
   explicit ScreenKept(Eigen::Index padded) : padded_(padded) {}
-  /// Appends candidate `b` of `block`.
+  /// Appends candidate `b` of `block` (with its second-look codes when `block` has them).
   void append(const ScreenBlock& block, Eigen::Index b);
   Eigen::Index size() const { return size_; }
   Eigen::Index groups() const { return (size_ + 15) / 16; }
@@ -76,18 +84,27 @@ class ScreenKept {
   const float* error() const { return error_.data(); }
   const float* rest() const { return rest_.data(); }
   const std::int32_t* offset() const { return offset_.data(); }  ///< 128 sum q
+  const std::int8_t* row2(Eigen::Index k) const { return codes2_.data() + k * padded2_; }
+  const ScreenNorms& norms2(Eigen::Index k) const { return norms2_[static_cast<std::size_t>(k)]; }
 
  private:
-  Eigen::Index padded_, size_ = 0;
+  Eigen::Index padded_, size_ = 0, padded2_ = 0;
   GrowableBuffer codes_;  // whole groups; new memory is zero
   std::vector<float> scale_, coded_, error_, rest_;
   std::vector<std::int32_t> offset_;
+  std::vector<std::int8_t> codes2_;
+  std::vector<ScreenNorms> norms2_;
 };
 
 /// At most this many candidates per call of screen_pairs.
 inline constexpr int kScreenTile = 8;
-/// Kept positions, for each candidate of a tile, whose bound is not below `cut`.
-using ScreenSurvivors = std::array<std::vector<std::int32_t>, kScreenTile>;
+/// A pair the first look cannot rule out: the kept position and s_k s_b (q_k . q_b).
+struct ScreenHit {
+  std::int32_t k;
+  float product;
+};
+/// For each candidate of a tile, the pairs whose bound is not below `cut`.
+using ScreenSurvivors = std::array<std::vector<ScreenHit>, kScreenTile>;
 
 /// Appends to `out[c]`, in increasing order, every kept feature k in groups [g0, g1) whose bound
 /// with candidate `first + c` (c < width <= kScreenTile) is not below `cut`.
@@ -97,6 +114,11 @@ void screen_pairs(const ScreenKept& kept, const ScreenBlock& block, float cut, E
 /// The bound for kept feature k and candidate b (what screen_pairs compares with `cut`, up to the
 /// rounding of its last float operations).
 float screen_bound(const ScreenKept& kept, Eigen::Index k, const ScreenBlock& block, Eigen::Index b);
+
+/// The bound for a pair the first look kept (`hit`), over S and S2 with Cauchy-Schwarz on the rest
+/// past S2: |product + s2_k s2_b (q2_k . q2_b)| plus the coding allowances of S and S2 plus
+/// |z_k,R2| |z_b,R2|.
+float screen_second_bound(const ScreenKept& kept, const ScreenBlock& block, Eigen::Index b, const ScreenHit& hit);
 
 /// Whether screen_pairs uses the VNNI kernel; `allow = false` forces the portable loop (for tests).
 bool screen_uses_vnni();
