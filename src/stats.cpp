@@ -11,36 +11,64 @@ namespace pare {
 
 namespace {
 
+// Sums in kLanes interleaved partial sums (value i goes to lane i % kLanes), combined in a fixed
+// order at the end: the compiler can then keep them in vector registers (one running sum would
+// serialise every addition), and the result still does not depend on anything but the values.
+constexpr int kLanes = 8;
+
+double combine(const double (&lane)[kLanes]) {
+  return ((lane[0] + lane[1]) + (lane[2] + lane[3])) + ((lane[4] + lane[5]) + (lane[6] + lane[7]));
+}
+
 template <typename T>
 ColumnStats stats_of(std::span<const T> values) {
   ColumnStats s;
   constexpr double kNaN = std::numeric_limits<double>::quiet_NaN();
-  double sum = 0;
-  double lo = std::numeric_limits<double>::infinity();
-  double hi = -lo;
+  constexpr double kInf = std::numeric_limits<double>::infinity();
+  double sums[kLanes] = {}, lows[kLanes], highs[kLanes];
+  std::int64_t counts[kLanes] = {};
+  std::fill(lows, lows + kLanes, kInf);
+  std::fill(highs, highs + kLanes, -kInf);
+  const std::size_t size = values.size();
+  const T* data = values.data();
+  auto add = [&](int l, T value) {
+    const bool seen = !std::isnan(value);
+    const double x = seen ? static_cast<double>(value) : 0.0;
+    sums[l] += x;
+    counts[l] += seen;
+    lows[l] = seen && x < lows[l] ? x : lows[l];
+    highs[l] = seen && x > highs[l] ? x : highs[l];
+  };
+  std::size_t i = 0;
+  for (; i + kLanes <= size; i += kLanes)
+    for (int l = 0; l < kLanes; ++l) add(l, data[i + static_cast<std::size_t>(l)]);
+  for (int l = 0; i < size; ++i, ++l) add(l, data[i]);
+  double lo = kInf, hi = -kInf;
   std::int64_t n = 0;
-  for (const T v : values) {
-    if (std::isnan(v)) continue;
-    const auto x = static_cast<double>(v);
-    sum += x;
-    lo = std::min(lo, x);
-    hi = std::max(hi, x);
-    ++n;
+  for (int l = 0; l < kLanes; ++l) {
+    lo = std::min(lo, lows[l]);
+    hi = std::max(hi, highs[l]);
+    n += counts[l];
   }
   s.n = n;
-  s.missing = static_cast<std::int64_t>(values.size()) - n;
+  s.missing = static_cast<std::int64_t>(size) - n;
   if (n == 0) {
     s.mean = s.variance = s.min = s.max = kNaN;
     return s;
   }
-  const double mean = sum / static_cast<double>(n);
-  double squares = 0, deviations = 0;
-  for (const T v : values) {
-    if (std::isnan(v)) continue;
-    const double d = static_cast<double>(v) - mean;
-    squares += d * d;
-    deviations += d;
-  }
+  const double mean = combine(sums) / static_cast<double>(n);
+  double square_lanes[kLanes] = {}, deviation_lanes[kLanes] = {};
+  auto deviate = [&](int l, T value) {
+    const bool seen = !std::isnan(value);
+    const double d = seen ? static_cast<double>(value) - mean : 0.0;
+    square_lanes[l] += d * d;
+    deviation_lanes[l] += d;
+  };
+  i = 0;
+  for (; i + kLanes <= size; i += kLanes)
+    for (int l = 0; l < kLanes; ++l) deviate(l, data[i + static_cast<std::size_t>(l)]);
+  for (int l = 0; i < size; ++i, ++l) deviate(l, data[i]);
+  const double squares = combine(square_lanes), deviations = combine(deviation_lanes);
   s.mean = mean;
   s.min = lo;
   s.max = hi;
