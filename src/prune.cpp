@@ -209,8 +209,11 @@ PruneResult prune_correlated(const ConstMatrixRef& m, std::span<const std::int64
     }
     const auto n_kept = static_cast<Eigen::Index>(kept_positions.size());
     if (options.memory_budget > 0) {
-      // The kept set is compared with every later candidate, so it must stay in memory.
-      const std::int64_t need = (n_kept + width) * n * static_cast<std::int64_t>(sizeof(float));
+      // The kept set is compared with every later candidate, so it must stay in memory: its codes
+      // with the bound, else its standardised columns.
+      const std::int64_t per_kept = bounded ? screen_block.padded() + screen_block.padded2()
+                                            : n * static_cast<std::int64_t>(sizeof(float));
+      const std::int64_t need = n_kept * per_kept + width * n * static_cast<std::int64_t>(sizeof(float));
       if (need > options.memory_budget)
         throw Error(ErrorKind::kUsage,
                     "correlation pruning needs its " + std::to_string(n_kept) + " kept features in memory (" +
@@ -223,7 +226,6 @@ PruneResult prune_correlated(const ConstMatrixRef& m, std::span<const std::int64
       // First look: the 8-bit bound over S (internal/pair_screen.h) for every pair, in tasks of
       // 64 candidates that walk the kept set in chunks of 1,024 features (their codes stay in
       // cache while the task's candidates pass over them).
-      const Eigen::Map<const Matrix> zk(reinterpret_cast<const float*>(zk_memory.data()), n, n_kept);
       constexpr Eigen::Index kTiles = 8, kChunk = 64;  // tiles of 8 candidates per task; groups of 16 per chunk
       const Eigen::Index tiles = (width + internal::kScreenTile - 1) / internal::kScreenTile;
       const Eigen::Index groups = screen_kept.groups();
@@ -238,27 +240,29 @@ PruneResult prune_correlated(const ConstMatrixRef& m, std::span<const std::int64
             internal::screen_pairs(screen_kept, screen_block, cut, first, tile_width, g0,
                                    std::min(groups, g0 + kChunk), survivors[static_cast<std::size_t>(t - t0)]);
           }
-        std::vector<std::int64_t> near;
         for (Eigen::Index t = t0; t < t1; ++t)
           for (int c = 0; c < internal::kScreenTile; ++c) {
             const Eigen::Index b = t * internal::kScreenTile + c;
             if (b >= width) break;
+            // The few pairs both looks leave are decided by their exact r (double, from the data):
+            // the kept feature of largest |r| above the threshold, the first in rank order on a tie.
             std::int64_t best = -1;
-            float best_r = 0;
-            near.clear();
+            double best_r = 0;
             for (const internal::ScreenHit& hit : survivors[static_cast<std::size_t>(t - t0)][static_cast<std::size_t>(c)]) {
               // Second look: the 8-bit products over the next rows too.
               if (second_look && internal::screen_second_bound(screen_kept, screen_block, b, hit) < cut) continue;
-              const Eigen::Index k = hit.k;
-              const float r = zk.col(k).dot(zb.col(b));
-              if (std::abs(r) > std::abs(best_r) || best < 0) {
+              const std::int64_t kept_at = kept_positions[static_cast<std::size_t>(hit.k)];
+              const double r = exact(kept_at, start + b);
+              if (std::abs(r) > limit && (best < 0 || std::abs(r) > std::abs(best_r))) {
+                best = kept_at;
                 best_r = r;
-                best = kept_positions[static_cast<std::size_t>(k)];
               }
-              if (std::abs(r) > limit - margin) near.push_back(kept_positions[static_cast<std::size_t>(k)]);
             }
-            if (best >= 0 && std::abs(best_r) > limit - margin)
-              dropped[static_cast<std::size_t>(b)] = decide(start + b, best, best_r, near);
+            if (best >= 0) {
+              out.partner[static_cast<std::size_t>(start + b)] = best;
+              out.r[static_cast<std::size_t>(start + b)] = best_r;
+              dropped[static_cast<std::size_t>(b)] = 1;
+            }
           }
       }
     } else if (n_kept > 0) {
@@ -358,14 +362,18 @@ PruneResult prune_correlated(const ConstMatrixRef& m, std::span<const std::int64
       if (best >= 0 && std::abs(best_r) > limit - margin && decide(start + b, best, best_r, near)) continue;
       block_kept.push_back(b);
     }
-    // Append the block's survivors to the kept set (the mapping grows in place).
+    // Append the block's survivors to the kept set: their codes with the bound, else their
+    // standardised columns (the mapping grows in place).
     const auto new_kept = n_kept + static_cast<Eigen::Index>(block_kept.size());
-    zk_memory.reserve(static_cast<std::size_t>(new_kept * n) * sizeof(float));
-    Eigen::Map<Matrix> zk(reinterpret_cast<float*>(zk_memory.data()), n, new_kept);
+    if (!bounded) zk_memory.reserve(static_cast<std::size_t>(new_kept * n) * sizeof(float));
     for (std::size_t t = 0; t < block_kept.size(); ++t) {
-      zk.col(n_kept + static_cast<Eigen::Index>(t)) = zb.col(block_kept[t]);
+      if (bounded) {
+        screen_kept.append(screen_block, block_kept[t]);
+      } else {
+        Eigen::Map<Matrix> zk(reinterpret_cast<float*>(zk_memory.data()), n, new_kept);
+        zk.col(n_kept + static_cast<Eigen::Index>(t)) = zb.col(block_kept[t]);
+      }
       kept_positions.push_back(start + block_kept[t]);
-      if (bounded) screen_kept.append(screen_block, block_kept[t]);
       out.kept[static_cast<std::size_t>(start + block_kept[t])] = 1;
     }
     progress.add(width);
