@@ -382,6 +382,35 @@ TEST_CASE("block Krylov and dense agree with the eigensolver on the Gram matrix"
   }
 }
 
+TEST_CASE("a wide matrix past 2^24 cells runs block Krylov on its float Gram matrix", "[projection]") {
+  // 300 x 56,000 (n p > 2^24: float products) with K + oversample = 30, so n <= 16 blocks: the
+  // n x n Gram matrix is formed once from float products (each within about 3e-6 relative) and
+  // the final Rayleigh-Ritz step is in double. Reference: the dense path on the same data (the
+  // eigensolver on X X^T formed in double; oversample 300 forces it). Tolerances: the float
+  // Gram matrix perturbs the Krylov space by about 1e-6 and Krylov stops at residuals of 3e-5 x
+  // theta_1 in float mode, so loadings agree to 1e-4; singular values come from the double
+  // Rayleigh-Ritz step, second order in those errors, relative to the largest: 1e-6 relative for
+  // the small trailing ones (sigma_20 is about 1/60 of sigma_1 here; measured 4e-8).
+  const Index n = 300, p = 56000, k = 20;
+  const pare::Matrix data = decaying(n, p, 21);
+  pare::Matrix xg = data, xd = data;
+  pare::ProjectionOptions o;
+  o.components = k;
+  const pare::Projection gram = pare::truncated_pca(xg, o);
+  o.oversample = 300;
+  const pare::Projection dense = pare::truncated_pca(xd, o);
+  INFO("Gram path: " << gram.iterations << " blocks, residual " << gram.residual);
+  REQUIRE(gram.method == "block Krylov on the Gram matrix");
+  REQUIRE(gram.precision == "float");
+  REQUIRE(dense.method == "dense");
+  for (Index c = 0; c < k; ++c) {
+    INFO("sigma" << c + 1 << ": Gram path " << gram.singular_values(c) << ", dense " << dense.singular_values(c));
+    REQUIRE(gram.singular_values(c) == Approx(dense.singular_values(c)).epsilon(1e-6));
+  }
+  REQUIRE(loading_difference(gram.loadings, dense.loadings) <= 1e-4);
+  check_internal_consistency(gram, xg);
+}
+
 TEST_CASE("wide and tall shapes, dense path, K = min(n, p)", "[projection]") {
   // Reference: the p x p Gram eigensolver as above. For a wide matrix the dense path
   // decomposes X X^T (n x n), for a tall one X^T X, so this compares the two sides. Tolerances:
