@@ -2,6 +2,8 @@
 
 #include <algorithm>  // std::clamp, std::max, std::min
 #include <cmath>      // std::abs, std::sqrt
+#include <cstdint>    // std::uintptr_t
+#include <numeric>    // std::iota
 #include <cstdio>     // std::snprintf
 #include <string>     // std::string
 
@@ -140,6 +142,7 @@ PruneResult prune_correlated(const ConstMatrixRef& m, std::span<const std::int64
   if (options.memory_budget > 0)
     block = std::min(block, std::max<std::int64_t>(8, options.memory_budget / (16 * std::max<std::int64_t>(n, 1) * 4)));
   Matrix zb_storage(n, std::min<std::int64_t>(block, std::max<std::int64_t>(count, 1)));
+  const bool on_disk = internal::any_on_disk();
   auto col = [&](std::int64_t position) { return m.col(candidates[static_cast<std::size_t>(position)]).data(); };
   auto release = [&](std::int64_t position) {
     const std::int64_t j = candidates[static_cast<std::size_t>(position)];
@@ -188,8 +191,21 @@ PruneResult prune_correlated(const ConstMatrixRef& m, std::span<const std::int64
     // Standardise the block: z = (x - mean) / norm, so z_a . z_b = r.
     Eigen::Map<Matrix> zb(zb_storage.data(), n, width);
     if (bounded) screen_block.reset(m_rows, width, second_look ? m2_rows - m_rows : 0);
-#pragma omp parallel for schedule(static) num_threads(threads)
-    for (std::int64_t b = 0; b < width; ++b) {
+    // On disk the block is read in file order and a 2 MiB window is given back when a thread's
+    // walk leaves it (in rank order nearly every column would map and drop a whole window).
+    std::vector<std::int64_t> visit(static_cast<std::size_t>(width));
+    std::iota(visit.begin(), visit.end(), std::int64_t{0});
+    if (on_disk)
+      std::stable_sort(visit.begin(), visit.end(), [&](std::int64_t a, std::int64_t b) {
+        return candidates[static_cast<std::size_t>(start + a)] < candidates[static_cast<std::size_t>(start + b)];
+      });
+#pragma omp parallel num_threads(threads)
+    {
+      std::uintptr_t window = 0;
+      const float* last = nullptr;
+#pragma omp for schedule(static)
+    for (std::size_t at = 0; at < visit.size(); ++at) {
+      const std::int64_t b = visit[at];
       const float* x = col(start + b);
       const Moments mo = moments_of(x, n);
       moments[static_cast<std::size_t>(start + b)] = mo;
@@ -205,7 +221,14 @@ PruneResult prune_correlated(const ConstMatrixRef& m, std::span<const std::int64
         }
         screen_block.set(b, zb.col(b).data(), std::sqrt(rest), std::sqrt(rest2));
       }
-      release(start + b);
+      if (on_disk) {
+        const std::uintptr_t w = internal::window_of(x);
+        if (last && w != window) internal::release_pages(last, static_cast<std::size_t>(n) * sizeof(float));
+        window = w;
+        last = x;
+      }
+    }
+      if (last) internal::release_pages(last, static_cast<std::size_t>(n) * sizeof(float));
     }
     const auto n_kept = static_cast<Eigen::Index>(kept_positions.size());
     if (options.memory_budget > 0) {

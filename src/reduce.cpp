@@ -403,7 +403,9 @@ std::string reduced_matrix_text(const FeatureTable& t, const std::vector<std::in
 void write_reduced_matrix(const FeatureTable& t, const std::vector<std::int64_t>& columns,
                           const std::vector<std::string>& names,
                           const std::function<void(std::string_view)>& sink) {
-  constexpr Eigen::Index kGroup = 16;
+  // Lines per group: 16; on disk for rows=samples 64, so fewer sweeps gather the matrix.
+  const Eigen::Index group_lines =
+      internal::any_on_disk() && t.layout == Layout::kRowsAreSamples ? 64 : 16;
   const char d = t.delimiter;
   const Eigen::Index n = t.values.rows();
   const auto k = static_cast<Eigen::Index>(columns.size());
@@ -439,13 +441,13 @@ void write_reduced_matrix(const FeatureTable& t, const std::vector<std::int64_t>
   }
   sink(header);
 
-  // Lines are formatted in parallel, kGroup lines per task, straight into reused buffers (numbers
+  // Lines are formatted in parallel, group_lines lines per task, straight into reused buffers (numbers
   // by std::to_chars, nothing appended through std::string), and a round of groups is handed to
   // `sink` on another thread while the next round is formatted. For rows=samples a group's values
-  // are first gathered row-major from the column-major matrix, kGroup contiguous floats (one
+  // are first gathered row-major from the column-major matrix, group_lines contiguous floats (one
   // cache line) per column.
   const Eigen::Index lines = by_sample ? n : k;
-  const Eigen::Index groups = (lines + kGroup - 1) / kGroup;
+  const Eigen::Index groups = (lines + group_lines - 1) / group_lines;
   const int threads = internal::thread_count(0);
   const Eigen::Index batch = 2 * static_cast<Eigen::Index>(threads);  // groups per round
   struct Text {
@@ -454,6 +456,14 @@ void write_reduced_matrix(const FeatureTable& t, const std::vector<std::int64_t>
   };
   std::vector<Text> texts(static_cast<std::size_t>(2 * batch));  // two rounds: one formatted, one written
   const bool on_disk = internal::any_on_disk();
+  std::vector<Eigen::Index> file_order;  // output positions by column index, on disk
+  if (on_disk && by_sample) {
+    file_order.resize(static_cast<std::size_t>(k));
+    std::iota(file_order.begin(), file_order.end(), Eigen::Index{0});
+    std::stable_sort(file_order.begin(), file_order.end(), [&](Eigen::Index a, Eigen::Index b) {
+      return columns[static_cast<std::size_t>(a)] < columns[static_cast<std::size_t>(b)];
+    });
+  }
   auto format_group = [&](Eigen::Index group, Text& text) {
     text.size = 0;
     auto room = [&](std::size_t bytes) {
@@ -476,16 +486,26 @@ void write_reduced_matrix(const FeatureTable& t, const std::vector<std::int64_t>
       }
       text.size += static_cast<std::size_t>(p - begin);
     };
-    const Eigen::Index begin = group * kGroup, end = std::min(lines, begin + kGroup);
+    const Eigen::Index begin = group * group_lines, end = std::min(lines, begin + group_lines);
     if (by_sample) {
       const Eigen::Index rows = end - begin;
       thread_local std::vector<float> block;  // rows x k, row-major
       block.resize(static_cast<std::size_t>(rows * k));
-      for (Eigen::Index c = 0; c < k; ++c) {
+      // On disk, columns are gathered in file order and a 2 MiB window is given back when the walk
+      // leaves it (in rank order nearly every column would map and drop a whole window).
+      std::uintptr_t window = 0;
+      const float* last = nullptr;
+      for (Eigen::Index o = 0; o < k; ++o) {
+        const Eigen::Index c = on_disk ? file_order[static_cast<std::size_t>(o)] : o;
         const float* x = t.values.col(columns[static_cast<std::size_t>(c)]).data() + begin;
         for (Eigen::Index i = 0; i < rows; ++i) block[static_cast<std::size_t>(i * k + c)] = x[i];
-        if (on_disk) internal::release_pages(x, static_cast<std::size_t>(rows) * sizeof(float));
+        if (!on_disk) continue;
+        const std::uintptr_t w = internal::window_of(x);
+        if (last && w != window) internal::release_pages(last, static_cast<std::size_t>(rows) * sizeof(float));
+        window = w;
+        last = x;
       }
+      if (last) internal::release_pages(last, static_cast<std::size_t>(rows) * sizeof(float));
       for (Eigen::Index i = 0; i < rows; ++i) {
         put_field(t.sample_ids[static_cast<std::size_t>(begin + i)]);
         put_numbers(block.data() + i * k, k, 1);

@@ -4,6 +4,7 @@
 #include <chrono>      // std::chrono::steady_clock
 #include <filesystem>  // std::filesystem::equivalent
 #include <future>      // std::async
+#include <numeric>     // std::iota
 #include <memory>      // std::unique_ptr
 
 #include <nlohmann/json.hpp>
@@ -220,10 +221,8 @@ ReduceRun reduce_and_write(const InputOptions& input, const CommonOptions& commo
   if (!sheet.empty()) inputs.push_back(sheet);
   OutputSet files(common.out, inputs);
   if (project.selection_outputs) {
-    // Two single-threaded texts, built side by side.
-    auto log = std::async(std::launch::async, [&] { return selection_log_tsv(run.table, r); });
     files.add("ranking.tsv", reduction_ranking_tsv(run.table, r));
-    files.add("selection-log.tsv", log.get());
+    files.add("selection-log.tsv", selection_log_tsv(run.table, r));
     OutputFile& reduced = files.open("reduced.csv");
     write_reduced_matrix(run.table, r.kept, names, [&](std::string_view piece) { reduced.write(piece); });
   }
@@ -234,28 +233,61 @@ ReduceRun reduce_and_write(const InputOptions& input, const CommonOptions& commo
     po.scale = options.scale ? false : project.options.scale;  // --scale already standardised them
     po.seed = common.seed;
     po.threads = common.threads;
+    // The kept columns are analysed in file order, so the data and the copy are both walked front
+    // to back (on disk, in rank order nearly every column would map and drop a whole 2 MiB
+    // window); the loadings, centres and scales are put back in rank order afterwards.
+    std::vector<std::size_t> by_file(r.kept.size());
+    std::iota(by_file.begin(), by_file.end(), std::size_t{0});
+    std::stable_sort(by_file.begin(), by_file.end(), [&](std::size_t a, std::size_t b) { return r.kept[a] < r.kept[b]; });
     bool identity = static_cast<std::int64_t>(r.kept.size()) == run.table.n_features();
-    for (std::size_t k = 0; identity && k < r.kept.size(); ++k) identity = r.kept[k] == static_cast<std::int64_t>(k);
+    for (std::size_t k = 0; identity && k < by_file.size(); ++k) identity = r.kept[by_file[k]] == static_cast<std::int64_t>(k);
+    Projection in_file_order;
     if (identity) {
-      // All features in input order: analyse the matrix in place, no copy.
-      run.projection = std::make_unique<Projection>(truncated_pca(run.table.values, po));
+      // Every feature: analyse the matrix in place, no copy.
+      in_file_order = truncated_pca(run.table.values, po);
     } else {
-      // The kept columns in their final order; on disk too when the data are and the copy would
-      // take more than half the budget.
+      // On disk too when the data are and the copy would take more than half the budget.
       MemoryBudget budget = read.memory;
       if (budget.bytes > 0) budget.bytes = std::max<std::int64_t>(1, budget.bytes / 2);
       Columns kept;
       kept.allocate(run.table.n_samples(), static_cast<Eigen::Index>(r.kept.size()), budget);
-      const bool on_disk = run.table.values.on_disk();
-#pragma omp parallel for schedule(dynamic, 256) num_threads(internal::thread_count(common.threads)) if (!on_disk)
-      for (std::size_t k = 0; k < r.kept.size(); ++k) {
-        kept.col(static_cast<Eigen::Index>(k)) = run.table.values.col(r.kept[k]);
-        if (on_disk) {
-          internal::release_column_span(run.table.values, r.kept[k], r.kept[k]);
-          internal::release_column_span(kept, static_cast<Eigen::Index>(k), static_cast<Eigen::Index>(k));
+      const bool on_disk = run.table.values.on_disk() || kept.on_disk();
+#pragma omp parallel num_threads(internal::thread_count(common.threads)) if (!on_disk)
+      {
+        std::uintptr_t from_window = 0, to_window = 0;
+        const float *from_last = nullptr, *to_last = nullptr;
+        const auto bytes = static_cast<std::size_t>(run.table.n_samples()) * sizeof(float);
+#pragma omp for schedule(static)
+        for (std::size_t k = 0; k < by_file.size(); ++k) {
+          const float* from = run.table.values.col(r.kept[by_file[k]]).data();
+          float* to = kept.col(static_cast<Eigen::Index>(k)).data();
+          std::copy(from, from + run.table.n_samples(), to);
+          if (!on_disk) continue;
+          // A window is given back when the walk leaves it.
+          const std::uintptr_t fw = internal::window_of(from), tw = internal::window_of(to);
+          if (from_last && fw != from_window) internal::release_pages(from_last, bytes);
+          if (to_last && tw != to_window) internal::release_pages(to_last, bytes);
+          from_window = fw;
+          to_window = tw;
+          from_last = from;
+          to_last = to;
         }
+        if (from_last) internal::release_pages(from_last, bytes);
+        if (to_last) internal::release_pages(to_last, bytes);
       }
-      run.projection = std::make_unique<Projection>(truncated_pca(kept, po));
+      in_file_order = truncated_pca(kept, po);
+    }
+    run.projection = std::make_unique<Projection>(std::move(in_file_order));
+    {
+      Projection& p = *run.projection;
+      const Eigen::MatrixXd loadings = p.loadings;
+      const Eigen::VectorXd center = p.center, scale = p.scale;
+      for (std::size_t k = 0; k < by_file.size(); ++k) {
+        const auto rank = static_cast<Eigen::Index>(by_file[k]), at = static_cast<Eigen::Index>(k);
+        p.loadings.row(rank) = loadings.row(at);
+        p.center(rank) = center(at);
+        p.scale(rank) = scale(at);
+      }
     }
     const Projection& pr = *run.projection;
     const std::string loadings = loadings_tsv(pr.loadings, names);

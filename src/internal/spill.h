@@ -4,8 +4,10 @@
 #include <algorithm>  // std::max, std::min
 #include <cstddef>    // std::size_t
 #include <cstdint>    // std::int64_t, std::uintptr_t
+#include <numeric>    // std::iota
 #include <span>       // std::span
 #include <string>     // std::string
+#include <vector>     // std::vector
 
 #include "pare/matrix.h"
 
@@ -36,20 +38,29 @@ std::uintptr_t window_of(const void* data);
 bool any_on_disk();
 
 /// Calls body(a) for every position a of `columns` (column indices of `m`), in parallel chunks
-/// of 64 positions; each chunk then gives back the pages of its columns when `m` is on disk.
+/// of 64 positions; each chunk then gives back the pages of its columns when `m` is on disk. On
+/// disk the positions are visited in file order (the bodies must not depend on the order), so a
+/// chunk stays in one or two 2 MiB windows however `columns` is ordered: columns in rank order
+/// would otherwise map and drop a whole window for almost every column.
 template <typename Body>
 void for_each_column(const ConstMatrixRef& m, std::span<const std::int64_t> columns, int threads, Body&& body) {
   constexpr std::size_t kChunk = 64;
   const std::size_t chunks = (columns.size() + kChunk - 1) / kChunk;
   const bool on_disk = any_on_disk();
+  std::vector<std::size_t> visit;
+  if (on_disk) {
+    visit.resize(columns.size());
+    std::iota(visit.begin(), visit.end(), std::size_t{0});
+    std::stable_sort(visit.begin(), visit.end(), [&](std::size_t a, std::size_t b) { return columns[a] < columns[b]; });
+  }
 #pragma omp parallel for schedule(dynamic, 1) num_threads(threads)
   for (std::size_t c = 0; c < chunks; ++c) {
     const std::size_t begin = c * kChunk, end = std::min(columns.size(), begin + kChunk);
-    // On disk, a window is given back when the walk leaves it: at once for columns in random
-    // order, once per window for columns in file order.
+    // On disk, a window is given back when the walk leaves it.
     std::uintptr_t window = 0;
     const float* last = nullptr;
-    for (std::size_t a = begin; a < end; ++a) {
+    for (std::size_t i = begin; i < end; ++i) {
+      const std::size_t a = on_disk ? visit[i] : i;
       body(a);
       if (!on_disk) continue;
       const float* x = m.col(columns[a]).data();
