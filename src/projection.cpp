@@ -457,30 +457,41 @@ std::string scores_csv(const Eigen::MatrixXd& scores, const std::vector<std::str
   return out;
 }
 
-std::string loadings_tsv(const Eigen::MatrixXd& loadings, const std::vector<std::string>& names) {
-  std::string out = "feature";
-  for (Index c = 0; c < loadings.cols(); ++c) out += "\tPC" + std::to_string(c + 1);
-  out += '\n';
-  // Pieces of lines formatted in parallel, joined in order.
+void write_loadings_tsv(const Eigen::MatrixXd& loadings, const std::vector<std::string>& names,
+                        const std::function<void(std::string_view)>& sink) {
+  std::string head = "feature";
+  for (Index c = 0; c < loadings.cols(); ++c) head += "\tPC" + std::to_string(c + 1);
+  head += '\n';
+  sink(head);
+  // Pieces of 1,024 lines formatted in parallel, a round of 4 per thread at a time, handed to
+  // `sink` in order (the text of a round, not of the whole file, is in memory at once).
   constexpr Index kLines = 1024;
-  const Index pieces = (loadings.rows() + kLines - 1) / kLines;
-  std::vector<std::string> text(static_cast<std::size_t>(pieces));
-#pragma omp parallel for schedule(dynamic, 1) num_threads(internal::thread_count(0))
-  for (Index piece = 0; piece < pieces; ++piece) {
-    std::string& t = text[static_cast<std::size_t>(piece)];
-    for (Index j = piece * kLines; j < std::min(loadings.rows(), (piece + 1) * kLines); ++j) {
-      internal::append_field(t, names[static_cast<std::size_t>(j)], '\t');
-      for (Index c = 0; c < loadings.cols(); ++c) {
-        t += '\t';
-        internal::append_number(t, loadings(j, c));
+  const int threads = internal::thread_count(0);
+  const Index pieces = (loadings.rows() + kLines - 1) / kLines, round = 4 * static_cast<Index>(threads);
+  std::vector<std::string> text(static_cast<std::size_t>(round));
+  for (Index first = 0; first < pieces; first += round) {
+    const Index count = std::min(round, pieces - first);
+#pragma omp parallel for schedule(dynamic, 1) num_threads(threads)
+    for (Index i = 0; i < count; ++i) {
+      std::string& t = text[static_cast<std::size_t>(i)];
+      t.clear();
+      const Index piece = first + i;
+      for (Index j = piece * kLines; j < std::min(loadings.rows(), (piece + 1) * kLines); ++j) {
+        internal::append_field(t, names[static_cast<std::size_t>(j)], '\t');
+        for (Index c = 0; c < loadings.cols(); ++c) {
+          t += '\t';
+          internal::append_number(t, loadings(j, c));
+        }
+        t += '\n';
       }
-      t += '\n';
     }
+    for (Index i = 0; i < count; ++i) sink(text[static_cast<std::size_t>(i)]);
   }
-  std::size_t size = out.size();
-  for (const auto& t : text) size += t.size();
-  out.reserve(size);
-  for (const auto& t : text) out += t;
+}
+
+std::string loadings_tsv(const Eigen::MatrixXd& loadings, const std::vector<std::string>& names) {
+  std::string out;
+  write_loadings_tsv(loadings, names, [&](std::string_view piece) { out += piece; });
   return out;
 }
 

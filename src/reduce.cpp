@@ -403,9 +403,11 @@ std::string reduced_matrix_text(const FeatureTable& t, const std::vector<std::in
 void write_reduced_matrix(const FeatureTable& t, const std::vector<std::int64_t>& columns,
                           const std::vector<std::string>& names,
                           const std::function<void(std::string_view)>& sink) {
-  // Lines per group: 16; on disk for rows=samples 64, so fewer sweeps gather the matrix.
-  const Eigen::Index group_lines =
-      internal::any_on_disk() && t.layout == Layout::kRowsAreSamples ? 64 : 16;
+  // Lines per group: 16; on disk for rows=samples 32, so fewer sweeps gather the matrix, with one
+  // round of groups formatted while the last is written: 2 x threads x 32 lines of text, as the
+  // reader holds.
+  const bool spilled = internal::any_on_disk();
+  const Eigen::Index group_lines = spilled && t.layout == Layout::kRowsAreSamples ? 32 : 16;
   const char d = t.delimiter;
   const Eigen::Index n = t.values.rows();
   const auto k = static_cast<Eigen::Index>(columns.size());
@@ -441,15 +443,15 @@ void write_reduced_matrix(const FeatureTable& t, const std::vector<std::int64_t>
   }
   sink(header);
 
-  // Lines are formatted in parallel, group_lines lines per task, straight into reused buffers (numbers
-  // by std::to_chars, nothing appended through std::string), and a round of groups is handed to
-  // `sink` on another thread while the next round is formatted. For rows=samples a group's values
-  // are first gathered row-major from the column-major matrix, group_lines contiguous floats (one
-  // cache line) per column.
+  // Lines are formatted in parallel, a group of lines per task, straight into reused buffers
+  // (numbers by std::to_chars, nothing appended through std::string), and a round of groups is
+  // handed to `sink` on another thread while the next round is formatted. For rows=samples a
+  // group's values are first gathered row-major from the column-major matrix, a group's run of
+  // contiguous floats (one or two cache lines) per column.
   const Eigen::Index lines = by_sample ? n : k;
   const Eigen::Index groups = (lines + group_lines - 1) / group_lines;
   const int threads = internal::thread_count(0);
-  const Eigen::Index batch = 2 * static_cast<Eigen::Index>(threads);  // groups per round
+  const Eigen::Index batch = (spilled ? 1 : 2) * static_cast<Eigen::Index>(threads);  // groups per round
   struct Text {
     internal::GrowableBuffer memory;
     std::size_t size = 0;

@@ -35,6 +35,24 @@ std::string sha256_hex(std::string_view bytes) {
   return to_hex(digest, length);
 }
 
+Sha256::Sha256() : ctx_(EVP_MD_CTX_new()) {
+  if (!ctx_ || EVP_DigestInit_ex(static_cast<EVP_MD_CTX*>(ctx_), EVP_sha256(), nullptr) != 1) {
+    EVP_MD_CTX_free(static_cast<EVP_MD_CTX*>(ctx_));
+    throw Error(ErrorKind::kOther, "SHA-256 computation failed");
+  }
+}
+
+Sha256::~Sha256() { EVP_MD_CTX_free(static_cast<EVP_MD_CTX*>(ctx_)); }
+
+void Sha256::update(std::string_view bytes) { EVP_DigestUpdate(static_cast<EVP_MD_CTX*>(ctx_), bytes.data(), bytes.size()); }
+
+std::string Sha256::hex() {
+  unsigned char digest[EVP_MAX_MD_SIZE];
+  unsigned int length = 0;
+  EVP_DigestFinal_ex(static_cast<EVP_MD_CTX*>(ctx_), digest, &length);
+  return to_hex(digest, length);
+}
+
 std::string sha256_file(const std::string& path) {
   // Inputs are read twice (hashed, then parsed), so they must be regular files: a pipe would be
   // split between the two readers and a device such as /dev/zero never ends.

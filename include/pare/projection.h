@@ -5,7 +5,9 @@
 #include <Eigen/Core>
 
 #include <cstdint>  // std::int64_t, std::uint64_t
+#include <functional>   // std::function
 #include <string>   // std::string
+#include <string_view>  // std::string_view
 
 #include "pare/matrix.h"
 
@@ -63,6 +65,9 @@ std::string scores_csv(const Eigen::MatrixXd& scores, const std::vector<std::str
                        const std::string& id_name);
 /// loadings.tsv: feature, PC1..PCK (shortest round-trip numbers, so reading it back is exact).
 std::string loadings_tsv(const Eigen::MatrixXd& loadings, const std::vector<std::string>& names);
+/// Same, handed to `sink` piece by piece (in order).
+void write_loadings_tsv(const Eigen::MatrixXd& loadings, const std::vector<std::string>& names,
+                        const std::function<void(std::string_view)>& sink);
 /// explained.tsv: component, eigenvalue (sigma^2 / (n - 1)), ratio, cumulative_ratio, singular_value.
 std::string explained_tsv(const Projection& projection);
 /// Reads loadings.tsv back, checking that its features are `names` in order.

@@ -290,14 +290,19 @@ ReduceRun reduce_and_write(const InputOptions& input, const CommonOptions& commo
       }
     }
     const Projection& pr = *run.projection;
-    const std::string loadings = loadings_tsv(pr.loadings, names);
     files.add("scores.csv", scores_csv(pr.scores, run.table.sample_ids, run.table.labels, run.table.label_name,
                                        run.table.id_name));
-    files.add("loadings.tsv", loadings);
+    // loadings.tsv is written and hashed piece by piece (p x K numbers need not be in memory as text).
+    OutputFile& loadings = files.open("loadings.tsv");
+    internal::Sha256 loadings_hash;
+    write_loadings_tsv(pr.loadings, names, [&](std::string_view piece) {
+      loadings.write(piece);
+      loadings_hash.update(piece);
+    });
     files.add("explained.tsv", explained_tsv(pr));
     plan_projection.projection = run.projection.get();
     plan_projection.loadings_file = "loadings.tsv";
-    plan_projection.loadings_sha256 = internal::sha256_hex(loadings);
+    plan_projection.loadings_sha256 = loadings_hash.hex();
     plan_projection.center = po.center;
     plan_projection.scale = project.options.scale;
     run.reduction.steps.push_back(StepRecord{"project", static_cast<std::int64_t>(r.kept.size()),

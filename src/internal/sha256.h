@@ -9,6 +9,21 @@ namespace pare::internal {
 /// Hex SHA-256 digest of `bytes`.
 std::string sha256_hex(std::string_view bytes);
 
+/// SHA-256 of bytes given piece by piece.
+class Sha256 {
+ public:
+  Sha256();
+  Sha256(const Sha256&) = delete;
+  Sha256& operator=(const Sha256&) = delete;
+  ~Sha256();
+  void update(std::string_view bytes);
+  /// The digest in lower-case hex (once, at the end).
+  std::string hex();
+
+ private:
+  void* ctx_;  // EVP_MD_CTX
+};
+
 }  // namespace pare::internal
 
 namespace pare::internal {
