@@ -6,7 +6,6 @@
 
 #include <algorithm>  // std::min, std::max
 #include <cmath>      // std::sqrt
-#include <cstdint>    // std::uintptr_t
 #include <type_traits>  // std::is_same_v
 #include <vector>     // std::vector
 
@@ -196,11 +195,9 @@ Projection truncated_pca(MatrixRef x, const ProjectionOptions& o) {
   // window when its walk leaves it (releasing each column would drop the window its next
   // column is in).
   VecD squares(p);
-  const bool on_disk = internal::any_on_disk();
 #pragma omp parallel num_threads(threads)
   {
-  std::uintptr_t window = 0;
-  const float* last = nullptr;
+  internal::WindowWalk walk(static_cast<std::size_t>(n) * sizeof(float));
 #pragma omp for schedule(dynamic, 64)
   for (Index j = 0; j < p; ++j) {
     float* col = x.col(j).data();
@@ -226,14 +223,8 @@ Projection truncated_pca(MatrixRef x, const ProjectionOptions& o) {
     double stored = 0;
     for (Index i = 0; i < n; ++i) stored += static_cast<double>(col[i]) * static_cast<double>(col[i]);
     squares(j) = stored;
-    if (on_disk) {
-      const std::uintptr_t w = internal::window_of(col);
-      if (last && w != window) internal::release_pages(last, static_cast<std::size_t>(n) * sizeof(float));
-      window = w;
-      last = col;
-    }
+    walk.visited(col);
   }
-  if (last) internal::release_pages(last, static_cast<std::size_t>(n) * sizeof(float));
   }
   double frobenius2 = 0;
   for (Index j = 0; j < p; ++j) frobenius2 += squares(j);

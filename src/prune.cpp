@@ -2,7 +2,6 @@
 
 #include <algorithm>  // std::clamp, std::max, std::min
 #include <cmath>      // std::abs, std::sqrt
-#include <cstdint>    // std::uintptr_t
 #include <numeric>    // std::iota
 #include <cstdio>     // std::snprintf
 #include <string>     // std::string
@@ -201,8 +200,7 @@ PruneResult prune_correlated(const ConstMatrixRef& m, std::span<const std::int64
       });
 #pragma omp parallel num_threads(threads)
     {
-      std::uintptr_t window = 0;
-      const float* last = nullptr;
+      internal::WindowWalk walk(static_cast<std::size_t>(n) * sizeof(float));
 #pragma omp for schedule(static)
     for (std::size_t at = 0; at < visit.size(); ++at) {
       const std::int64_t b = visit[at];
@@ -221,14 +219,8 @@ PruneResult prune_correlated(const ConstMatrixRef& m, std::span<const std::int64
         }
         screen_block.set(b, zb.col(b).data(), std::sqrt(rest), std::sqrt(rest2));
       }
-      if (on_disk) {
-        const std::uintptr_t w = internal::window_of(x);
-        if (last && w != window) internal::release_pages(last, static_cast<std::size_t>(n) * sizeof(float));
-        window = w;
-        last = x;
-      }
+      walk.visited(x);
     }
-      if (last) internal::release_pages(last, static_cast<std::size_t>(n) * sizeof(float));
     }
     const auto n_kept = static_cast<Eigen::Index>(kept_positions.size());
     if (options.memory_budget > 0) {

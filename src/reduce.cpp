@@ -495,19 +495,13 @@ void write_reduced_matrix(const FeatureTable& t, const std::vector<std::int64_t>
       block.resize(static_cast<std::size_t>(rows * k));
       // On disk, columns are gathered in file order and a 2 MiB window is given back when the walk
       // leaves it (in rank order nearly every column would map and drop a whole window).
-      std::uintptr_t window = 0;
-      const float* last = nullptr;
+      internal::WindowWalk walk(static_cast<std::size_t>(rows) * sizeof(float));
       for (Eigen::Index o = 0; o < k; ++o) {
         const Eigen::Index c = on_disk ? file_order[static_cast<std::size_t>(o)] : o;
         const float* x = t.values.col(columns[static_cast<std::size_t>(c)]).data() + begin;
         for (Eigen::Index i = 0; i < rows; ++i) block[static_cast<std::size_t>(i * k + c)] = x[i];
-        if (!on_disk) continue;
-        const std::uintptr_t w = internal::window_of(x);
-        if (last && w != window) internal::release_pages(last, static_cast<std::size_t>(rows) * sizeof(float));
-        window = w;
-        last = x;
+        walk.visited(x);
       }
-      if (last) internal::release_pages(last, static_cast<std::size_t>(rows) * sizeof(float));
       for (Eigen::Index i = 0; i < rows; ++i) {
         put_field(t.sample_ids[static_cast<std::size_t>(begin + i)]);
         put_numbers(block.data() + i * k, k, 1);

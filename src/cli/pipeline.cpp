@@ -254,26 +254,16 @@ ReduceRun reduce_and_write(const InputOptions& input, const CommonOptions& commo
       const bool on_disk = run.table.values.on_disk() || kept.on_disk();
 #pragma omp parallel num_threads(internal::thread_count(common.threads)) if (!on_disk)
       {
-        std::uintptr_t from_window = 0, to_window = 0;
-        const float *from_last = nullptr, *to_last = nullptr;
         const auto bytes = static_cast<std::size_t>(run.table.n_samples()) * sizeof(float);
+        internal::WindowWalk from_walk(bytes), to_walk(bytes);
 #pragma omp for schedule(static)
         for (std::size_t k = 0; k < by_file.size(); ++k) {
           const float* from = run.table.values.col(r.kept[by_file[k]]).data();
           float* to = kept.col(static_cast<Eigen::Index>(k)).data();
           std::copy(from, from + run.table.n_samples(), to);
-          if (!on_disk) continue;
-          // A window is given back when the walk leaves it.
-          const std::uintptr_t fw = internal::window_of(from), tw = internal::window_of(to);
-          if (from_last && fw != from_window) internal::release_pages(from_last, bytes);
-          if (to_last && tw != to_window) internal::release_pages(to_last, bytes);
-          from_window = fw;
-          to_window = tw;
-          from_last = from;
-          to_last = to;
+          from_walk.visited(from);
+          to_walk.visited(to);
         }
-        if (from_last) internal::release_pages(from_last, bytes);
-        if (to_last) internal::release_pages(to_last, bytes);
       }
       in_file_order = truncated_pca(kept, po);
     }

@@ -37,6 +37,34 @@ std::uintptr_t window_of(const void* data);
 /// True when some matrix lives in a cache file (so callers can skip bookkeeping otherwise).
 bool any_on_disk();
 
+/// Gives back, on disk, the 2 MiB windows a walk over columns has left: call visited() with each
+/// column (or part of one) after use; the window of the last one is given back on destruction.
+/// Walks in file order then give back each window once, where releasing every column would drop
+/// the window the next column is in. One per thread; a no-op for memory.
+class WindowWalk {
+ public:
+  explicit WindowWalk(std::size_t bytes) : bytes_(bytes), on_disk_(any_on_disk()) {}
+  WindowWalk(const WindowWalk&) = delete;
+  WindowWalk& operator=(const WindowWalk&) = delete;
+  ~WindowWalk() {
+    if (last_) release_pages(last_, bytes_);
+  }
+  /// `data` (bytes of them, as given to the constructor) has been used.
+  void visited(const void* data) {
+    if (!on_disk_) return;
+    const std::uintptr_t w = window_of(data);
+    if (last_ && w != window_) release_pages(last_, bytes_);
+    window_ = w;
+    last_ = data;
+  }
+
+ private:
+  std::size_t bytes_;
+  bool on_disk_;
+  std::uintptr_t window_ = 0;
+  const void* last_ = nullptr;
+};
+
 /// Calls body(a) for every position a of `columns` (column indices of `m`), in parallel chunks
 /// of 64 positions; each chunk then gives back the pages of its columns when `m` is on disk. On
 /// disk the positions are visited in file order (the bodies must not depend on the order), so a
@@ -56,20 +84,12 @@ void for_each_column(const ConstMatrixRef& m, std::span<const std::int64_t> colu
 #pragma omp parallel for schedule(dynamic, 1) num_threads(threads)
   for (std::size_t c = 0; c < chunks; ++c) {
     const std::size_t begin = c * kChunk, end = std::min(columns.size(), begin + kChunk);
-    // On disk, a window is given back when the walk leaves it.
-    std::uintptr_t window = 0;
-    const float* last = nullptr;
+    WindowWalk walk(static_cast<std::size_t>(m.rows()) * sizeof(float));
     for (std::size_t i = begin; i < end; ++i) {
       const std::size_t a = on_disk ? visit[i] : i;
       body(a);
-      if (!on_disk) continue;
-      const float* x = m.col(columns[a]).data();
-      const std::uintptr_t w = window_of(x);
-      if (last && w != window) release_pages(last, static_cast<std::size_t>(m.rows()) * sizeof(float));
-      window = w;
-      last = x;
+      walk.visited(m.col(columns[a]).data());
     }
-    if (last) release_pages(last, static_cast<std::size_t>(m.rows()) * sizeof(float));
   }
 }
 
