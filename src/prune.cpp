@@ -120,19 +120,18 @@ PruneResult prune_correlated(const ConstMatrixRef& m, std::span<const std::int64
   std::vector<Moments> moments(static_cast<std::size_t>(count));
   // A second look for the pairs the first cannot rule out: the 8-bit products over the next m rows
   // S2 too, so the rest is R2 = rows from 2m on. At 2,000 x 100,000, 0.6% of the pairs survive the
-  // first look and 0.1% of those the second; a full product for each of the first would read a
-  // whole kept column from memory, the second look reads m bytes.
+  // first look and 0.1% of those the second; the exact r of each of the first would read two
+  // whole columns, the second look reads m bytes of codes.
   const Eigen::Index m2_rows = std::min<Eigen::Index>(n, 2 * m_rows);
   const bool second_look = bounded && m2_rows < n;
   std::vector<std::int64_t> kept_positions;  // candidate positions of the kept features, in order
-  // Their standardised columns, column-major n x kept, in a mapping that grows in place (appending
-  // columns appends memory) and uses 2 MiB pages: large buffers reallocated per block would spend
-  // their time in page faults.
+  // Without the bound: their standardised columns, column-major n x kept, in a mapping that grows
+  // in place (appending columns appends memory) and uses 2 MiB pages: large buffers reallocated
+  // per block would spend their time in page faults.
   internal::GrowableBuffer zk_memory, c_memory;
-  // The first look's codes of the block's candidates and of the kept features.
+  // With it: the 8-bit codes of the block's candidates and of the kept features.
   internal::ScreenBlock screen_block;
   internal::ScreenKept screen_kept((m_rows + 3) / 4 * 4);
-
 
   Matrix g_storage;
   // Under a memory budget the candidate block takes at most a sixteenth of it (the decisions do
@@ -151,7 +150,7 @@ PruneResult prune_correlated(const ConstMatrixRef& m, std::span<const std::int64
   // checks are few and scattered).
   auto exact = [&](std::int64_t a, std::int64_t b) {
     const double r = exact_r(col(a), moments[static_cast<std::size_t>(a)], col(b), moments[static_cast<std::size_t>(b)], n);
-    if (internal::any_on_disk()) {
+    if (on_disk) {
       release(a);
       release(b);
     }
