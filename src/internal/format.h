@@ -15,6 +15,9 @@ inline constexpr std::size_t kNumberRoom = 24;
 /// Writes the shortest text that reads back as exactly `value` ("NA" for NaN) at `p`, which must
 /// have kNumberRoom bytes of room, and returns the end of what it wrote.
 char* write_number(char* p, float value);
+/// Writes exactly what std::to_chars(p, p + kNumberRoom, value) writes (shortest round-trip text,
+/// plain or scientific, whichever is shorter; "nan", "inf"), about three times as fast.
+char* write_shortest(char* p, float value);
 
 /// Appends `value` with `digits` significant digits (for people, not for round trips).
 void append_rounded(std::string& out, double value, int digits);
