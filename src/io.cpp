@@ -11,6 +11,7 @@
 #include <atomic>         // std::atomic
 #include <cerrno>         // errno
 #include <cmath>          // std::isinf, std::isnan
+#include <cstdint>        // std::uint32_t
 #include <cstdlib>        // std::strtol
 #include <cstring>        // std::memchr, std::strerror
 #include <filesystem>     // std::filesystem::create_directories
@@ -183,10 +184,41 @@ bool parse_whole(const char* b, const char* e, float& value) {
   return r.ec == std::errc() && r.ptr == e;
 }
 
+// The common cell, a plain decimal of at most 9 digits ("-12.375", "0.227663", "574"), read
+// without the general parser: its digits m and fraction length d give m / 10^d, and while
+// m <= 2^24 and d <= 10 both are exact in float32, so the one IEEE division is the correctly
+// rounded value (the exact-operands fast path of W. D. Clinger, "How to read floating point
+// numbers accurately", PLDI 1990; common practice in number parsers). Anything else (more
+// digits, an exponent, a leading '.', a trailing '.', another character before the delimiter)
+// returns false and is left to fast_float. tests/io_test.cpp checks it against fast_float.
+inline bool parse_plain_decimal(const char*& p, const char* e, char delim, float& value) {
+  static constexpr float kPow10[] = {1e0f, 1e1f, 1e2f, 1e3f, 1e4f, 1e5f, 1e6f, 1e7f, 1e8f, 1e9f};
+  const char* s = p;
+  const bool negative = s < e && *s == '-';
+  s += negative;
+  std::uint32_t m = 0;
+  const char* const digits = s;
+  while (s < e && static_cast<unsigned char>(*s - '0') < 10 && s - digits < 10) m = 10 * m + static_cast<std::uint32_t>(*s++ - '0');
+  const auto whole = s - digits;
+  std::ptrdiff_t fraction = 0;
+  if (whole > 0 && s < e && *s == '.') {
+    const char* const f = ++s;
+    while (s < e && static_cast<unsigned char>(*s - '0') < 10 && whole + (s - f) < 10) m = 10 * m + static_cast<std::uint32_t>(*s++ - '0');
+    fraction = s - f;
+    if (fraction == 0) return false;
+  }
+  if (whole == 0 || whole + fraction > 9 || m > (std::uint32_t{1} << 24) || (s < e && *s != delim)) return false;
+  const float v = static_cast<float>(m) / kPow10[fraction];
+  value = negative ? -v : v;
+  p = s;
+  return true;
+}
+
 // Parses one numeric cell at `p` on a line ending at `e`. Leaves `p` at the delimiter or `e`.
 // The fast path is one fast_float call; everything unusual (missing tokens, quotes, spaces, '+',
 // inf) goes through the slow path.
 CellStatus parse_cell(const char*& p, const char* e, const CellContext& ctx, float& value) {
+  if (!ctx.na->has_numeric() && parse_plain_decimal(p, e, ctx.delim, value)) return CellStatus::kOk;
   {
     const char* q = p;
     if (q < e && *q == '+') ++q;

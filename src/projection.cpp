@@ -273,7 +273,8 @@ Projection truncated_pca(MatrixRef x, const ProjectionOptions& o) {
     // products) and randomized subspace iteration here (see notebooks-free-docs/numerics.md).
     // Large matrices iterate with float32 products; the final Rayleigh-Ritz step is in double.
     out.method = "block Krylov";
-    const bool use_float = static_cast<double>(n) * static_cast<double>(p) > static_cast<double>(Index{1} << 24);
+    const bool use_float =
+        o.float_products || static_cast<double>(n) * static_cast<double>(p) > static_cast<double>(Index{1} << 24);
     out.precision = use_float ? "float" : "double";
     const double tolerance = use_float ? std::max(o.tolerance, 3e-5) : o.tolerance;
     // A wide matrix of up to 32 blocks' worth of samples: its Gram matrix X X^T is formed once

@@ -6,6 +6,7 @@
 #include "pare/io.h"
 
 #include <charconv>  // std::to_chars
+#include <fast_float/fast_float.h>
 #include <cmath>     // std::isnan, std::isinf
 #include <cstring>   // std::memcmp
 #include <limits>    // std::numeric_limits
@@ -234,6 +235,46 @@ TEST_CASE("cell syntax: quoted numbers, leading plus, exponents", "[io]") {
     INFO(message);
     REQUIRE(message.rfind(p + ":2:4: cannot read", 0) == 0);
   }
+}
+
+TEST_CASE("plain decimals read exactly as fast_float reads them", "[io]") {
+  // The reader takes plain decimals of up to 9 digits ("-12.375") without the general parser;
+  // fast_float (an outside library, correctly rounded) is the reference for every cell. The cells
+  // cover 1 to 12 digits, every position of the point, both signs, leading zeros, the largest
+  // mantissas either side of 2^24 = 16777216, and texts the shortcut must leave to the general
+  // parser ("5.", ".5", exponents).
+  std::vector<std::string> cells = {"16777216", "16777217", "1677721.7", "16777215", "0.16777216", "-0",
+                                    "-0.0", "0", "000123.4500", "999999999", "9999999999", "0.000000001",
+                                    "123456789.5", "5.", ".5", "-.25", "1e3", "2.5E-3", "7"};
+  std::mt19937_64 rng(42);
+  for (int i = 0; i < 60000; ++i) {
+    const int digits = 1 + static_cast<int>(rng() % 12);
+    std::string text = rng() % 2 ? "-" : "";
+    const int point = static_cast<int>(rng() % static_cast<std::uint64_t>(digits + 1));  // digits before it
+    for (int d = 0; d < digits; ++d) {
+      if (d == point && d > 0) text += '.';
+      text += static_cast<char>('0' + rng() % 10);
+    }
+    cells.push_back(text);
+  }
+  std::string csv = "id";
+  for (std::size_t j = 0; j < cells.size(); ++j) csv += ",f" + std::to_string(j);
+  csv += "\ns1";
+  for (const auto& c : cells) csv += "," + c;
+  csv += "\n";
+  TempDir dir;
+  const FeatureTable t = pare::read_table(dir.write("plain.csv", csv), options());
+  std::size_t differ = 0;
+  for (std::size_t j = 0; j < cells.size(); ++j) {
+    float expected = 0;
+    const auto r = fast_float::from_chars(cells[j].data(), cells[j].data() + cells[j].size(), expected);
+    REQUIRE(r.ec == std::errc());
+    const float got = t.values(0, static_cast<Eigen::Index>(j));
+    if (std::memcmp(&got, &expected, sizeof got) != 0) {
+      if (++differ <= 5) UNSCOPED_INFO(cells[j] << ": read " << got << ", fast_float " << expected);
+    }
+  }
+  CHECK(differ == 0);
 }
 
 TEST_CASE("missing tokens: empty, NA, NaN, nan, null, ? are NaN by default", "[io]") {

@@ -22,6 +22,9 @@ struct ProjectionOptions {
   std::int64_t oversample = 10;  ///< block size is K + oversample
   std::uint64_t seed = 1;        ///< starting block
   int threads = 0;
+  /// Iterate with float32 products (and a tolerance of at least 3e-5) whatever the size; above
+  /// 2^24 values they are used anyway.
+  bool float_products = false;
 };
 
 /// A truncated PCA / SVD. Components are sorted by singular value, largest first, and

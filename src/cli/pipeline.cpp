@@ -77,7 +77,7 @@ void print_steps(std::ostream& out, const Reduction& r, bool selection) {
 }
 
 struct ReduceRun {
-  FeatureTable table;
+  FeatureTable table;  // its values are used up by the PCA (centred in place, or compacted)
   Reduction reduction;
   std::unique_ptr<Projection> projection;
   std::string out_dir;
@@ -245,8 +245,23 @@ ReduceRun reduce_and_write(const InputOptions& input, const CommonOptions& commo
     if (identity) {
       // Every feature: analyse the matrix in place, no copy.
       in_file_order = truncated_pca(run.table.values, po);
+    } else if (!run.table.values.on_disk()) {
+      // In memory the kept columns are moved to the front of the table's own matrix, in file
+      // order, and analysed there: reduced.csv is written, and nothing after this reads the
+      // values. A fresh copy would cost as much memory again, and on virtual machines a first
+      // touch of fresh memory is slow (about 1.5 to 3 s per GiB measured on the benchmark VM).
+      // Each column moves to a place at or before its own, and the places are taken in
+      // increasing order, so no column is overwritten before it has moved.
+      const Eigen::Index n = run.table.n_samples();
+      float* const base = run.table.values.data();
+      for (std::size_t k = 0; k < by_file.size(); ++k) {
+        const auto from = static_cast<Eigen::Index>(r.kept[by_file[k]]), to = static_cast<Eigen::Index>(k);
+        if (from != to) std::copy_n(base + from * n, n, base + to * n);
+      }
+      Eigen::Map<Matrix> front(base, n, static_cast<Eigen::Index>(by_file.size()));
+      in_file_order = truncated_pca(front, po);
     } else {
-      // On disk too when the data are and the copy would take more than half the budget.
+      // On disk: a copy, itself on disk when it would take more than half the budget.
       MemoryBudget budget = read.memory;
       if (budget.bytes > 0) budget.bytes = std::max<std::int64_t>(1, budget.bytes / 2);
       Columns kept;
