@@ -31,13 +31,15 @@ ColumnStats stats_of(std::span<const T> values) {
   std::fill(highs, highs + kLanes, -kInf);
   const std::size_t size = values.size();
   const T* data = values.data();
+  // Selects, not branches, so the lanes vectorise.
   auto add = [&](int l, T value) {
     const bool seen = !std::isnan(value);
     const double x = seen ? static_cast<double>(value) : 0.0;
     sums[l] += x;
-    counts[l] += seen;
-    lows[l] = seen && x < lows[l] ? x : lows[l];
-    highs[l] = seen && x > highs[l] ? x : highs[l];
+    counts[l] += seen ? 1 : 0;
+    const double low = seen ? x : kInf, high = seen ? x : -kInf;
+    lows[l] = low < lows[l] ? low : lows[l];
+    highs[l] = high > highs[l] ? high : highs[l];
   };
   std::size_t i = 0;
   for (; i + kLanes <= size; i += kLanes)
