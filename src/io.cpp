@@ -9,6 +9,7 @@
 
 #include <algorithm>      // std::max, std::min, std::sort
 #include <atomic>         // std::atomic
+#include <bit>            // std::countr_zero, std::endian
 #include <cerrno>         // errno
 #include <cmath>          // std::isinf, std::isnan
 #include <cstdint>        // std::uint32_t
@@ -184,6 +185,27 @@ bool parse_whole(const char* b, const char* e, float& value) {
   return r.ec == std::errc() && r.ptr == e;
 }
 
+// How many of the 8 bytes of `word` (first character in the lowest byte) are ASCII digits before
+// the first that is not. A byte is a digit when its high nibble is 3 and adding 6 keeps it so (a
+// carry out of a byte of 0xFA or more can only spoil the bytes after it).
+inline int leading_digits(std::uint64_t word) {
+  const std::uint64_t high = word & 0xF0F0F0F0F0F0F0F0ULL, shifted = (word + 0x0606060606060606ULL) & 0xF0F0F0F0F0F0F0F0ULL;
+  const std::uint64_t other = (high ^ 0x3030303030303030ULL) | (shifted ^ 0x3030303030303030ULL);
+  return other == 0 ? 8 : std::countr_zero(other) / 8;
+}
+
+// The value of the first `count` (1 to 8) digits of `word`, first digit in the lowest byte: the
+// digits are moved to the top and the room filled with '0', then combined pairwise by multiplying
+// (the method of fast_float's parse_eight_digits_unrolled, written out here).
+inline std::uint32_t digits_value(std::uint64_t word, int count) {
+  if (count < 8) word = (word << (8 * (8 - count))) | (0x3030303030303030ULL >> (8 * count));
+  word -= 0x3030303030303030ULL;
+  word = word * 10 + (word >> 8);
+  word = (((word & 0x000000FF000000FFULL) * 0x000F424000000064ULL) +
+          (((word >> 16) & 0x000000FF000000FFULL) * 0x0000271000000001ULL)) >> 32;
+  return static_cast<std::uint32_t>(word);
+}
+
 // The common cell, a plain decimal of at most 9 digits ("-12.375", "0.227663", "574"), read
 // without the general parser: its digits m and fraction length d give m / 10^d, and while
 // m <= 2^24 and d <= 10 both are exact in float32, so the one IEEE division is the correctly
@@ -193,14 +215,38 @@ bool parse_whole(const char* b, const char* e, float& value) {
 // returns false and is left to fast_float. tests/io_test.cpp checks it against fast_float.
 inline bool parse_plain_decimal(const char*& p, const char* e, char delim, float& value) {
   static constexpr float kPow10[] = {1e0f, 1e1f, 1e2f, 1e3f, 1e4f, 1e5f, 1e6f, 1e7f, 1e8f, 1e9f};
+  static constexpr std::uint32_t kPow10Int[] = {1, 10, 100, 1000, 10000, 100000, 1000000, 10000000, 100000000};
   const char* s = p;
   const bool negative = s < e && *s == '-';
   s += negative;
   std::uint32_t m = 0;
+  std::ptrdiff_t whole = 0, fraction = 0;
+  if constexpr (std::endian::native == std::endian::little) {
+    if (e - s >= 17) {
+      // Eight bytes at a time: the integer digits, then (after a point) the fraction's.
+      std::uint64_t word;
+      std::memcpy(&word, s, sizeof word);
+      whole = leading_digits(word);
+      if (whole == 0 || whole == 8) return false;
+      s += whole;
+      m = digits_value(word, static_cast<int>(whole));
+      if (*s == '.') {
+        std::memcpy(&word, s + 1, sizeof word);
+        fraction = leading_digits(word);
+        if (fraction == 0 || fraction == 8 || whole + fraction > 9) return false;
+        m = m * kPow10Int[fraction] + digits_value(word, static_cast<int>(fraction));
+        s += 1 + fraction;
+      }
+      if (m > (std::uint32_t{1} << 24) || *s != delim) return false;
+      const float v = static_cast<float>(m) / kPow10[fraction];
+      value = negative ? -v : v;
+      p = s;
+      return true;
+    }
+  }
   const char* const digits = s;
   while (s < e && static_cast<unsigned char>(*s - '0') < 10 && s - digits < 10) m = 10 * m + static_cast<std::uint32_t>(*s++ - '0');
-  const auto whole = s - digits;
-  std::ptrdiff_t fraction = 0;
+  whole = s - digits;
   if (whole > 0 && s < e && *s == '.') {
     const char* const f = ++s;
     while (s < e && static_cast<unsigned char>(*s - '0') < 10 && whole + (s - f) < 10) m = 10 * m + static_cast<std::uint32_t>(*s++ - '0');
