@@ -214,18 +214,21 @@ std::uint64_t eight_digits(std::uint32_t v) {
 
 void store8(char* p, std::uint64_t bytes) { std::memcpy(p, &bytes, sizeof bytes); }
 
-}  // namespace
 
-char* write_shortest(char* p, float value) {
+// The body of write_shortest, inlined into the loops below. The common cases are written with
+// selects rather than branches, since neighbouring values in a data file differ in sign, size and
+// length unpredictably.
+inline char* shortest(char* p, float value) {
   std::uint32_t bits;
   std::memcpy(&bits, &value, sizeof bits);
-  if (bits >> 31) *p++ = '-';
+  *p = '-';
+  p += bits >> 31;
   const std::uint32_t biased = (bits >> 23) & 0xFF, fraction = bits & 0x7FFFFF;
-  if (biased == 0xFF) {
+  if (biased == 0xFF) [[unlikely]] {
     std::memcpy(p, fraction != 0 ? "nan" : "inf", 3);  // as std::to_chars spells them
     return p + 3;
   }
-  if (biased == 0 && fraction == 0) {
+  if ((bits << 1) == 0) [[unlikely]] {
     *p = '0';
     return p + 1;
   }
@@ -234,7 +237,7 @@ char* write_shortest(char* p, float value) {
   const int q = normal ? static_cast<int>(biased) - 150 : -149;
   Decimal d = shortest_decimal(c, q, fraction == 0 && biased > 1);
   if constexpr (std::endian::native != std::endian::little) return write_decimal(p, d.digits, d.exponent, c, q);
-  if (d.digits >= 100000000) {
+  if (d.digits >= 100000000) [[unlikely]] {
     if (d.digits % 10 != 0) return write_decimal(p, d.digits, d.exponent, c, q);  // 9 digits
     d.digits /= 10;
     ++d.exponent;
@@ -247,25 +250,25 @@ char* write_shortest(char* p, float value) {
   const int n = 8 - lead - trail, e = d.exponent + trail;
   const std::uint64_t text = (word >> (8 * lead)) | 0x3030303030303030ULL;
   const int scientific = n + (n > 1 ? 1 : 0) + 4;
-  const int plain = e >= 0 ? n + e : (n + e > 0 ? n + 1 : 2 - e);
-  if (plain <= scientific) {
-    if (e >= 0) {
-      if (q > 0) return write_decimal(p, d.digits, d.exponent, c, q);
-      store8(p, text);
-      store8(p + n, 0x3030303030303030ULL);
-      return p + n + e;
-    }
-    if (n + e > 0) {
-      const int whole = n + e;
-      store8(p, text);
-      p[whole] = '.';
-      store8(p + whole + 1, text >> (8 * whole));
-      return p + n + 1;
-    }
-    store8(p, 0x3030303030302E30ULL);  // "0.000000"
-    store8(p + 2 - e - n, text);
-    return p + 2 - e;
+  if (e < 0 && 2 - e <= scientific) {
+    // Plain with a point: the integer part (the first `whole` digits, or "0"), the point, the
+    // zeros after it (for values under 0.1), the rest of the digits.
+    const int whole = n + e;
+    const bool has_whole = whole > 0;
+    const int before = has_whole ? whole : 1, zeros = has_whole ? 0 : -whole;
+    store8(p, has_whole ? text : 0x30);
+    p[before] = '.';
+    store8(p + before + 1, 0x3030303030303030ULL);
+    store8(p + before + 1 + zeros, has_whole ? text >> (8 * whole) : text);
+    return p + before + 1 + zeros + (has_whole ? n - whole : n);
   }
+  if (e >= 0 && n + e <= scientific) {
+    if (q > 0) return write_decimal(p, d.digits, d.exponent, c, q);  // 2^24 or more
+    store8(p, text);
+    store8(p + n, 0x3030303030303030ULL);
+    return p + n + e;
+  }
+  // d[.ddd]e+XX
   store8(p + 1, text);
   p[0] = p[1];
   char* at = p + 1;
@@ -280,13 +283,32 @@ char* write_shortest(char* p, float value) {
   return at + 4;
 }
 
+}  // namespace
+
+char* write_shortest(char* p, float value) { return shortest(p, value); }
+
 char* write_number(char* p, float value) {
   if (std::isnan(value)) {
     p[0] = 'N';
     p[1] = 'A';
     return p + 2;
   }
-  return write_shortest(p, value);
+  return shortest(p, value);
+}
+
+char* write_numbers(char* p, const float* x, std::ptrdiff_t count, std::ptrdiff_t step, char delimiter) {
+  for (std::ptrdiff_t i = 0; i < count; ++i) {
+    *p++ = delimiter;
+    const float v = x[i * step];
+    if (std::isnan(v)) [[unlikely]] {
+      p[0] = 'N';
+      p[1] = 'A';
+      p += 2;
+    } else {
+      p = shortest(p, v);
+    }
+  }
+  return p;
 }
 
 void append_number(std::string& out, double value) { append_shortest(out, value); }

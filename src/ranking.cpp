@@ -301,9 +301,9 @@ struct Result {
 };
 
 Result score_one(const float* column, std::int64_t n_rows, const std::vector<int>& codes, int k,
-                 const ScoreOptions& options, Scratch& s) {
+                 const ScoreOptions& options, Scratch& s, const ColumnStats* known) {
   Result r;
-  const ColumnStats stats = column_stats(std::span<const float>(column, static_cast<std::size_t>(n_rows)));
+  const ColumnStats stats = known ? *known : column_stats(std::span<const float>(column, static_cast<std::size_t>(n_rows)));
   r.variance = stats.n >= 2 ? stats.variance : 0.0;
   r.missing_rate = stats.missing_rate();
   const auto ku = static_cast<std::size_t>(k);
@@ -421,7 +421,8 @@ Result score_one(const float* column, std::int64_t n_rows, const std::vector<int
 }  // namespace
 
 FeatureScores score_features(const ConstMatrixRef& m, std::span<const std::int64_t> features,
-                             const ClassCodes& classes, const ScoreOptions& options) {
+                             const ClassCodes& classes, const ScoreOptions& options,
+                             std::span<const ColumnStats> stats) {
   const int k = static_cast<int>(classes.classes.size());
   if (k < 2)
     throw Error(ErrorKind::kInput,
@@ -431,6 +432,8 @@ FeatureScores score_features(const ConstMatrixRef& m, std::span<const std::int64
   if (options.neighbors < 1) throw_usage_error("--neighbors must be 1 or more");
   if (static_cast<std::int64_t>(classes.codes.size()) != m.rows())
     throw Error(ErrorKind::kOther, "internal: one class code per sample expected");
+  if (!stats.empty() && stats.size() != features.size())
+    throw Error(ErrorKind::kOther, "internal: one ColumnStats per scored feature expected");
 
   const std::size_t p = features.size();
   FeatureScores out;
@@ -445,7 +448,8 @@ FeatureScores score_features(const ConstMatrixRef& m, std::span<const std::int64
     progress.add(1);
     try {
       results[j] = score_one(m.col(features[j]).data(), m.rows(), classes.codes, k, options,
-                             scratch[static_cast<std::size_t>(omp_get_thread_num())]);
+                             scratch[static_cast<std::size_t>(omp_get_thread_num())],
+                             stats.empty() ? nullptr : &stats[j]);
     } catch (...) {
 #pragma omp critical(pare_score_failure)
       if (!failure) failure = std::current_exception();

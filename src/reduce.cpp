@@ -152,7 +152,9 @@ Reduction reduce(FeatureTable& t, const ReduceOptions& o) {
   }
   r.steps.push_back({"transform", n_alive, n_alive, timer.lap()});
 
-  // 4. variance filter, on the observed transformed values
+  // 4. variance filter, on the observed transformed values (their statistics are kept, by
+  // column, for scoring)
+  std::vector<ColumnStats> current(static_cast<std::size_t>(p));
   {
     std::vector<ColumnStats> stats(alive.size());
     if (o.log2) {
@@ -165,6 +167,7 @@ Reduction reduce(FeatureTable& t, const ReduceOptions& o) {
     std::vector<std::int64_t> next;
     for (std::size_t a = 0; a < alive.size(); ++a) {
       const std::int64_t j = alive[a];
+      current[static_cast<std::size_t>(j)] = stats[a];
       const double v = stats[a].variance;
       r.variance[static_cast<std::size_t>(j)] = v;
       if (!o.variance_filter) {
@@ -207,7 +210,9 @@ Reduction reduce(FeatureTable& t, const ReduceOptions& o) {
     ScoreOptions so = o.score;
     so.threads = o.threads;
     so.counts_chi2 = o.rank_by == Criterion::kChi2Counts;
-    r.scores = score_features(t.values, alive, classes, so);
+    std::vector<ColumnStats> alive_stats(alive.size());
+    for (std::size_t a = 0; a < alive.size(); ++a) alive_stats[a] = current[static_cast<std::size_t>(alive[a])];
+    r.scores = score_features(t.values, alive, classes, so, alive_stats);
     for (const std::size_t pos : rank_order(r.scores, r.criterion)) {
       const std::int64_t j = r.scores.feature[pos];
       r.score_of[static_cast<std::size_t>(j)] = static_cast<std::int64_t>(pos);
@@ -481,12 +486,7 @@ void write_reduced_matrix(const FeatureTable& t, const std::vector<std::int64_t>
     // One line of `count` numbers after its first field, all values written with a delimiter first.
     auto put_numbers = [&](const float* x, Eigen::Index count, Eigen::Index step) {
       char* p = room(static_cast<std::size_t>(count) * (internal::kNumberRoom + 1));
-      char* const begin = p;
-      for (Eigen::Index i = 0; i < count; ++i) {
-        *p++ = d;
-        p = internal::write_number(p, x[i * step]);
-      }
-      text.size += static_cast<std::size_t>(p - begin);
+      text.size += static_cast<std::size_t>(internal::write_numbers(p, x, count, step, d) - p);
     };
     const Eigen::Index begin = group * group_lines, end = std::min(lines, begin + group_lines);
     if (by_sample) {

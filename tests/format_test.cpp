@@ -6,7 +6,7 @@
 // every exponent's edges (powers of two and their neighbours, where the rounding interval is
 // lopsided), the subnormals nearest zero, the integers around 2^24 (above it std::to_chars prints
 // the exact integer) and decimal texts like those in a data file. The hidden test after it checks
-// every bit pattern (about seven minutes on two cores):
+// every bit pattern (about two minutes on two cores):
 //     build/release/pare_tests "[.exhaustive]"
 #include "internal/format.h"
 

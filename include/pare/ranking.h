@@ -80,9 +80,12 @@ std::vector<double> bh_adjust(std::span<const double> p);
 std::vector<double> bonferroni_adjust(std::span<const double> p);
 
 /// Scores the columns `features` of `m` against `classes` (one code per row of `m`), in parallel
-/// over features. Results do not depend on the thread count. Needs at least 2 classes.
+/// over features. Results do not depend on the thread count. Needs at least 2 classes. `stats`, if
+/// given, holds column_stats of each of the columns (one per entry of `features`), which the
+/// caller often has already; otherwise they are computed.
 FeatureScores score_features(const ConstMatrixRef& m, std::span<const std::int64_t> features,
-                             const ClassCodes& classes, const ScoreOptions& options);
+                             const ClassCodes& classes, const ScoreOptions& options,
+                             std::span<const ColumnStats> stats = {});
 
 /// The positions 0..size-1 of `scores` in ranking order for `criterion`: score descending, ties in
 /// input order.

@@ -1,6 +1,7 @@
 // Text output helpers: shortest round-trip numbers and delimited-field quoting.
 #pragma once
 
+#include <cstddef>      // std::ptrdiff_t, std::size_t
 #include <string>       // std::string
 #include <string_view>  // std::string_view
 
@@ -18,6 +19,9 @@ char* write_number(char* p, float value);
 /// Writes exactly what std::to_chars(p, p + kNumberRoom, value) writes (shortest round-trip text,
 /// plain or scientific, whichever is shorter; "nan", "inf"), about three times as fast.
 char* write_shortest(char* p, float value);
+/// Writes `delimiter` and then write_number(x[i * step]) for i < count, at `p`, which must have
+/// count x (kNumberRoom + 1) bytes of room; returns the end.
+char* write_numbers(char* p, const float* x, std::ptrdiff_t count, std::ptrdiff_t step, char delimiter);
 
 /// Appends `value` with `digits` significant digits (for people, not for round trips).
 void append_rounded(std::string& out, double value, int digits);
