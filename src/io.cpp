@@ -4,6 +4,7 @@
 #include <omp.h>
 #include <fcntl.h>
 #include <signal.h>
+#include <sys/mman.h>
 #include <sys/stat.h>
 #include <unistd.h>
 
@@ -11,6 +12,7 @@
 #include <atomic>         // std::atomic
 #include <bit>            // std::countr_zero, std::endian
 #include <cerrno>         // errno
+#include <chrono>         // std::chrono::steady_clock
 #include <cmath>          // std::isinf, std::isnan
 #include <cstdint>        // std::uint32_t
 #include <cstdlib>        // std::strtol
@@ -1031,27 +1033,92 @@ OutputFile::OutputFile(std::string path) : path_(std::move(path)) {
                        "check that the folder exists and is writable");
 }
 
+namespace {
+
+constexpr std::size_t kDirectBlock = std::size_t{4} << 20;
+
+}  // namespace
+
 OutputFile::~OutputFile() {
+  if (stage_) ::munmap(stage_, kDirectBlock);
   if (committed_) return;
   if (fd_ >= 0) ::close(fd_);
   ::unlink(temp_path_.c_str());
 }
 
-void OutputFile::write(std::string_view bytes) {
-  while (!bytes.empty()) {
-    const ssize_t put = ::write(fd_, bytes.data(), bytes.size());
+void OutputFile::write_out(const char* data, std::size_t size) {
+  while (size > 0) {
+    const ssize_t put = ::write(fd_, data, size);
     if (put < 0) {
       if (errno == EINTR) continue;
+      if (errno == EINVAL && stage_) {
+        // The filesystem took O_DIRECT at open but not these writes: write normally instead.
+        ::fcntl(fd_, F_SETFL, ::fcntl(fd_, F_GETFL) & ~O_DIRECT);
+        continue;
+      }
       throw_output_error(path_, std::string("cannot write: ") + std::strerror(errno),
                          "check free disk space");
     }
-    bytes.remove_prefix(static_cast<std::size_t>(put));
+    data += put;
+    size -= static_cast<std::size_t>(put);
   }
+}
+
+void OutputFile::write(std::string_view bytes) {
+  if (!stage_) {
+    write_out(bytes.data(), bytes.size());
+    return;
+  }
+  while (!bytes.empty()) {
+    const std::size_t take = std::min(bytes.size(), kDirectBlock - staged_);
+    std::memcpy(stage_ + staged_, bytes.data(), take);
+    staged_ += take;
+    bytes.remove_prefix(take);
+    if (staged_ == kDirectBlock) {
+      const auto start = std::chrono::steady_clock::now();
+      write_out(stage_, kDirectBlock);
+      staged_ = 0;
+      // A slow device (a network share, a disk) would now hold up the run, where the page cache
+      // would have absorbed the writes: averaging under 250 MB/s over 4 blocks or more, go back
+      // to writing through it.
+      direct_seconds_ += std::chrono::duration<double>(std::chrono::steady_clock::now() - start).count();
+      ++direct_blocks_;
+      if (direct_blocks_ >= 4 && direct_seconds_ > 0.016 * direct_blocks_) {
+        ::fcntl(fd_, F_SETFL, ::fcntl(fd_, F_GETFL) & ~O_DIRECT);
+        ::munmap(stage_, kDirectBlock);
+        stage_ = nullptr;
+        write_out(bytes.data(), bytes.size());
+        return;
+      }
+    }
+  }
+}
+
+void OutputFile::write_direct() {
+  if (stage_ || fd_ < 0) return;
+  // Whole blocks from an aligned buffer at aligned offsets: what was written so far is flushed
+  // normally first only if it left the offset unaligned.
+  const off_t at = ::lseek(fd_, 0, SEEK_CUR);
+  if (at < 0 || at % 4096 != 0) return;
+  const int flags = ::fcntl(fd_, F_GETFL);
+  if (flags < 0 || ::fcntl(fd_, F_SETFL, flags | O_DIRECT) != 0) return;
+  void* p = ::mmap(nullptr, kDirectBlock, PROT_READ | PROT_WRITE, MAP_PRIVATE | MAP_ANONYMOUS, -1, 0);
+  if (p == MAP_FAILED) {
+    ::fcntl(fd_, F_SETFL, flags);
+    return;
+  }
+  stage_ = static_cast<char*>(p);
 }
 
 void OutputFile::write_gzip(std::string_view bytes, int level) { write(internal::gzip(bytes, level)); }
 
 void OutputFile::commit() {
+  if (stage_ && staged_ > 0) {
+    // The tail is not a whole block: written through the page cache.
+    ::fcntl(fd_, F_SETFL, ::fcntl(fd_, F_GETFL) & ~O_DIRECT);
+    write_out(stage_, staged_);
+    staged_ = 0;
+  }
   if (::close(fd_) != 0) {
     fd_ = -1;
     throw_output_error(path_, std::string("cannot finish writing: ") + std::strerror(errno));

@@ -228,6 +228,7 @@ ReduceRun reduce_and_write(const InputOptions& input, const CommonOptions& commo
     ranking_text = std::async(std::launch::async, [&] { return reduction_ranking_tsv(run.table, r); });
     log_text = std::async(std::launch::async, [&] { return selection_log_tsv(run.table, r); });
     OutputFile& reduced = files.open("reduced.csv");
+    reduced.write_direct();
     write_reduced_matrix(run.table, r.kept, names, [&](std::string_view piece) { reduced.write(piece); });
   }
   PlanProjection plan_projection;
