@@ -107,6 +107,8 @@ std::string plan_json(const FeatureTable& t, const Reduction& r, const ReduceOpt
     plan["outputs"]["loadings"] = pp.loadings_file;
     plan["outputs"]["explained"] = "explained.tsv";
   }
+  if (!run.sample_screen_json.empty()) plan["sample_screen"] = json::parse(run.sample_screen_json);
+  for (const auto& [role, file] : run.more_outputs) plan["outputs"][role] = file;
   return plan.dump(1) + "\n";
 }
 

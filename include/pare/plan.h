@@ -4,6 +4,7 @@
 
 #include <cstdint>  // std::int64_t, std::uint64_t
 #include <string>   // std::string
+#include <utility>  // std::pair
 #include <vector>   // std::vector
 
 #include "pare/io.h"
@@ -26,6 +27,8 @@ struct RunRecord {
   std::vector<std::string> na_tokens;
   bool allow_inf = false;
   std::uint64_t seed = 1;
+  std::string sample_screen_json;  ///< the "sample_screen" section as JSON text, or empty
+  std::vector<std::pair<std::string, std::string>> more_outputs;  ///< "outputs" entries: role, file
 };
 
 /// The projection part of a plan: what apply needs to project new samples.

@@ -116,21 +116,19 @@ void drop_samples(FeatureTable& table, const std::vector<std::int64_t>& drop, co
 }
 
 // plan.json with the sample screen's record: its rule and which samples it flagged and dropped.
-std::string plan_with_screen(const std::string& text, const ReduceRun& run) {
-  nlohmann::json plan = nlohmann::json::parse(text);
+// The plan's record of the sample screen, as JSON text.
+std::string screen_section(const ReduceRun& run) {
   nlohmann::json flagged = nlohmann::json::array(), dropped = nlohmann::json::array();
   for (const std::int64_t i : run.screen.flagged()) flagged.push_back(run.input_ids[static_cast<std::size_t>(i)]);
   for (std::size_t i = 0; i < run.dropped.size(); ++i)
     if (run.dropped[i]) dropped.push_back(run.input_ids[i]);
-  plan["sample_screen"] = {{"screened", run.screen.done},
-                           {"rule", screen_rule(run.screen)},
-                           {"flagged", flagged},
-                           {"dropped", dropped},
-                           {"samples_before_dropping", run.input_ids.size()}};
-  if (run.screen.done) plan["sample_screen"]["threshold"] = run.screen.robust.threshold;
-  plan["outputs"]["samples"] = "samples.tsv";
-  plan["outputs"]["report"] = "report.html";
-  return plan.dump(1) + "\n";
+  nlohmann::json section = {{"screened", run.screen.done},
+                            {"rule", screen_rule(run.screen)},
+                            {"flagged", flagged},
+                            {"dropped", dropped},
+                            {"samples_before_dropping", run.input_ids.size()}};
+  if (run.screen.done) section["threshold"] = run.screen.robust.threshold;
+  return section.dump();
 }
 
 // What to run after the selection: a projection of the kept features (components > 0).
@@ -322,7 +320,9 @@ ReduceRun reduce_and_write(const InputOptions& input, const CommonOptions& commo
     files.add("ranking.tsv", ranking_text.get());
     files.add("selection-log.tsv", log_text.get());
   }
-  const std::string plan = plan_with_screen(plan_json(run.table, r, options, record, plan_projection), run);
+  record.sample_screen_json = screen_section(run);
+  record.more_outputs = {{"samples", "samples.tsv"}, {"report", "report.html"}};
+  const std::string plan = plan_json(run.table, r, options, record, plan_projection);
   files.add("plan.json", plan);
   files.add("samples.tsv", samples_tsv(run.screen, run.input_ids, run.input_labels, run.table.label_name, run.dropped));
   {
