@@ -220,11 +220,18 @@ ReduceRun reduce_and_write(const InputOptions& input, const CommonOptions& commo
   OutputSet files(common.out, inputs);
   // ranking.tsv and the selection log are text built from names and scores alone, one thread
   // each: they are built alongside reduced.csv and the PCA, which leave a core idle part of the
-  // time, and written after them.
+  // time, and written after them. Under --memory they are built and written one at a time first,
+  // so their text (about 400 bytes per feature) is not held while the rest runs.
+  const bool bounded = read.memory.bytes > 0;
   std::future<std::string> ranking_text, log_text;
   if (project.selection_outputs) {
-    ranking_text = std::async(std::launch::async, [&] { return reduction_ranking_tsv(run.table, r); });
-    log_text = std::async(std::launch::async, [&] { return selection_log_tsv(run.table, r); });
+    if (bounded) {
+      files.add("ranking.tsv", reduction_ranking_tsv(run.table, r));
+      files.add("selection-log.tsv", selection_log_tsv(run.table, r));
+    } else {
+      ranking_text = std::async(std::launch::async, [&] { return reduction_ranking_tsv(run.table, r); });
+      log_text = std::async(std::launch::async, [&] { return selection_log_tsv(run.table, r); });
+    }
     OutputFile& reduced = files.open("reduced.csv");
     reduced.write_direct();
     write_reduced_matrix(run.table, r.kept, names, [&](std::string_view piece) { reduced.write(piece); });
@@ -316,7 +323,7 @@ ReduceRun reduce_and_write(const InputOptions& input, const CommonOptions& commo
     run.reduction.steps.push_back(StepRecord{"project", static_cast<std::int64_t>(r.kept.size()),
                                              static_cast<std::int64_t>(r.kept.size()), seconds_since(start_pca)});
   }
-  if (project.selection_outputs) {
+  if (project.selection_outputs && !bounded) {
     files.add("ranking.tsv", ranking_text.get());
     files.add("selection-log.tsv", log_text.get());
   }
