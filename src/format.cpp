@@ -147,6 +147,22 @@ void write_digits(char* end, std::uint64_t v, int count) {
 }
 
 
+// The scientific form d[.ddd]e+XX of digits x 10^e, its n digits already written at p + 1: the
+// first digit moves in front of the point.
+char* finish_scientific(char* p, int n, int e) {
+  p[0] = p[1];
+  char* at = p + 1;
+  if (n > 1) {
+    *at = '.';
+    at = p + n + 1;
+  }
+  const int x = e + n - 1;
+  at[0] = 'e';
+  at[1] = x < 0 ? '-' : '+';
+  std::memcpy(at + 2, kTwoDigits + 2 * (x < 0 ? -x : x), 2);
+  return at + 4;
+}
+
 // Writes digits x 10^e as std::to_chars does, digit by digit (`c` and `q` are the float's fields,
 // for integers of 2^24 or more).
 char* write_decimal(char* p, std::uint32_t digits, int e, std::uint32_t c, int q) {
@@ -188,17 +204,7 @@ char* write_decimal(char* p, std::uint32_t digits, int e, std::uint32_t c, int q
   }
   // d[.ddd]e+XX
   write_digits(p + n + 1, digits, n);
-  p[0] = p[1];
-  char* at = p + 1;
-  if (n > 1) {
-    *at = '.';
-    at = p + n + 1;
-  }
-  const int x = e + n - 1;
-  at[0] = 'e';
-  at[1] = x < 0 ? '-' : '+';
-  std::memcpy(at + 2, kTwoDigits + 2 * (x < 0 ? -x : x), 2);
-  return at + 4;
+  return finish_scientific(p, n, e);
 }
 
 // The 8 decimal digits of v < 10^8, one per byte, most significant in the lowest byte (text order
@@ -271,17 +277,7 @@ inline char* shortest(char* p, float value) {
   }
   // d[.ddd]e+XX
   store8(p + 1, text);
-  p[0] = p[1];
-  char* at = p + 1;
-  if (n > 1) {
-    *at = '.';
-    at = p + n + 1;
-  }
-  const int x = e + n - 1;
-  at[0] = 'e';
-  at[1] = x < 0 ? '-' : '+';
-  std::memcpy(at + 2, kTwoDigits + 2 * (x < 0 ? -x : x), 2);
-  return at + 4;
+  return finish_scientific(p, n, e);
 }
 
 }  // namespace
