@@ -449,10 +449,10 @@ void write_reduced_matrix(const FeatureTable& t, const std::vector<std::int64_t>
   sink(header);
 
   // Lines are formatted in parallel, a group of lines per task, straight into reused buffers
-  // (numbers by std::to_chars, nothing appended through std::string), and a round of groups is
-  // handed to `sink` on another thread while the next round is formatted. For rows=samples a
-  // group's values are first gathered row-major from the column-major matrix, a group's run of
-  // contiguous floats (one or two cache lines) per column.
+  // (numbers by internal::write_numbers, nothing appended through std::string), and a round of
+  // groups is handed to `sink` on another thread while the next round is formatted. For
+  // rows=samples a group's values are first gathered row-major from the column-major matrix, a
+  // group's run of contiguous floats (one or two cache lines) per column.
   const Eigen::Index lines = by_sample ? n : k;
   const Eigen::Index groups = (lines + group_lines - 1) / group_lines;
   const int threads = internal::thread_count(0);

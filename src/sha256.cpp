@@ -5,7 +5,6 @@
 #include <cstring>  // std::strerror
 #include <filesystem>  // std::filesystem::is_regular_file
 #include <fstream>  // std::ifstream
-#include <memory>   // std::unique_ptr
 #include <vector>   // std::vector
 
 #include "pare/error.h"
@@ -27,14 +26,6 @@ std::string to_hex(const unsigned char* digest, unsigned int length) {
 
 }  // namespace
 
-std::string sha256_hex(std::string_view bytes) {
-  unsigned char digest[EVP_MAX_MD_SIZE];
-  unsigned int length = 0;
-  if (EVP_Digest(bytes.data(), bytes.size(), digest, &length, EVP_sha256(), nullptr) != 1)
-    throw Error(ErrorKind::kOther, "SHA-256 computation failed");
-  return to_hex(digest, length);
-}
-
 Sha256::Sha256() : ctx_(EVP_MD_CTX_new()) {
   if (!ctx_ || EVP_DigestInit_ex(static_cast<EVP_MD_CTX*>(ctx_), EVP_sha256(), nullptr) != 1) {
     EVP_MD_CTX_free(static_cast<EVP_MD_CTX*>(ctx_));
@@ -53,6 +44,12 @@ std::string Sha256::hex() {
   return to_hex(digest, length);
 }
 
+std::string sha256_hex(std::string_view bytes) {
+  Sha256 hash;
+  hash.update(bytes);
+  return hash.hex();
+}
+
 std::string sha256_file(const std::string& path) {
   // Inputs are read twice (hashed, then parsed), so they must be regular files: a pipe would be
   // split between the two readers and a device such as /dev/zero never ends.
@@ -63,20 +60,15 @@ std::string sha256_file(const std::string& path) {
                                                         : "check the path");
   std::ifstream in(path, std::ios::binary);
   if (!in) throw_input_error({path}, std::string("cannot open the file: ") + std::strerror(errno));
-  const std::unique_ptr<EVP_MD_CTX, decltype(&EVP_MD_CTX_free)> ctx(EVP_MD_CTX_new(), &EVP_MD_CTX_free);
-  if (!ctx || EVP_DigestInit_ex(ctx.get(), EVP_sha256(), nullptr) != 1)
-    throw Error(ErrorKind::kOther, "SHA-256 computation failed");
+  Sha256 hash;
   std::vector<char> buffer(std::size_t{1} << 20);
   while (in) {
     in.read(buffer.data(), static_cast<std::streamsize>(buffer.size()));
     const auto got = in.gcount();
-    if (got > 0) EVP_DigestUpdate(ctx.get(), buffer.data(), static_cast<std::size_t>(got));
+    if (got > 0) hash.update(std::string_view(buffer.data(), static_cast<std::size_t>(got)));
   }
   if (in.bad()) throw_input_error({path}, "cannot read the file");
-  unsigned char digest[EVP_MAX_MD_SIZE];
-  unsigned int length = 0;
-  EVP_DigestFinal_ex(ctx.get(), digest, &length);
-  return to_hex(digest, length);
+  return hash.hex();
 }
 
 }  // namespace pare::internal

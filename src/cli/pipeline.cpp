@@ -115,8 +115,8 @@ void drop_samples(FeatureTable& table, const std::vector<std::int64_t>& drop, co
   table.labels = std::move(labels);
 }
 
-// plan.json with the sample screen's record: its rule and which samples it flagged and dropped.
-// The plan's record of the sample screen, as JSON text.
+// The plan's record of the sample screen, as JSON text: its rule and which samples it flagged and
+// dropped.
 std::string screen_section(const ReduceRun& run) {
   nlohmann::json flagged = nlohmann::json::array(), dropped = nlohmann::json::array();
   for (const std::int64_t i : run.screen.flagged()) flagged.push_back(run.input_ids[static_cast<std::size_t>(i)]);
