@@ -191,18 +191,19 @@ PruneResult prune_correlated(const ConstMatrixRef& m, std::span<const std::int64
     if (bounded) screen_block.reset(m_rows, width, second_look ? m2_rows - m_rows : 0);
     // On disk the block is read in file order and a 2 MiB window is given back when a thread's
     // walk leaves it (in rank order nearly every column would map and drop a whole window).
-    std::vector<std::int64_t> visit(static_cast<std::size_t>(width));
-    std::iota(visit.begin(), visit.end(), std::int64_t{0});
-    if (on_disk)
-      std::stable_sort(visit.begin(), visit.end(), [&](std::int64_t a, std::int64_t b) {
-        return candidates[static_cast<std::size_t>(start + a)] < candidates[static_cast<std::size_t>(start + b)];
-      });
+    std::vector<std::size_t> visit;
+    if (on_disk) {
+      visit = internal::file_order(candidates.subspan(static_cast<std::size_t>(start), static_cast<std::size_t>(width)));
+    } else {
+      visit.resize(static_cast<std::size_t>(width));
+      std::iota(visit.begin(), visit.end(), std::size_t{0});
+    }
 #pragma omp parallel num_threads(threads)
     {
       internal::WindowWalk walk(static_cast<std::size_t>(n) * sizeof(float));
 #pragma omp for schedule(static)
     for (std::size_t at = 0; at < visit.size(); ++at) {
-      const std::int64_t b = visit[at];
+      const auto b = static_cast<std::int64_t>(visit[at]);
       const float* x = col(start + b);
       const Moments mo = moments_of(x, n);
       moments[static_cast<std::size_t>(start + b)] = mo;

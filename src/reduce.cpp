@@ -463,14 +463,9 @@ void write_reduced_matrix(const FeatureTable& t, const std::vector<std::int64_t>
   };
   std::vector<Text> texts(static_cast<std::size_t>(2 * batch));  // two rounds: one formatted, one written
   const bool on_disk = internal::any_on_disk();
-  std::vector<Eigen::Index> file_order;  // output positions by column index, on disk
-  if (on_disk && by_sample) {
-    file_order.resize(static_cast<std::size_t>(k));
-    std::iota(file_order.begin(), file_order.end(), Eigen::Index{0});
-    std::stable_sort(file_order.begin(), file_order.end(), [&](Eigen::Index a, Eigen::Index b) {
-      return columns[static_cast<std::size_t>(a)] < columns[static_cast<std::size_t>(b)];
-    });
-  }
+  // On disk, the output positions in the order of their column indices.
+  const std::vector<std::size_t> file_order =
+      on_disk && by_sample ? internal::file_order(columns) : std::vector<std::size_t>();
   auto format_group = [&](Eigen::Index group, Text& text) {
     text.size = 0;
     auto room = [&](std::size_t bytes) {
@@ -497,7 +492,7 @@ void write_reduced_matrix(const FeatureTable& t, const std::vector<std::int64_t>
       // leaves it (in rank order nearly every column would map and drop a whole window).
       internal::WindowWalk walk(static_cast<std::size_t>(rows) * sizeof(float));
       for (Eigen::Index o = 0; o < k; ++o) {
-        const Eigen::Index c = on_disk ? file_order[static_cast<std::size_t>(o)] : o;
+        const Eigen::Index c = on_disk ? static_cast<Eigen::Index>(file_order[static_cast<std::size_t>(o)]) : o;
         const float* x = t.values.col(columns[static_cast<std::size_t>(c)]).data() + begin;
         for (Eigen::Index i = 0; i < rows; ++i) block[static_cast<std::size_t>(i * k + c)] = x[i];
         walk.visited(x);

@@ -4,7 +4,6 @@
 #include <chrono>      // std::chrono::steady_clock
 #include <filesystem>  // std::filesystem::equivalent
 #include <future>      // std::async
-#include <numeric>     // std::iota
 #include <memory>      // std::unique_ptr
 
 #include <nlohmann/json.hpp>
@@ -246,9 +245,7 @@ ReduceRun reduce_and_write(const InputOptions& input, const CommonOptions& commo
     // The kept columns are analysed in file order, so the data and the copy are both walked front
     // to back (on disk, in rank order nearly every column would map and drop a whole 2 MiB
     // window); the loadings, centres and scales are put back in rank order afterwards.
-    std::vector<std::size_t> by_file(r.kept.size());
-    std::iota(by_file.begin(), by_file.end(), std::size_t{0});
-    std::stable_sort(by_file.begin(), by_file.end(), [&](std::size_t a, std::size_t b) { return r.kept[a] < r.kept[b]; });
+    const std::vector<std::size_t> by_file = internal::file_order(r.kept);
     bool identity = static_cast<std::int64_t>(r.kept.size()) == run.table.n_features();
     for (std::size_t k = 0; identity && k < by_file.size(); ++k) identity = r.kept[by_file[k]] == static_cast<std::int64_t>(k);
     Projection in_file_order;

@@ -37,6 +37,15 @@ std::uintptr_t window_of(const void* data);
 /// True when some matrix lives in a cache file (so callers can skip bookkeeping otherwise).
 bool any_on_disk();
 
+/// The positions 0..columns.size()-1 in the order of their column indices (ties in position
+/// order): how to walk `columns` front to back through the matrix, in file order.
+inline std::vector<std::size_t> file_order(std::span<const std::int64_t> columns) {
+  std::vector<std::size_t> order(columns.size());
+  std::iota(order.begin(), order.end(), std::size_t{0});
+  std::stable_sort(order.begin(), order.end(), [&](std::size_t a, std::size_t b) { return columns[a] < columns[b]; });
+  return order;
+}
+
 /// Gives back, on disk, the 2 MiB windows a walk over columns has left: call visited() with each
 /// column (or part of one) after use; the window of the last one is given back on destruction.
 /// Walks in file order then give back each window once, where releasing every column would drop
@@ -75,12 +84,7 @@ void for_each_column(const ConstMatrixRef& m, std::span<const std::int64_t> colu
   constexpr std::size_t kChunk = 64;
   const std::size_t chunks = (columns.size() + kChunk - 1) / kChunk;
   const bool on_disk = any_on_disk();
-  std::vector<std::size_t> visit;
-  if (on_disk) {
-    visit.resize(columns.size());
-    std::iota(visit.begin(), visit.end(), std::size_t{0});
-    std::stable_sort(visit.begin(), visit.end(), [&](std::size_t a, std::size_t b) { return columns[a] < columns[b]; });
-  }
+  const std::vector<std::size_t> visit = on_disk ? file_order(columns) : std::vector<std::size_t>();
 #pragma omp parallel for schedule(dynamic, 1) num_threads(threads)
   for (std::size_t c = 0; c < chunks; ++c) {
     const std::size_t begin = c * kChunk, end = std::min(columns.size(), begin + kChunk);
