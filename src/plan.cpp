@@ -8,6 +8,7 @@
 #include <unordered_map>  // std::unordered_map
 
 #include "internal/omp.h"
+#include "internal/plan_document.h"
 #include "internal/sha256.h"
 #include "pare/error.h"
 
@@ -28,6 +29,13 @@ std::string delimiter_text(char d) { return std::string(1, d); }
 
 std::string plan_json(const FeatureTable& t, const Reduction& r, const ReduceOptions& o, const RunRecord& run,
                       const PlanProjection& pp) {
+  return internal::plan_text(internal::plan_document(t, r, o, run, pp));
+}
+
+std::string internal::plan_text(const json& plan) { return plan.dump(1) + "\n"; }
+
+json internal::plan_document(const FeatureTable& t, const Reduction& r, const ReduceOptions& o, const RunRecord& run,
+                             const PlanProjection& pp) {
   json plan;
   plan["pare_plan"] = kPlanFormat;
   plan["pare_version"] = PARE_VERSION;
@@ -109,7 +117,7 @@ std::string plan_json(const FeatureTable& t, const Reduction& r, const ReduceOpt
   }
   if (!run.sample_screen_json.empty()) plan["sample_screen"] = json::parse(run.sample_screen_json);
   for (const auto& [role, file] : run.more_outputs) plan["outputs"][role] = file;
-  return plan.dump(1) + "\n";
+  return plan;
 }
 
 namespace {

@@ -8,6 +8,7 @@
 #include <string_view>  // std::string_view
 
 #include "internal/format.h"
+#include "internal/plan_document.h"
 #include <nlohmann/json.hpp>
 
 namespace pare {
@@ -1407,7 +1408,10 @@ void add_profile(ReportData& d, const FeatureTable& t, const Profile& pf) {
 }
 
 void add_plan_record(ReportData& d, const std::string& plan_text) {
-  const nlohmann::json plan = nlohmann::json::parse(plan_text);
+  internal::add_plan_record(d, nlohmann::json::parse(plan_text));
+}
+
+void internal::add_plan_record(ReportData& d, const nlohmann::json& plan) {
   ReportRecord& r = d.record;
   r.version = plan.value("pare_version", std::string(PARE_VERSION));
   if (plan.contains("command_line"))

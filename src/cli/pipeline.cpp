@@ -10,6 +10,7 @@
 
 #include "cli/text.h"
 #include "internal/omp.h"
+#include "internal/plan_document.h"
 #include "internal/sha256.h"
 #include "internal/spill.h"
 #include "pare/error.h"
@@ -326,7 +327,8 @@ ReduceRun reduce_and_write(const InputOptions& input, const CommonOptions& commo
   }
   record.sample_screen_json = screen_section(run);
   record.more_outputs = {{"samples", "samples.tsv"}, {"report", "report.html"}};
-  const std::string plan = plan_json(run.table, r, options, record, plan_projection);
+  const nlohmann::json plan_document = internal::plan_document(run.table, r, options, record, plan_projection);
+  const std::string plan = internal::plan_text(plan_document);
   files.add("plan.json", plan);
   files.add("samples.tsv", samples_tsv(run.screen, run.input_ids, run.input_labels, run.table.label_name, run.dropped));
   {
@@ -335,7 +337,7 @@ ReduceRun reduce_and_write(const InputOptions& input, const CommonOptions& commo
     report.title = "pare " + report.command + ": " + std::filesystem::path(input.data).filename().string();
     report.samples = static_cast<std::int64_t>(run.input_ids.size());
     report.features = run.table.n_features();
-    add_plan_record(report, plan);
+    internal::add_plan_record(report, plan_document);
     auto& timings = report.record.timings;
     timings.insert(timings.begin() + (timings.empty() ? 0 : 1), {"sample screen", screen_seconds});
     add_reduction(report, run.table, r, options, project.selection_outputs);
