@@ -79,7 +79,8 @@ def main():
             if given is not None:
                 env["GLIBC_TUNABLES"] = given
             seen, sanitized = seen_at_start(pare, work, env)
-            want = (given if sanitized else restarted).split(":")
+            expected = given if sanitized else restarted
+            want = expected.split(":") if expected is not None else []
             first = next((i for i, e in enumerate(seen) if e.startswith("GLIBC_TUNABLES=")), None)
             tunables = [] if first is None else [seen[first][len("GLIBC_TUNABLES="):]] + seen[first + 1:first + len(want)]
             checks.check(f"{name}: GLIBC_TUNABLES of the running process", tunables == want,
