@@ -11,7 +11,12 @@
 #include <cstdlib>  // std::getenv
 #include <cstdint>  // std::uintptr_t
 #include <cstring>  // std::strerror
+#include <atomic>   // std::atomic
+#include <condition_variable>  // std::condition_variable
+#include <exception>  // std::exception_ptr
+#include <mutex>    // std::mutex
 #include <new>      // std::bad_alloc
+#include <thread>   // std::thread
 #include <algorithm>  // std::max
 #include <utility>  // std::exchange
 
@@ -103,6 +108,24 @@ std::string gib(std::size_t bytes) {
 
 }  // namespace
 
+struct InputText::Stream {
+  InputText compressed;  // the gzip file as read
+  GrowableBuffer text;   // the inflated text, reserved whole
+  std::uint32_t expected = 0;  // the trailer's ISIZE
+  std::mutex mutex;
+  std::condition_variable arrived;
+  std::size_t ready = 0;  // bytes of `text` inflated so far
+  bool done = false;
+  std::exception_ptr error;
+  std::atomic<bool> cancel{false};
+  std::thread worker;
+
+  ~Stream() {
+    cancel = true;
+    if (worker.joinable()) worker.join();
+  }
+};
+
 InputText InputText::open(const std::string& path, const MemoryBudget& budget) {
   const int fd = ::open(path.c_str(), O_RDONLY | O_CLOEXEC);
   if (fd < 0) {
@@ -190,6 +213,49 @@ InputText InputText::open(const std::string& path, const MemoryBudget& budget) {
     return out;
   }
   if (is_gzip(text.view())) {
+    // Inflated by a thread of its own into memory reserved up front for the largest text allowed
+    // (address space only: pages are used as the text arrives), so published text never moves.
+    auto stream = std::make_shared<Stream>();
+    constexpr std::size_t kSlack = std::size_t{8} << 20;
+    try {
+      stream->text.reserve(memory_cap + kSlack);
+    } catch (const std::bad_alloc&) {
+      stream.reset();  // no room to reserve: inflate it all first, as it may move while it grows
+    }
+    if (stream) {
+      stream->compressed = std::move(text);
+      if (stream->compressed.size_ >= 18)
+        std::memcpy(&stream->expected, stream->compressed.data_ + stream->compressed.size_ - 4, 4);
+      Stream* s = stream.get();
+      s->worker = std::thread([s, path, memory_cap] {
+        std::size_t size = 0;
+        std::exception_ptr error;
+        try {
+          size = gunzip_into(s->compressed.view(), path, s->text, -1, memory_cap, "the memory available",
+                             [s](std::size_t produced) {
+                               {
+                                 const std::lock_guard<std::mutex> lock(s->mutex);
+                                 s->ready = produced;
+                               }
+                               s->arrived.notify_all();
+                               return !s->cancel.load(std::memory_order_relaxed);
+                             });
+        } catch (...) {
+          error = std::current_exception();
+        }
+        {
+          const std::lock_guard<std::mutex> lock(s->mutex);
+          if (!error) s->ready = size;
+          s->error = error;
+          s->done = true;
+        }
+        s->arrived.notify_all();
+      });
+      InputText out;
+      out.stream_ = std::move(stream);
+      out.data_ = out.stream_->text.data();
+      return out;
+    }
     GrowableBuffer inflated;
     const std::size_t size = gunzip_into(text.view(), path, inflated, -1, memory_cap, "the memory available");
     InputText out;
@@ -199,6 +265,33 @@ InputText InputText::open(const std::string& path, const MemoryBudget& budget) {
     return out;
   }
   return text;
+}
+
+bool InputText::streaming() const { return stream_ != nullptr; }
+
+std::string_view InputText::wait_for(std::size_t bytes, bool& complete) const {
+  if (!stream_) {
+    complete = true;
+    return {data_, size_};
+  }
+  std::unique_lock<std::mutex> lock(stream_->mutex);
+  stream_->arrived.wait(lock, [&] { return stream_->ready >= bytes || stream_->done; });
+  complete = stream_->done;
+  return {stream_->text.data(), stream_->ready};
+}
+
+std::size_t InputText::expected_size() const {
+  if (!stream_) return size_;
+  const std::size_t guess = stream_->expected;
+  return std::max(guess, stream_->compressed.size_);
+}
+
+std::string_view InputText::view() const {
+  if (!stream_) return {data_, size_};
+  std::unique_lock<std::mutex> lock(stream_->mutex);
+  stream_->arrived.wait(lock, [&] { return stream_->done; });
+  if (stream_->error) std::rethrow_exception(stream_->error);
+  return {stream_->ready ? stream_->text.data() : "", stream_->ready};
 }
 
 InputText::InputText(InputText&& other) noexcept { *this = std::move(other); }
@@ -211,6 +304,7 @@ InputText& InputText::operator=(InputText&& other) noexcept {
   inflated_ = std::move(other.inflated_);  // the mapping changes owner, not address
   data_ = std::exchange(other.data_, "");
   size_ = std::exchange(other.size_, 0);
+  stream_ = std::move(other.stream_);
   return *this;
 }
 

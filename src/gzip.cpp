@@ -33,7 +33,7 @@ bool is_gzip(std::string_view bytes) {
 }
 
 std::size_t gunzip_into(std::string_view compressed, const std::string& path, GrowableBuffer& out, int spill_fd,
-                        std::size_t max_bytes, const char* limit_name) {
+                        std::size_t max_bytes, const char* limit_name, const std::function<bool(std::size_t)>& on_step) {
   // Spilling, `out` is a staging window written to the file whenever it fills.
   constexpr std::size_t kWindow = std::size_t{16} << 20;
   std::size_t flushed = 0;
@@ -86,7 +86,8 @@ std::size_t gunzip_into(std::string_view compressed, const std::string& path, Gr
     }
     if (out.capacity() - produced < kStep / 2) out.reserve(std::max(out.capacity() * 3 / 2, produced + kStep));
     const uInt in_now = static_cast<uInt>(std::min<std::size_t>(left, 1u << 30));
-    const uInt out_now = static_cast<uInt>(std::min<std::size_t>(out.capacity() - produced, 1u << 30));
+    // Published text comes in steps of 4 MiB.
+    const uInt out_now = static_cast<uInt>(std::min<std::size_t>(out.capacity() - produced, on_step ? kStep : 1u << 30));
     zs.next_in = const_cast<Bytef*>(next);
     zs.avail_in = in_now;
     zs.next_out = reinterpret_cast<Bytef*>(out.data() + produced);
@@ -96,6 +97,7 @@ std::size_t gunzip_into(std::string_view compressed, const std::string& path, Gr
     next += used;
     left -= used;
     produced += out_now - zs.avail_out;
+    if (on_step && !on_step(produced)) break;
     if (status == Z_STREAM_END) {
       // Another member may follow (files concatenated with cat); trailing zero padding is ignored.
       while (left > 0 && *next == 0) { ++next; --left; }

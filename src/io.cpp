@@ -439,6 +439,7 @@ namespace {
 struct Header {
   std::vector<std::string> fields;
   std::vector<std::int64_t> columns;  // 1-based column where each field starts, quotes included
+  const char* text_begin;             // the text's first byte
   const char* data_begin;             // first byte after the header line
   std::int64_t first_data_line;       // its 1-based line (a quoted name may hold a line break)
   char delimiter;
@@ -476,6 +477,7 @@ Header read_header(const std::string& path, std::string_view text, char delimite
     throw_input_error({path, 1, 1}, "the header line is empty",
                       "the first line must name the columns");
   Header h;
+  h.text_begin = text.data();
   h.data_begin = he < end ? he + 1 : end;
   h.first_data_line = 2 + std::count(begin, he, '\n');
   // Checked before the header is split: a file that is one enormous line (a header of millions
@@ -486,6 +488,29 @@ Header read_header(const std::string& path, std::string_view text, char delimite
   h.delimiter = delimiter ? delimiter : detect_delimiter(line);
   split_fields_at(line, h.delimiter, h.fields, h.columns);
   return h;
+}
+
+// The header of a text still arriving (InputText::streaming): waits until its first line is whole
+// and something other than blank space follows it, or the text is complete, then reads it as
+// read_header does.
+Header read_arriving_header(const std::string& path, const internal::InputText& input, char delimiter) {
+  std::size_t want = std::size_t{1} << 16;
+  while (true) {
+    bool complete = false;
+    const std::string_view text = input.wait_for(want, complete);
+    if (complete) return read_header(path, input.view(), delimiter);
+    if (text.size() >= 3) {
+      const char* begin = text.data();
+      const char* end = text.data() + text.size();
+      if (static_cast<unsigned char>(text[0]) == 0xEF && static_cast<unsigned char>(text[1]) == 0xBB &&
+          static_cast<unsigned char>(text[2]) == 0xBF)
+        begin += 3;
+      const char* he = header_end(begin, end);
+      if (he < end && std::any_of(he + 1, end, [](char c) { return c != '\n' && c != '\r' && c != ' ' && c != '\t'; }))
+        return read_header(path, text, delimiter);
+    }
+    want = text.size() + std::max<std::size_t>(text.size(), std::size_t{1} << 20);
+  }
 }
 
 std::string header_names_hint(const std::vector<std::string>& fields) {
@@ -575,8 +600,54 @@ void check_labels_present(const std::string& path, const std::vector<std::string
                         "give every sample a class, or leave the sample out");
 }
 
-FeatureTable read_rows_are_samples(const std::string& path, const internal::InputText& input, std::string_view text,
-                                   const Header& h, const ReadOptions& options, ProgressStep& progress) {
+// For a text still arriving (a gzip file being inflated): cuts whole chunks from it as it comes
+// (as cut_chunks would, `chunk_bytes` or more each, ending at a line end), counts their records
+// (finding the line that starts with `label_row`, if given), numbers them, appends them to `chunks`
+// and hands each to `parse` in file order, until `parse` returns false or the text is complete.
+// Returns where the text not yet cut begins: the header's end for a text that is not arriving.
+template <typename Parse>
+const char* arrive_in_chunks(const internal::InputText& input, const Header& h, std::size_t chunk_bytes,
+                             const std::string& label_row, char delim, std::vector<Chunk>& chunks, Parse&& parse) {
+  const char* pos = h.data_begin;
+  if (!input.streaming()) return pos;
+  const std::size_t size = std::max(kChunkBytes, chunk_bytes);
+  std::int64_t line = h.first_data_line, record = 0;
+  std::size_t want = static_cast<std::size_t>(pos - h.text_begin) + size + 1;
+  while (true) {
+    bool complete = false;
+    const std::string_view have = input.wait_for(want, complete);
+    if (complete) return pos;
+    const char* end = have.data() + have.size();
+    std::vector<Chunk> fresh;
+    while (static_cast<std::size_t>(end - pos) > size) {
+      const char* nl = static_cast<const char*>(std::memchr(pos + size, '\n', static_cast<std::size_t>(end - pos) - size));
+      if (!nl) break;
+      Chunk c;
+      c.begin = pos;
+      c.end = nl + 1;
+      fresh.push_back(c);
+      pos = nl + 1;
+    }
+    if (fresh.empty()) {
+      want = have.size() + std::max<std::size_t>(size / 4, std::size_t{1} << 20);
+      continue;
+    }
+    count_records(fresh, label_row, delim, 1, input);
+    for (const Chunk& f : fresh) {
+      chunks.push_back(f);
+      Chunk& c = chunks.back();
+      c.first_line = line;
+      c.first_record = record;
+      line += c.lines;
+      record += c.records;
+      if (!parse(c)) return c.end;
+    }
+    want = static_cast<std::size_t>(pos - h.text_begin) + size + 1;
+  }
+}
+
+FeatureTable read_rows_are_samples(const std::string& path, const internal::InputText& input, const Header& h,
+                                   const ReadOptions& options, ProgressStep& progress) {
   const char delim = h.delimiter;
   const int threads = internal::thread_count(options.threads);
   const NaTokens na(options.na_tokens);
@@ -609,39 +680,32 @@ FeatureTable read_rows_are_samples(const std::string& path, const internal::Inpu
     throw_input_error({path, 1}, "the header names no feature columns",
                       "the first column holds sample ids, the others features");
 
-  const char* end = text.data() + text.size();
   // A data line is about as long as the header, which gives an estimate of the matrix's size. A
   // matrix bound for the disk is written in taller row blocks: each flush touches a page of every
   // column, and on disk those pages are given back after the flush.
-  const auto header_bytes = static_cast<std::int64_t>(h.data_begin - text.data());
-  const std::int64_t estimate = (static_cast<std::int64_t>(text.size()) / std::max<std::int64_t>(header_bytes, 1)) * p * 4;
+  const auto header_bytes = static_cast<std::int64_t>(h.data_begin - h.text_begin);
+  const std::int64_t estimate =
+      (static_cast<std::int64_t>(input.expected_size()) / std::max<std::int64_t>(header_bytes, 1)) * p * 4;
   std::int64_t row_block = kRowBlock;
   if (!options.memory.fits(estimate))
     row_block = std::clamp<std::int64_t>(options.memory.bytes / (16 * threads * p), kRowBlock, 1024);
   // Aim for 2 row blocks per chunk.
-  auto chunks = cut_chunks(h.data_begin, end, static_cast<std::size_t>(header_bytes * 2 * row_block));
-  count_records(chunks, {}, delim, threads, input);
-  const std::int64_t n = number_chunks(chunks, h.first_data_line);
-  if (n == 0)
-    throw_input_error({path, h.first_data_line, 1}, "no data lines after the header",
-                      "each sample needs a line of values");
+  const auto chunk_bytes = static_cast<std::size_t>(header_bytes * 2 * row_block);
 
-  t.values.allocate(n, p, options.memory);
-  t.sample_ids.resize(static_cast<std::size_t>(n));
-  if (label_field >= 0) t.labels.resize(static_cast<std::size_t>(n));
-  std::vector<std::int64_t> record_lines(static_cast<std::size_t>(n));
-  std::vector<std::int64_t> label_columns(label_field >= 0 ? static_cast<std::size_t>(n) : 0);
+  std::vector<std::int64_t> record_lines;
+  std::vector<std::int64_t> label_columns;
+  auto grow_records = [&](std::int64_t records) {
+    t.sample_ids.resize(static_cast<std::size_t>(records));
+    if (label_field >= 0) t.labels.resize(static_cast<std::size_t>(records));
+    record_lines.resize(static_cast<std::size_t>(records));
+    if (label_field >= 0) label_columns.resize(static_cast<std::size_t>(records));
+  };
   const CellContext ctx{delim, &na, options.allow_inf};
-  float* const out = t.values.data();
-  const bool on_disk = t.values.on_disk();
+  bool on_disk = false;
 
-  // One row block per thread, reused for every chunk: a fresh one per chunk would be zeroed and
-  // faulted in again each time (6 MB per chunk at 100,000 features).
-  std::vector<std::vector<float>> blocks(static_cast<std::size_t>(threads));
-#pragma omp parallel for schedule(dynamic, 1) num_threads(threads)
-  for (std::int64_t ci = 0; ci < static_cast<std::int64_t>(chunks.size()); ++ci) {
-    Chunk& c = chunks[static_cast<std::size_t>(ci)];
-    std::vector<float>& block = blocks[static_cast<std::size_t>(omp_get_thread_num())];
+  // Parses chunk `c` into `out`: value (record r, feature j) at out[j * ld + r - base]. Rows go
+  // through `block` (row_block rows, column-major) so each copy writes whole cache lines.
+  auto parse = [&](Chunk& c, float* out, std::int64_t ld, std::int64_t base, std::vector<float>& block) {
     block.resize(static_cast<std::size_t>(row_block * p));
     std::int64_t block_first = c.first_record;  // record index of block row 0
     std::int64_t in_block = 0;
@@ -652,7 +716,7 @@ FeatureTable read_rows_are_samples(const std::string& path, const internal::Inpu
       for (std::int64_t j0 = 0; j0 < p; j0 += kSlice) {
         const std::int64_t j1 = std::min(p, j0 + kSlice);
         for (std::int64_t j = j0; j < j1; ++j)
-          std::copy_n(block.data() + j * row_block, in_block, out + j * n + block_first);
+          std::copy_n(block.data() + j * row_block, in_block, out + j * ld + block_first - base);
         if (on_disk) internal::release_column_span(t.values, j0, j1 - 1);
       }
       block_first += in_block;
@@ -714,15 +778,61 @@ FeatureTable read_rows_are_samples(const std::string& path, const internal::Inpu
     if (!c.failure.set && in_block > 0) flush();
     input.release(c.begin, c.end, true);
     progress.add(c.end - c.begin);
+  };
+
+  // A gzip file is parsed as it is inflated: whole chunks, one after another, each into its own
+  // buffer (the number of samples, and so the matrix, is known only at the end).
+  std::vector<Chunk> chunks;
+  std::vector<std::vector<float>> early;  // values of chunk k, parsed while the text arrived
+  const char* rest = arrive_in_chunks(input, h, chunk_bytes, {}, delim, chunks, [&](Chunk& c) {
+    grow_records(c.first_record + c.records);
+    early.emplace_back(static_cast<std::size_t>(c.records * p));
+    thread_local std::vector<float> block;
+    parse(c, early.back().data(), c.records, c.first_record, block);
+    return !c.failure.set;
+  });
+
+  const std::string_view text = input.view();
+  const char* end = text.data() + text.size();
+  const auto first_late = chunks.size();
+  for (Chunk& c : cut_chunks(rest, end, chunk_bytes)) chunks.push_back(c);
+  {
+    std::vector<Chunk> late(chunks.begin() + static_cast<std::ptrdiff_t>(first_late), chunks.end());
+    count_records(late, {}, delim, threads, input);
+    std::copy(late.begin(), late.end(), chunks.begin() + static_cast<std::ptrdiff_t>(first_late));
   }
+  const std::int64_t n = number_chunks(chunks, h.first_data_line);
+  if (n == 0)
+    throw_input_error({path, h.first_data_line, 1}, "no data lines after the header",
+                      "each sample needs a line of values");
+  if (any_failure(chunks)) rethrow_first(path, chunks);
+
+  t.values.allocate(n, p, options.memory);
+  grow_records(n);
+  float* const out = t.values.data();
+  on_disk = t.values.on_disk();
+#pragma omp parallel for schedule(dynamic, 1) num_threads(threads)
+  for (std::size_t k = 0; k < early.size(); ++k) {
+    const Chunk& c = chunks[k];
+    for (std::int64_t j = 0; j < p; ++j)
+      std::copy_n(early[k].data() + j * c.records, c.records, out + j * n + c.first_record);
+    std::vector<float>().swap(early[k]);
+  }
+
+  // One row block per thread, reused for every chunk: a fresh one per chunk would be zeroed and
+  // faulted in again each time (6 MB per chunk at 100,000 features).
+  std::vector<std::vector<float>> blocks(static_cast<std::size_t>(threads));
+#pragma omp parallel for schedule(dynamic, 1) num_threads(threads)
+  for (std::int64_t ci = static_cast<std::int64_t>(first_late); ci < static_cast<std::int64_t>(chunks.size()); ++ci)
+    parse(chunks[static_cast<std::size_t>(ci)], out, n, 0, blocks[static_cast<std::size_t>(omp_get_thread_num())]);
   if (any_failure(chunks)) rethrow_first(path, chunks);
   check_unique_sample_ids(path, t.sample_ids, record_lines, {});
   if (label_field >= 0) check_labels_present(path, t.labels, t.sample_ids, na, record_lines, label_columns);
   return t;
 }
 
-FeatureTable read_rows_are_features(const std::string& path, const internal::InputText& input, std::string_view text,
-                                    const Header& h, const ReadOptions& options, ProgressStep& progress) {
+FeatureTable read_rows_are_features(const std::string& path, const internal::InputText& input, const Header& h,
+                                    const ReadOptions& options, ProgressStep& progress) {
   const char delim = h.delimiter;
   const int threads = internal::thread_count(options.threads);
   const NaTokens na(options.na_tokens);
@@ -745,48 +855,19 @@ FeatureTable read_rows_are_features(const std::string& path, const internal::Inp
     check_unique_sample_ids(path, t.sample_ids, lines, columns);
   }
 
-  const char* end = text.data() + text.size();
-  auto chunks = cut_chunks(h.data_begin, end);
-  count_records(chunks, options.label_column, delim, threads, input);
-  const std::int64_t p = number_chunks(chunks, h.first_data_line);
-  std::int64_t label_line = 0;
-  const Chunk* label_chunk = nullptr;
-  for (const auto& c : chunks) {
-    if (c.label_line == 0) continue;
-    if (c.second_label_line != 0 && label_line == 0)
-      throw_input_error({path, c.first_line + c.second_label_line - 1, 1},
-                        "a second line of labels named " + in_quotes(options.label_column),
-                        "first seen on line " + std::to_string(c.first_line + c.label_line - 1));
-    if (label_line != 0)
-      throw_input_error({path, c.first_line + c.label_line - 1, 1},
-                        "a second line of labels named " + in_quotes(options.label_column),
-                        "first seen on line " + std::to_string(label_line));
-    label_line = c.first_line + c.label_line - 1;
-    label_chunk = &c;
-  }
-  if (!options.label_column.empty() && label_line == 0)
-    throw_input_error({path}, "no line starts with " + in_quotes(options.label_column) + " for --label",
-                      "with --layout rows=features the labels are a line whose first field is "
-                      "that name");
-  if (p == 0)
-    throw_input_error({path, h.first_data_line, 1}, "no data lines after the header",
-                      "each feature needs a line of values");
-
-  t.values.allocate(n, p, options.memory);
-  t.feature_names.resize(static_cast<std::size_t>(p));
   const CellContext ctx{delim, &na, options.allow_inf};
-  float* const out = t.values.data();
   std::vector<std::int64_t> label_columns;
+  std::size_t label_chunk = static_cast<std::size_t>(-1);  // index of the chunk holding the label line
+  bool in_matrix = false;
 
-#pragma omp parallel for schedule(dynamic, 1) num_threads(threads)
-  for (std::int64_t ci = 0; ci < static_cast<std::int64_t>(chunks.size()); ++ci) {
-    Chunk& c = chunks[static_cast<std::size_t>(ci)];
+  // Parses chunk `index` into `out`: the values of record r at out + (r - base) n.
+  auto parse = [&](Chunk& c, std::size_t index, float* out, std::int64_t base) {
     std::int64_t record = c.first_record;
     for_each_line(c, [&](const char* b, const char* e, std::int64_t local_line) {
       if (b == e) return true;
       const std::int64_t line = c.first_line + local_line - 1;
       const char* q = b;
-      if (&c == label_chunk && local_line == c.label_line) {
+      if (index == label_chunk && local_line == c.label_line) {
         std::vector<std::string> fields;
         std::vector<std::int64_t> columns;
         split_fields_at(std::string_view(b, static_cast<std::size_t>(e - b)), delim, fields,
@@ -816,7 +897,7 @@ FeatureTable read_rows_are_features(const std::string& path, const internal::Inp
         fail(c.failure, line, 1, "feature name " + in_quotes(name) + " " + problem, kNameHint);
         return false;
       }
-      float* column = out + record * n;
+      float* column = out + (record - base) * n;
       for (std::int64_t i = 0; i < n; ++i) {
         if (q >= e) {
           fail(c.failure, line, q - b + 1,
@@ -842,10 +923,76 @@ FeatureTable read_rows_are_features(const std::string& path, const internal::Inp
       ++record;
       return true;
     });
-    if (c.records > 0) internal::release_column_span(t.values, c.first_record, c.first_record + c.records - 1);
+    if (in_matrix && c.records > 0)
+      internal::release_column_span(t.values, c.first_record, c.first_record + c.records - 1);
     input.release(c.begin, c.end, true);
     progress.add(c.end - c.begin);
+  };
+
+  // A gzip file is parsed as it is inflated: whole chunks, one after another, each into its own
+  // buffer (the number of features, and so the matrix, is known only at the end). A chunk that
+  // holds a second label line is left for the checks below.
+  std::vector<Chunk> chunks;
+  std::vector<std::vector<float>> early;  // values of chunk k, parsed while the text arrived
+  const char* rest = arrive_in_chunks(input, h, 0, options.label_column, delim, chunks, [&](Chunk& c) {
+    const std::size_t index = chunks.size() - 1;
+    if (c.label_line != 0) {
+      if (label_chunk != static_cast<std::size_t>(-1) || c.second_label_line != 0) return false;
+      label_chunk = index;
+    }
+    t.feature_names.resize(static_cast<std::size_t>(c.first_record + c.records));
+    early.emplace_back(static_cast<std::size_t>(c.records * n));
+    parse(c, index, early.back().data(), c.first_record);
+    return !c.failure.set;
+  });
+
+  const std::string_view text = input.view();
+  const char* end = text.data() + text.size();
+  const auto first_late = chunks.size();
+  for (Chunk& c : cut_chunks(rest, end)) chunks.push_back(c);
+  {
+    std::vector<Chunk> late(chunks.begin() + static_cast<std::ptrdiff_t>(first_late), chunks.end());
+    count_records(late, options.label_column, delim, threads, input);
+    std::copy(late.begin(), late.end(), chunks.begin() + static_cast<std::ptrdiff_t>(first_late));
   }
+  const std::int64_t p = number_chunks(chunks, h.first_data_line);
+  std::int64_t label_line = 0;
+  for (std::size_t k = 0; k < chunks.size(); ++k) {
+    const Chunk& c = chunks[k];
+    if (c.label_line == 0) continue;
+    if (c.second_label_line != 0 && label_line == 0)
+      throw_input_error({path, c.first_line + c.second_label_line - 1, 1},
+                        "a second line of labels named " + in_quotes(options.label_column),
+                        "first seen on line " + std::to_string(c.first_line + c.label_line - 1));
+    if (label_line != 0)
+      throw_input_error({path, c.first_line + c.label_line - 1, 1},
+                        "a second line of labels named " + in_quotes(options.label_column),
+                        "first seen on line " + std::to_string(label_line));
+    label_line = c.first_line + c.label_line - 1;
+    label_chunk = k;
+  }
+  if (!options.label_column.empty() && label_line == 0)
+    throw_input_error({path}, "no line starts with " + in_quotes(options.label_column) + " for --label",
+                      "with --layout rows=features the labels are a line whose first field is "
+                      "that name");
+  if (p == 0)
+    throw_input_error({path, h.first_data_line, 1}, "no data lines after the header",
+                      "each feature needs a line of values");
+  if (any_failure(chunks)) rethrow_first(path, chunks);
+
+  t.values.allocate(n, p, options.memory);
+  t.feature_names.resize(static_cast<std::size_t>(p));
+  float* const out = t.values.data();
+  in_matrix = true;
+#pragma omp parallel for schedule(dynamic, 1) num_threads(threads)
+  for (std::size_t k = 0; k < early.size(); ++k) {
+    std::copy(early[k].begin(), early[k].end(), out + chunks[k].first_record * n);
+    std::vector<float>().swap(early[k]);
+  }
+
+#pragma omp parallel for schedule(dynamic, 1) num_threads(threads)
+  for (std::int64_t ci = static_cast<std::int64_t>(first_late); ci < static_cast<std::int64_t>(chunks.size()); ++ci)
+    parse(chunks[static_cast<std::size_t>(ci)], static_cast<std::size_t>(ci), out, 0);
   if (any_failure(chunks)) rethrow_first(path, chunks);
   if (!t.labels.empty()) {
     std::vector<std::int64_t> lines(static_cast<std::size_t>(n), label_line);
@@ -858,13 +1005,18 @@ FeatureTable read_rows_are_features(const std::string& path, const internal::Inp
 
 FeatureTable read_table(const std::string& path, const ReadOptions& options) {
   const internal::InputText input = internal::InputText::open(path, options.memory);
-  const std::string_view text = input.view();
-  const Header h = read_header(path, text, options.delimiter);
-  check_names(path, 1, h.fields, h.columns, "the column name");
-  ProgressStep progress("reading", static_cast<std::int64_t>(text.size()), "bytes");
-  if (options.layout == Layout::kRowsAreSamples)
-    return read_rows_are_samples(path, input, text, h, options, progress);
-  return read_rows_are_features(path, input, text, h, options, progress);
+  try {
+    const Header h = input.streaming() ? read_arriving_header(path, input, options.delimiter)
+                                       : read_header(path, input.view(), options.delimiter);
+    check_names(path, 1, h.fields, h.columns, "the column name");
+    ProgressStep progress("reading", static_cast<std::int64_t>(input.expected_size()), "bytes");
+    if (options.layout == Layout::kRowsAreSamples) return read_rows_are_samples(path, input, h, options, progress);
+    return read_rows_are_features(path, input, h, options, progress);
+  } catch (const Error&) {
+    // A damaged gzip stream is reported before anything found in the text it did give.
+    (void)input.view();
+    throw;
+  }
 }
 
 SampleSheet read_sample_sheet(const std::string& spec, char delimiter) {

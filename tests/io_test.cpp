@@ -565,6 +565,38 @@ TEST_CASE("files larger than one 4 MiB chunk read bit-identically with 1 and 2 t
     REQUIRE(message.rfind(broken_path + ":" + std::to_string(line) + ":" + col + ": cannot read",
                           0) == 0);
   }
+
+  // A gzip file is parsed while it is inflated (whole chunks as they arrive, the rest when the
+  // stream ends; src/io.cpp, arrive_in_chunks): the same tables in both layouts, and an error in
+  // the first chunk or the last is reported exactly as for the plain file.
+  require_same_table(b1, pare::read_table(gzip_file(dir, "wide-t.csv.gz", {by_features}, 1), two));
+  auto same_error = [&](const std::string& text, const std::string& name, const ReadOptions& o) {
+    const auto plain = dir.write(name, text);
+    const auto gz = gzip_file(dir, name + ".gz", {text}, 1);
+    std::string expected_message = error_of([&] { pare::read_table(plain, o); });
+    REQUIRE(expected_message.rfind(plain + ":", 0) == 0);
+    expected_message.replace(0, plain.size(), gz);
+    REQUIRE(error_of([&] { pare::read_table(gz, o); }) == expected_message);
+    return gz;
+  };
+  std::string broken_first = by_samples;
+  broken_first.insert(broken_first.find("\ns0,") + 4, "x");
+  const auto broken_first_gz = same_error(broken_first, "broken-first.csv", two);
+  same_error(broken, "broken-last.csv", two);
+  // A damaged stream is reported before an error in the text it did give.
+  const std::string whole = TempDir::read(broken_first_gz);
+  const auto cut_gz = dir.write("broken-first-cut.csv.gz", whole.substr(0, whole.size() * 2 / 3));
+  REQUIRE_THAT(error_of([&] { pare::read_table(cut_gz, two); }), Catch::Matchers::Contains("gzip data ends early"));
+  // rows=features: a label line near the start and a second one near the end.
+  ReadOptions labelled = two;
+  labelled.label_column = "group";
+  std::string two_labels = by_features;
+  std::string label_line = "group";
+  for (int i = 0; i < kSamples; ++i) label_line += i % 2 ? ",b" : ",a";
+  label_line += '\n';
+  two_labels.insert(two_labels.rfind("\nf" + std::to_string(kFeatures - 1) + ",") + 1, label_line);
+  two_labels.insert(two_labels.find('\n') + 1, label_line);
+  same_error(two_labels, "two-labels.csv", labelled);
 }
 
 TEST_CASE("encode_classes sorts classes by name and counts them", "[io]") {

@@ -4,6 +4,7 @@
 #pragma once
 
 #include <cstddef>      // std::size_t
+#include <memory>       // std::shared_ptr
 #include <string>       // std::string
 #include <string_view>  // std::string_view
 
@@ -38,11 +39,24 @@ class GrowableBuffer {
 
 /// The whole text of an input file: a read-only mapping of a plain file, or the inflated content of
 /// a gzip file.
+///
+/// A gzip file read into memory is inflated by a thread of its own while the reader parses what
+/// has arrived (`streaming()`): `wait_for` hands out the text inflated so far, which never moves,
+/// and `view` waits for the whole of it.
 class InputText {
  public:
-  /// Opens `path`; throws Error(kInput) when it cannot be read or its gzip data is damaged. With a
-  /// memory budget, gzip text is inflated into a cache file (see pare::Columns) rather than memory.
+  /// Opens `path`; throws Error(kInput) when it cannot be read or its gzip data is damaged (for a
+  /// streamed gzip file, from `view`). With a memory budget, gzip text is inflated into a cache
+  /// file (see pare::Columns) rather than memory, before open returns.
   static InputText open(const std::string& path, const MemoryBudget& budget = {});
+
+  /// True while the text is still arriving (until `view` has been called).
+  bool streaming() const;
+  /// The text inflated so far, at least `bytes` long unless that is all there is (then
+  /// `complete` is set). Never throws: a damaged stream simply ends, and `view` says why.
+  std::string_view wait_for(std::size_t bytes, bool& complete) const;
+  /// The expected size of the whole text (the gzip trailer's, for a streamed file), for progress.
+  std::size_t expected_size() const;
 
   InputText(InputText&& other) noexcept;
   InputText& operator=(InputText&& other) noexcept;
@@ -50,7 +64,8 @@ class InputText {
   InputText& operator=(const InputText&) = delete;
   ~InputText();
 
-  std::string_view view() const { return {data_, size_}; }
+  /// The whole text; for a streamed file, waits for the end of the stream and throws its error.
+  std::string_view view() const;
 
   /// Gives back the memory of [begin, end) (whole pages inside it) once it has been read: always
   /// for a mapped file (the kernel reads it again from its cache if it is touched again), and for
@@ -65,6 +80,8 @@ class InputText {
   GrowableBuffer inflated_;  // inflated text, when the file is gzip
   const char* data_ = "";
   std::size_t size_ = 0;
+  struct Stream;
+  std::shared_ptr<Stream> stream_;  // the inflating thread and what it has made, while streaming
 };
 
 }  // namespace pare::internal
