@@ -109,7 +109,8 @@ std::string gib(std::size_t bytes) {
 }  // namespace
 
 struct InputText::Stream {
-  InputText compressed;  // the gzip file as read
+  InputText compressed;  // the gzip file as read, dropped once inflated (the worker's alone)
+  std::size_t compressed_size = 0;
   GrowableBuffer text;   // the inflated text, reserved whole
   std::uint32_t expected = 0;  // the trailer's ISIZE
   std::mutex mutex;
@@ -224,8 +225,9 @@ InputText InputText::open(const std::string& path, const MemoryBudget& budget) {
     }
     if (stream) {
       stream->compressed = std::move(text);
-      if (stream->compressed.size_ >= 18)
-        std::memcpy(&stream->expected, stream->compressed.data_ + stream->compressed.size_ - 4, 4);
+      stream->compressed_size = stream->compressed.size_;
+      if (stream->compressed_size >= 18)
+        std::memcpy(&stream->expected, stream->compressed.data_ + stream->compressed_size - 4, 4);
       Stream* s = stream.get();
       s->worker = std::thread([s, path, memory_cap] {
         std::size_t size = 0;
@@ -243,6 +245,7 @@ InputText InputText::open(const std::string& path, const MemoryBudget& budget) {
         } catch (...) {
           error = std::current_exception();
         }
+        s->compressed = InputText();  // its pages would count in the resident size while parsing goes on
         {
           const std::lock_guard<std::mutex> lock(s->mutex);
           if (!error) s->ready = size;
@@ -283,7 +286,7 @@ std::string_view InputText::wait_for(std::size_t bytes, bool& complete) const {
 std::size_t InputText::expected_size() const {
   if (!stream_) return size_;
   const std::size_t guess = stream_->expected;
-  return std::max(guess, stream_->compressed.size_);
+  return std::max(guess, stream_->compressed_size);
 }
 
 std::string_view InputText::view() const {
