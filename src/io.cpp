@@ -19,6 +19,7 @@
 #include <cstring>        // std::memchr, std::strerror
 #include <filesystem>     // std::filesystem::create_directories
 #include <limits>         // std::numeric_limits
+#include <span>           // std::span
 #include <unordered_map>  // std::unordered_map
 #include <unordered_set>  // std::unordered_set
 
@@ -524,7 +525,7 @@ std::string header_names_hint(const std::vector<std::string>& fields) {
 }
 
 // First pass over the chunks: count lines and records, find the label row (rows=features).
-void count_records(std::vector<Chunk>& chunks, const std::string& label_row, char delim,
+void count_records(std::span<Chunk> chunks, const std::string& label_row, char delim,
                    int threads, const internal::InputText& input) {
 #pragma omp parallel for schedule(dynamic, 1) num_threads(threads)
   for (std::int64_t i = 0; i < static_cast<std::int64_t>(chunks.size()); ++i) {
@@ -784,23 +785,20 @@ FeatureTable read_rows_are_samples(const std::string& path, const internal::Inpu
   // buffer (the number of samples, and so the matrix, is known only at the end).
   std::vector<Chunk> chunks;
   std::vector<std::vector<float>> early;  // values of chunk k, parsed while the text arrived
+  std::vector<float> early_block;
   const char* rest = arrive_in_chunks(input, h, chunk_bytes, {}, delim, chunks, [&](Chunk& c) {
     grow_records(c.first_record + c.records);
     early.emplace_back(static_cast<std::size_t>(c.records * p));
-    thread_local std::vector<float> block;
-    parse(c, early.back().data(), c.records, c.first_record, block);
+    parse(c, early.back().data(), c.records, c.first_record, early_block);
     return !c.failure.set;
   });
 
   const std::string_view text = input.view();
   const char* end = text.data() + text.size();
   const auto first_late = chunks.size();
-  for (Chunk& c : cut_chunks(rest, end, chunk_bytes)) chunks.push_back(c);
-  {
-    std::vector<Chunk> late(chunks.begin() + static_cast<std::ptrdiff_t>(first_late), chunks.end());
-    count_records(late, {}, delim, threads, input);
-    std::copy(late.begin(), late.end(), chunks.begin() + static_cast<std::ptrdiff_t>(first_late));
-  }
+  const std::vector<Chunk> late = cut_chunks(rest, end, chunk_bytes);
+  chunks.insert(chunks.end(), late.begin(), late.end());
+  count_records(std::span<Chunk>(chunks).subspan(first_late), {}, delim, threads, input);
   const std::int64_t n = number_chunks(chunks, h.first_data_line);
   if (n == 0)
     throw_input_error({path, h.first_data_line, 1}, "no data lines after the header",
@@ -949,12 +947,9 @@ FeatureTable read_rows_are_features(const std::string& path, const internal::Inp
   const std::string_view text = input.view();
   const char* end = text.data() + text.size();
   const auto first_late = chunks.size();
-  for (Chunk& c : cut_chunks(rest, end)) chunks.push_back(c);
-  {
-    std::vector<Chunk> late(chunks.begin() + static_cast<std::ptrdiff_t>(first_late), chunks.end());
-    count_records(late, options.label_column, delim, threads, input);
-    std::copy(late.begin(), late.end(), chunks.begin() + static_cast<std::ptrdiff_t>(first_late));
-  }
+  const std::vector<Chunk> late = cut_chunks(rest, end);
+  chunks.insert(chunks.end(), late.begin(), late.end());
+  count_records(std::span<Chunk>(chunks).subspan(first_late), options.label_column, delim, threads, input);
   const std::int64_t p = number_chunks(chunks, h.first_data_line);
   std::int64_t label_line = 0;
   for (std::size_t k = 0; k < chunks.size(); ++k) {
