@@ -355,14 +355,18 @@ struct Chunk {
 
 // `min_bytes` raises the chunk size for very long lines, so that a chunk holds enough lines for the
 // row blocks of rows=samples to fill (it depends on the header only, never on --threads).
-std::vector<Chunk> cut_chunks(const char* begin, const char* end, std::size_t min_bytes = 0) {
+// With `arriving`, the text past `end` is still to come: only chunks of full size that end at a
+// line end are cut, and the rest is left for later.
+std::vector<Chunk> cut_chunks(const char* begin, const char* end, std::size_t min_bytes = 0, bool arriving = false) {
   const std::size_t chunk_bytes = std::max(kChunkBytes, min_bytes);
   std::vector<Chunk> chunks;
   const char* p = begin;
   while (p < end) {
+    if (arriving && static_cast<std::size_t>(end - p) <= chunk_bytes) break;
     const char* stop = p + std::min<std::size_t>(chunk_bytes, static_cast<std::size_t>(end - p));
     if (stop < end) {
       const char* nl = static_cast<const char*>(std::memchr(stop, '\n', static_cast<std::size_t>(end - stop)));
+      if (!nl && arriving) break;
       stop = nl ? nl + 1 : end;
     }
     Chunk c;
@@ -464,12 +468,16 @@ void split_fields_at(std::string_view line, char delimiter, std::vector<std::str
   }
 }
 
+// Where the text starts after a UTF-8 byte-order mark, if it has one.
+const char* after_byte_order_mark(std::string_view text) {
+  const bool mark = text.size() >= 3 && static_cast<unsigned char>(text[0]) == 0xEF &&
+                    static_cast<unsigned char>(text[1]) == 0xBB && static_cast<unsigned char>(text[2]) == 0xBF;
+  return text.data() + (mark ? 3 : 0);
+}
+
 Header read_header(const std::string& path, std::string_view text, char delimiter) {
-  const char* begin = text.data();
+  const char* begin = after_byte_order_mark(text);
   const char* end = text.data() + text.size();
-  if (text.size() >= 3 && static_cast<unsigned char>(text[0]) == 0xEF &&
-      static_cast<unsigned char>(text[1]) == 0xBB && static_cast<unsigned char>(text[2]) == 0xBF)
-    begin += 3;  // UTF-8 byte-order mark
   if (begin == end)
     throw_input_error({path, 1, 1}, "the file is empty", "expected a header line naming the columns");
   const char* he = header_end(begin, end);
@@ -501,12 +509,8 @@ Header read_arriving_header(const std::string& path, const internal::InputText& 
     const std::string_view text = input.wait_for(want, complete);
     if (complete) return read_header(path, input.view(), delimiter);
     if (text.size() >= 3) {
-      const char* begin = text.data();
       const char* end = text.data() + text.size();
-      if (static_cast<unsigned char>(text[0]) == 0xEF && static_cast<unsigned char>(text[1]) == 0xBB &&
-          static_cast<unsigned char>(text[2]) == 0xBF)
-        begin += 3;
-      const char* he = header_end(begin, end);
+      const char* he = header_end(after_byte_order_mark(text), end);
       if (he < end && std::any_of(he + 1, end, [](char c) { return c != '\n' && c != '\r' && c != ' ' && c != '\t'; }))
         return read_header(path, text, delimiter);
     }
@@ -618,17 +622,7 @@ const char* arrive_in_chunks(const internal::InputText& input, const Header& h, 
     bool complete = false;
     const std::string_view have = input.wait_for(want, complete);
     if (complete) return pos;
-    const char* end = have.data() + have.size();
-    std::vector<Chunk> fresh;
-    while (static_cast<std::size_t>(end - pos) > size) {
-      const char* nl = static_cast<const char*>(std::memchr(pos + size, '\n', static_cast<std::size_t>(end - pos) - size));
-      if (!nl) break;
-      Chunk c;
-      c.begin = pos;
-      c.end = nl + 1;
-      fresh.push_back(c);
-      pos = nl + 1;
-    }
+    std::vector<Chunk> fresh = cut_chunks(pos, have.data() + have.size(), size, true);
     if (fresh.empty()) {
       want = have.size() + std::max<std::size_t>(size / 4, std::size_t{1} << 20);
       continue;
@@ -643,6 +637,7 @@ const char* arrive_in_chunks(const internal::InputText& input, const Header& h, 
       record += c.records;
       if (!parse(c)) return c.end;
     }
+    pos = fresh.back().end;
     want = static_cast<std::size_t>(pos - h.text_begin) + size + 1;
   }
 }
