@@ -3,7 +3,7 @@
 scipy, scikit-learn), for the side-by-side benchmark bench_reduce.py. Not a test; not run by CI.
 
     /usr/bin/python3 benchmarks/reference_pipeline.py DATA.csv --label group --components 50 \
-        --out DIR [--max-missing 0.2] [--min-variance 1e-8] [--bins 10] [--max-corr 0.9] \
+        --out DIR [--drop-missing-above 0.2] [--min-variance 1e-8] [--bins 10] [--max-corr 0.9] \
         [--block 1024] [--seed 0]
 
 It does what `pare reduce DATA --label group --components 50 --out DIR` does with the defaults
@@ -14,7 +14,7 @@ src/reduce.cpp, src/ranking.cpp, src/prune.cpp and src/projection.cpp:
            low_memory=False (one pass over the file; with the default chunked pass it took
            18.5 s instead of 5.0 s on the 1,000 x 50,000 benchmark file),
            missing tokens as pare's defaults (empty, NA, NaN, nan, null, ?)
- missing   drop a feature whose share of missing cells is above --max-missing
+ missing   drop a feature whose share of missing cells is above --drop-missing-above
  impute    fill value = the mean of the observed values (float64 sum, stored as float32); the gaps
            are filled after scoring, as pare does: the variance filter and the scores use each
            feature's observed values, correlations and PCA the filled ones
@@ -335,7 +335,7 @@ def main():
     ap.add_argument("--label", required=True)
     ap.add_argument("--components", type=int, default=50)
     ap.add_argument("--out", required=True)
-    ap.add_argument("--max-missing", type=float, default=0.2)
+    ap.add_argument("--drop-missing-above", type=float, default=0.2)
     ap.add_argument("--min-variance", type=float, default=1e-8)
     ap.add_argument("--bins", type=int, default=10)
     ap.add_argument("--max-corr", type=float, default=0.9)
@@ -384,9 +384,9 @@ def main():
     missing_rate = (n - n_obs) / n
     step = np.full(p, "", dtype=object)
     reason = np.full(p, "", dtype=object)
-    gone = missing_rate > a.max_missing
+    gone = missing_rate > a.drop_missing_above
     step[gone] = "missing"
-    reason[gone] = [f"missing rate {g3(r)} > {g3(a.max_missing)}" for r in missing_rate[gone]]
+    reason[gone] = [f"missing rate {g3(r)} > {g3(a.drop_missing_above)}" for r in missing_rate[gone]]
     alive = np.flatnonzero(~gone)
     lap("missing")
 

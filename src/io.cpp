@@ -319,11 +319,66 @@ std::string cell_text(const char* begin, const char* end) {
   return in_quotes(std::string_view(begin, static_cast<std::size_t>(end - begin)));
 }
 
-// Reports a bad cell; `begin`..`end` is the field, `line_begin` its line's start.
-void fail_cell(Failure& f, CellStatus status, std::int64_t line, const char* line_begin,
-               const char* begin, const char* end, const std::string& column_name,
-               const NaTokens& na) {
+// Whether a cell that is not a number is text (a word: "plate1", "TP53", "chr17") rather than a
+// malformed number ("1.2.3") or a gap spelled in a way --na does not list ("N/A", "NaN", "inf",
+// "none"): after blanks, a quote and a sign, it starts with a letter (or a non-ASCII byte).
+bool is_text_cell(const char* begin, const char* end) {
+  while (begin < end && (*begin == ' ' || *begin == '\t' || *begin == '"')) ++begin;
+  while (end > begin && (end[-1] == ' ' || end[-1] == '\t' || end[-1] == '"')) --end;
+  if (begin < end && (*begin == '+' || *begin == '-')) ++begin;
+  if (begin == end) return false;
+  const auto c = static_cast<unsigned char>(*begin);
+  if (!((c >= 'a' && c <= 'z') || (c >= 'A' && c <= 'Z') || c >= 0x80)) return false;
+  std::string lower(begin, end);
+  for (char& ch : lower) ch = static_cast<char>(ch >= 'A' && ch <= 'Z' ? ch - 'A' + 'a' : ch);
+  static const std::unordered_set<std::string> kGaps = {"na",   "n/a",  "nan",     "null",  "none",
+                                                        "inf", "infinity", "missing", "nil"};
+  if (kGaps.count(lower) > 0 || lower.rfind("nan(", 0) == 0) return false;
+  return true;
+}
+
+// Whether most value fields of a rows=features line (after the id) are text: a line of labels
+// rather than a text column. Only called for a line that failed, so its cost does not matter.
+bool mostly_text_line(const char* line_begin, const char* line_end, char delim) {
+  const std::vector<std::string> fields =
+      split_fields(std::string_view(line_begin, static_cast<std::size_t>(line_end - line_begin)), delim);
+  std::size_t text = 0;
+  for (std::size_t i = 1; i < fields.size(); ++i)
+    text += is_text_cell(fields[i].data(), fields[i].data() + fields[i].size());
+  return 2 * text > fields.size() - 1;
+}
+
+// Reports a bad cell; `begin`..`end` is the field, `line_begin`..`line_end` its line. `column_name`
+// names the cell's feature; `header_name` is the header's name of the field, for the hint when
+// the cell is text (with `layout`, which option takes such a column). In rows=features a text
+// column is met on the first feature line (`first_record`); text further down in a column of
+// numbers is a stray cell, and a line of mostly text is a line of labels.
+void fail_cell(Failure& f, CellStatus status, std::int64_t line, const char* line_begin, const char* line_end,
+               const char* begin, const char* end, const std::string& column_name, const NaTokens& na,
+               const std::string& header_name, Layout layout, char delim, bool first_record) {
   const std::int64_t column = begin - line_begin + 1;
+  const bool text = status == CellStatus::kNotNumber && is_text_cell(begin, end);
+  if (text && (layout == Layout::kRowsAreSamples || first_record || mostly_text_line(line_begin, line_end, delim))) {
+    if (layout == Layout::kRowsAreSamples) {
+      fail(f, line, column,
+           "column " + in_quotes(header_name) + " holds text (" + cell_text(begin, end) + " on line " +
+               std::to_string(line) + "), not numbers",
+           "pass --label " + header_name + " if it holds the classes, or --sample-info " + header_name +
+               " to carry it into samples.tsv");
+    } else if (mostly_text_line(line_begin, line_end, delim)) {
+      fail(f, line, column,
+           "line " + in_quotes(column_name) + " holds text (" + cell_text(begin, end) + " in column " +
+               in_quotes(header_name) + "), not numbers",
+           "pass --label " + column_name + " if it holds the classes");
+    } else {
+      fail(f, line, column,
+           "column " + in_quotes(header_name) + " holds text (" + cell_text(begin, end) + " on line " +
+               std::to_string(line) + "), not numbers",
+           "pass --feature-info " + header_name +
+               " if it describes the features, e.g. gene symbols or chromosomes");
+    }
+    return;
+  }
   if (status == CellStatus::kOutOfRange) {
     fail(f, line, column,
          "value " + cell_text(begin, end) + " in column " + in_quotes(column_name) +
@@ -594,15 +649,23 @@ void check_unique_sample_ids(const std::string& path, const std::vector<std::str
   }
 }
 
-void check_labels_present(const std::string& path, const std::vector<std::string>& labels,
-                          const std::vector<std::string>& ids, const NaTokens& na,
-                          const std::vector<std::int64_t>& lines,
-                          const std::vector<std::int64_t>& columns) {
-  for (std::size_t i = 0; i < labels.size(); ++i)
-    if (na.contains(labels[i]))
-      throw_input_error({path, lines[i], columns[i]},
-                        "sample " + in_quotes(ids[i]) + " has no label",
-                        "give every sample a class, or leave the sample out");
+// The header fields of the text columns named by --feature-info (rows=features) or --sample-info
+// (rows=samples), in the order given. The checks that need no file are in check_info_options.
+std::vector<std::int64_t> info_fields(const std::string& path, const Header& h, const std::vector<std::string>& names,
+                                      const char* option) {
+  std::vector<std::int64_t> fields;
+  for (const auto& name : names) {
+    if (name == h.fields[0])
+      throw_input_error({path, 1, h.columns[0]},
+                        std::string(option) + " names " + in_quotes(name) + ", the id column",
+                        "the first column holds the ids; name only text columns after it");
+    const auto it = std::find(h.fields.begin() + 1, h.fields.end(), name);
+    if (it == h.fields.end())
+      throw_input_error({path, 1}, "no column named " + in_quotes(name) + " for " + option,
+                        header_names_hint(h.fields));
+    fields.push_back(it - h.fields.begin());
+  }
+  return fields;
 }
 
 // For a text still arriving (a gzip file being inflated): cuts whole chunks from it as it comes
@@ -653,21 +716,27 @@ FeatureTable read_rows_are_samples(const std::string& path, const internal::Inpu
   if (!options.label_column.empty()) {
     for (std::int64_t j = 1; j < n_fields && label_field < 0; ++j)
       if (h.fields[static_cast<std::size_t>(j)] == options.label_column) label_field = j;
-    if (label_field < 0)
+    if (label_field < 0 && !options.label_optional)
       throw_input_error({path, 1}, "no column named " + in_quotes(options.label_column) +
                                        " for --label",
                         header_names_hint(h.fields));
   }
+  const std::vector<std::int64_t> info = info_fields(path, h, options.sample_info, "--sample-info");
   FeatureTable t;
   t.source = path;
   t.delimiter = delim;
   t.layout = Layout::kRowsAreSamples;
   t.id_name = h.fields[0];
-  t.label_name = options.label_column;
-  // field index -> feature index (-1 for the id and the label column)
+  if (label_field >= 0) t.label_name = options.label_column;
+  t.sample_info_names = options.sample_info;
+  t.sample_info.resize(info.size());
+  // field index -> feature index (-1 for the id and the label column, -2 - c for the text
+  // column c of --sample-info)
   std::vector<std::int64_t> feature_of(static_cast<std::size_t>(n_fields), -1);
+  for (std::size_t c = 0; c < info.size(); ++c)
+    feature_of[static_cast<std::size_t>(info[c])] = -2 - static_cast<std::int64_t>(c);
   for (std::int64_t j = 1; j < n_fields; ++j) {
-    if (j == label_field) continue;
+    if (j == label_field || feature_of[static_cast<std::size_t>(j)] < -1) continue;
     feature_of[static_cast<std::size_t>(j)] = static_cast<std::int64_t>(t.feature_names.size());
     t.feature_names.push_back(h.fields[static_cast<std::size_t>(j)]);
   }
@@ -689,12 +758,11 @@ FeatureTable read_rows_are_samples(const std::string& path, const internal::Inpu
   const auto chunk_bytes = static_cast<std::size_t>(header_bytes * 2 * row_block);
 
   std::vector<std::int64_t> record_lines;
-  std::vector<std::int64_t> label_columns;
   auto grow_records = [&](std::int64_t records) {
     t.sample_ids.resize(static_cast<std::size_t>(records));
     if (label_field >= 0) t.labels.resize(static_cast<std::size_t>(records));
+    for (auto& column : t.sample_info) column.resize(static_cast<std::size_t>(records));
     record_lines.resize(static_cast<std::size_t>(records));
-    if (label_field >= 0) label_columns.resize(static_cast<std::size_t>(records));
   };
   const CellContext ctx{delim, &na, options.allow_inf};
   bool on_disk = false;
@@ -743,20 +811,27 @@ FeatureTable read_rows_are_samples(const std::string& path, const internal::Inpu
         ++q;  // the delimiter
         const std::int64_t f = feature_of[static_cast<std::size_t>(j)];
         if (f < 0) {
-          label_columns[static_cast<std::size_t>(record)] = q - b + 1;
-          read_text_field(q, e, delim, t.labels[static_cast<std::size_t>(record)]);
-          if (const char* problem = name_problem(t.labels[static_cast<std::size_t>(record)], at)) {
-            fail(c.failure, line, label_columns[static_cast<std::size_t>(record)],
-                 "label " + in_quotes(t.labels[static_cast<std::size_t>(record)]) + " " + problem, kNameHint);
+          // The label, or a --sample-info column: text.
+          const std::int64_t column = q - b + 1;
+          std::string& text = f == -1 ? t.labels[static_cast<std::size_t>(record)]
+                                      : t.sample_info[static_cast<std::size_t>(-2 - f)][static_cast<std::size_t>(record)];
+          read_text_field(q, e, delim, text);
+          if (const char* problem = name_problem(text, at)) {
+            fail(c.failure, line, column,
+                 (f == -1 ? "label " : "value ") + in_quotes(text) +
+                     (f == -1 ? "" : " in column " + in_quotes(h.fields[static_cast<std::size_t>(j)])) + " " + problem,
+                 kNameHint);
             return false;
           }
+          if (f == -1 && na.contains(text)) text.clear();  // no label: the sample is left out of scoring
           continue;
         }
         const char* cell = q;
         float v;
         const CellStatus s = parse_cell(q, e, ctx, v);
         if (s != CellStatus::kOk) {
-          fail_cell(c.failure, s, line, b, cell, q, t.feature_names[static_cast<std::size_t>(f)], na);
+          fail_cell(c.failure, s, line, b, e, cell, q, t.feature_names[static_cast<std::size_t>(f)], na,
+                    t.feature_names[static_cast<std::size_t>(f)], Layout::kRowsAreSamples, delim, record == 0);
           return false;
         }
         row[f * row_block] = v;
@@ -820,7 +895,6 @@ FeatureTable read_rows_are_samples(const std::string& path, const internal::Inpu
     parse(chunks[static_cast<std::size_t>(ci)], out, n, 0, blocks[static_cast<std::size_t>(omp_get_thread_num())]);
   if (any_failure(chunks)) rethrow_first(path, chunks);
   check_unique_sample_ids(path, t.sample_ids, record_lines, {});
-  if (label_field >= 0) check_labels_present(path, t.labels, t.sample_ids, na, record_lines, label_columns);
   return t;
 }
 
@@ -830,7 +904,12 @@ FeatureTable read_rows_are_features(const std::string& path, const internal::Inp
   const int threads = internal::thread_count(options.threads);
   const NaTokens na(options.na_tokens);
   const auto n_fields = static_cast<std::int64_t>(h.fields.size());
-  const std::int64_t n = n_fields - 1;
+  const std::vector<std::int64_t> info = info_fields(path, h, options.feature_info, "--feature-info");
+  // field index -> --feature-info column, -1 for a sample (and the id)
+  std::vector<std::int64_t> info_of(static_cast<std::size_t>(n_fields), -1);
+  for (std::size_t c = 0; c < info.size(); ++c) info_of[static_cast<std::size_t>(info[c])] = static_cast<std::int64_t>(c);
+  const bool has_info = !info.empty();
+  const std::int64_t n = n_fields - 1 - static_cast<std::int64_t>(info.size());
   if (n <= 0)
     throw_input_error({path, 1}, "the header names no sample columns",
                       "with --layout rows=features the header lists the sample ids");
@@ -841,15 +920,24 @@ FeatureTable read_rows_are_features(const std::string& path, const internal::Inp
   t.layout = Layout::kRowsAreFeatures;
   t.id_name = h.fields[0];
   t.label_name = options.label_column;
-  t.sample_ids.assign(h.fields.begin() + 1, h.fields.end());
+  t.feature_info_names = options.feature_info;
+  t.feature_info.resize(info.size());
   {
+    std::vector<std::int64_t> columns;
+    for (std::int64_t j = 1; j < n_fields; ++j) {
+      if (info_of[static_cast<std::size_t>(j)] >= 0) continue;
+      t.sample_ids.push_back(h.fields[static_cast<std::size_t>(j)]);
+      columns.push_back(h.columns[static_cast<std::size_t>(j)]);
+    }
     std::vector<std::int64_t> lines(static_cast<std::size_t>(n), 1);
-    const std::vector<std::int64_t> columns(h.columns.begin() + 1, h.columns.end());
     check_unique_sample_ids(path, t.sample_ids, lines, columns);
   }
+  auto grow_features = [&](std::int64_t features) {
+    t.feature_names.resize(static_cast<std::size_t>(features));
+    for (auto& column : t.feature_info) column.resize(static_cast<std::size_t>(features));
+  };
 
   const CellContext ctx{delim, &na, options.allow_inf};
-  std::vector<std::int64_t> label_columns;
   std::size_t label_chunk = static_cast<std::size_t>(-1);  // index of the chunk holding the label line
   bool in_matrix = false;
 
@@ -872,15 +960,17 @@ FeatureTable read_rows_are_features(const std::string& path, const internal::Inp
                "give one label per sample");
           return false;
         }
+        t.labels.clear();
         for (std::size_t i = 1; i < fields.size(); ++i) {
+          if (info_of[i] >= 0) continue;  // the label line's field under a text column
           std::size_t at = 0;
           if (const char* problem = name_problem(fields[i], at)) {
             fail(c.failure, line, columns[i], "label " + in_quotes(fields[i]) + " " + problem, kNameHint);
             return false;
           }
+          // A missing label is no label: the sample is left out of scoring.
+          t.labels.push_back(na.contains(fields[i]) ? std::string() : std::move(fields[i]));
         }
-        t.labels.assign(fields.begin() + 1, fields.end());
-        label_columns.assign(columns.begin() + 1, columns.end());
         return true;
       }
       std::string& name = t.feature_names[static_cast<std::size_t>(record)];
@@ -891,19 +981,33 @@ FeatureTable read_rows_are_features(const std::string& path, const internal::Inp
         return false;
       }
       float* column = out + (record - base) * n;
-      for (std::int64_t i = 0; i < n; ++i) {
+      for (std::int64_t j = 1, i = 0; j < n_fields; ++j) {
         if (q >= e) {
           fail(c.failure, line, q - b + 1,
-               "line has " + std::to_string(i + 1) + " fields, the header has " +
+               "line has " + std::to_string(j) + " fields, the header has " +
                    std::to_string(n_fields),
                "every line needs one value per sample in the header");
           return false;
         }
         ++q;
         const char* cell = q;
-        const CellStatus s = parse_cell(q, e, ctx, column[i]);
+        if (has_info && info_of[static_cast<std::size_t>(j)] >= 0) {
+          std::string& text =
+              t.feature_info[static_cast<std::size_t>(info_of[static_cast<std::size_t>(j)])][static_cast<std::size_t>(record)];
+          read_text_field(q, e, delim, text);
+          if (const char* problem = name_problem(text, at)) {
+            fail(c.failure, line, cell - b + 1,
+                 "value " + in_quotes(text) + " in column " + in_quotes(h.fields[static_cast<std::size_t>(j)]) + " " +
+                     problem,
+                 kNameHint);
+            return false;
+          }
+          continue;
+        }
+        const CellStatus s = parse_cell(q, e, ctx, column[i++]);
         if (s != CellStatus::kOk) {
-          fail_cell(c.failure, s, line, b, cell, q, name, na);
+          fail_cell(c.failure, s, line, b, e, cell, q, name, na, h.fields[static_cast<std::size_t>(j)],
+                    Layout::kRowsAreFeatures, delim, record == 0);
           return false;
         }
       }
@@ -933,7 +1037,7 @@ FeatureTable read_rows_are_features(const std::string& path, const internal::Inp
       if (label_chunk != static_cast<std::size_t>(-1) || c.second_label_line != 0) return false;
       label_chunk = index;
     }
-    t.feature_names.resize(static_cast<std::size_t>(c.first_record + c.records));
+    grow_features(c.first_record + c.records);
     early.emplace_back(static_cast<std::size_t>(c.records * n));
     parse(c, index, early.back().data(), c.first_record);
     return !c.failure.set;
@@ -961,7 +1065,8 @@ FeatureTable read_rows_are_features(const std::string& path, const internal::Inp
     label_line = c.first_line + c.label_line - 1;
     label_chunk = k;
   }
-  if (!options.label_column.empty() && label_line == 0)
+  if (label_line == 0) t.label_name.clear();  // (an optional label line that is not there)
+  if (!options.label_column.empty() && label_line == 0 && !options.label_optional)
     throw_input_error({path}, "no line starts with " + in_quotes(options.label_column) + " for --label",
                       "with --layout rows=features the labels are a line whose first field is "
                       "that name");
@@ -971,7 +1076,7 @@ FeatureTable read_rows_are_features(const std::string& path, const internal::Inp
   if (any_failure(chunks)) rethrow_first(path, chunks);
 
   t.values.allocate(n, p, options.memory);
-  t.feature_names.resize(static_cast<std::size_t>(p));
+  grow_features(p);
   float* const out = t.values.data();
   in_matrix = true;
 #pragma omp parallel for schedule(dynamic, 1) num_threads(threads)
@@ -984,24 +1089,79 @@ FeatureTable read_rows_are_features(const std::string& path, const internal::Inp
   for (std::int64_t ci = static_cast<std::int64_t>(first_late); ci < static_cast<std::int64_t>(chunks.size()); ++ci)
     parse(chunks[static_cast<std::size_t>(ci)], static_cast<std::size_t>(ci), out, 0);
   if (any_failure(chunks)) rethrow_first(path, chunks);
-  if (!t.labels.empty()) {
-    std::vector<std::int64_t> lines(static_cast<std::size_t>(n), label_line);
-    check_labels_present(path, t.labels, t.sample_ids, na, lines, label_columns);
-  }
   return t;
+}
+
+// The checks of --feature-info / --sample-info that need no file: the layout that takes each, no
+// name twice, no empty name, not the label column.
+void check_info_options(const ReadOptions& options) {
+  const bool by_sample = options.layout == Layout::kRowsAreSamples;
+  if (by_sample && !options.feature_info.empty())
+    throw_usage_error("--feature-info is for --layout rows=features (a feature per line)",
+                      "with rows=samples, text columns describing the samples are --sample-info COLUMNS");
+  if (!by_sample && !options.sample_info.empty())
+    throw_usage_error("--sample-info is for --layout rows=samples (a sample per line)",
+                      "with rows=features, text columns describing the features are --feature-info COLUMNS");
+  const char* option = by_sample ? "--sample-info" : "--feature-info";
+  const std::vector<std::string>& names = by_sample ? options.sample_info : options.feature_info;
+  for (std::size_t i = 0; i < names.size(); ++i) {
+    if (names[i].empty())
+      throw_usage_error(std::string(option) + " has an empty column name", "give comma-separated header names");
+    if (std::find(names.begin(), names.begin() + static_cast<std::ptrdiff_t>(i), names[i]) !=
+        names.begin() + static_cast<std::ptrdiff_t>(i))
+      throw_usage_error(std::string(option) + " names " + in_quotes(names[i]) + " twice", "give each column once");
+    if (by_sample && names[i] == options.label_column)
+      throw_usage_error(std::string(option) + " names " + in_quotes(names[i]) + ", the --label column",
+                        "the labels are carried already; leave it out of --sample-info");
+  }
+}
+
+// Makes the feature names unique: the first of a name keeps it, later ones become NAME#2,
+// NAME#3, ... (a suffix that would give a name the file already has is skipped), so that every
+// command names the features of a file the same way. The renamed ones are listed in t.renamed.
+void make_feature_names_unique(FeatureTable& t) {
+  std::vector<std::string>& names = t.feature_names;
+  std::unordered_set<std::string_view> taken;
+  taken.reserve(names.size() * 2);
+  std::vector<std::size_t> repeats;
+  for (std::size_t j = 0; j < names.size(); ++j)
+    if (!taken.insert(names[j]).second) repeats.push_back(j);
+  if (repeats.empty()) return;
+  // The new names are kept here, so the views in `taken` stay valid while names change.
+  std::vector<std::string> made;
+  made.reserve(repeats.size());
+  std::unordered_map<std::string_view, std::int64_t> next;  // name -> next suffix to try
+  for (const std::size_t j : repeats) {
+    std::int64_t& k = next.try_emplace(*taken.find(names[j]), 2).first->second;
+    std::string candidate;
+    do candidate = names[j] + "#" + std::to_string(k++);
+    while (taken.count(candidate) > 0);
+    made.push_back(std::move(candidate));
+    taken.insert(made.back());
+  }
+  t.renamed.reserve(repeats.size());
+  for (std::size_t r = 0; r < repeats.size(); ++r) {
+    const std::size_t j = repeats[r];
+    t.renamed.emplace_back(static_cast<std::int64_t>(j), std::move(names[j]));
+    names[j] = std::move(made[r]);
+  }
 }
 
 }  // namespace
 
 FeatureTable read_table(const std::string& path, const ReadOptions& options) {
+  check_info_options(options);
   const internal::InputText input = internal::InputText::open(path, options.memory);
   try {
     const Header h = input.streaming() ? read_arriving_header(path, input, options.delimiter)
                                        : read_header(path, input.view(), options.delimiter);
     check_names(path, 1, h.fields, h.columns, "the column name");
     ProgressStep progress("reading", static_cast<std::int64_t>(input.expected_size()), "bytes");
-    if (options.layout == Layout::kRowsAreSamples) return read_rows_are_samples(path, input, h, options, progress);
-    return read_rows_are_features(path, input, h, options, progress);
+    FeatureTable t = options.layout == Layout::kRowsAreSamples
+                         ? read_rows_are_samples(path, input, h, options, progress)
+                         : read_rows_are_features(path, input, h, options, progress);
+    make_feature_names_unique(t);
+    return t;
   } catch (const Error&) {
     // A damaged gzip stream is reported before anything found in the text it did give.
     (void)input.view();
@@ -1037,6 +1197,7 @@ SampleSheet read_sample_sheet(const std::string& spec, char delimiter) {
   } else {
     sheet.column = h.fields[1];
   }
+  sheet.header = h.fields;
   const NaTokens na(default_na_tokens());
   const char* p = h.data_begin;
   const char* end = text.data() + text.size();
@@ -1067,19 +1228,43 @@ SampleSheet read_sample_sheet(const std::string& spec, char delimiter) {
                         "duplicate sample id " + in_quotes(fields[0]) + " (first seen on line " +
                             std::to_string(it->second) + ")",
                         "each sample may appear once in the sample sheet");
-    if (na.contains(fields[label_field]))
-      throw_input_error({sheet.path, line, 1}, "sample " + in_quotes(fields[0]) + " has no label in column " +
-                                                   in_quotes(sheet.column),
-                        "give every sample a class, or leave the sample out");
-    sheet.ids.push_back(std::move(fields[0]));
-    sheet.labels.push_back(std::move(fields[label_field]));
+    // A missing label is no label: the sample is left out of scoring.
+    sheet.ids.push_back(fields[0]);
+    sheet.labels.push_back(na.contains(fields[label_field]) ? std::string() : fields[label_field]);
     sheet.lines.push_back(line);
+    sheet.cells.push_back(std::move(fields));
   }
   if (sheet.ids.empty())
     throw_input_error({sheet.path, h.first_data_line, 1},
                       "the sample sheet has no lines after the header",
                       "one line per sample: id, then label");
   return sheet;
+}
+
+std::vector<std::string> sheet_column_values(const SampleSheet& sheet, const std::string& column,
+                                             const std::vector<std::string>& sample_ids) {
+  const auto it = std::find(sheet.header.begin(), sheet.header.end(), column);
+  if (it == sheet.header.end())
+    throw_input_error({sheet.path, 1}, "the sample sheet has no column named " + in_quotes(column),
+                      header_names_hint(sheet.header));
+  const auto field = static_cast<std::size_t>(it - sheet.header.begin());
+  std::unordered_map<std::string_view, std::size_t> by_id;
+  by_id.reserve(sheet.ids.size() * 2);
+  for (std::size_t i = 0; i < sheet.ids.size(); ++i) by_id.emplace(sheet.ids[i], i);
+  const NaTokens na(default_na_tokens());
+  std::vector<std::string> values(sample_ids.size());
+  for (std::size_t i = 0; i < sample_ids.size(); ++i) {
+    const auto row = by_id.find(sample_ids[i]);
+    if (row == by_id.end()) continue;
+    const std::string& value = sheet.cells[row->second][field];
+    if (na.contains(value)) continue;
+    std::size_t at = 0;
+    if (const char* problem = name_problem(value, at))
+      throw_input_error({sheet.path, sheet.lines[row->second], 1},
+                        "value " + in_quotes(value) + " in column " + in_quotes(column) + " " + problem, kNameHint);
+    values[i] = value;
+  }
+  return values;
 }
 
 void attach_labels(FeatureTable& table, const SampleSheet& sheet) {

@@ -257,12 +257,17 @@ SampleScreen screen_samples(const ConstMatrixRef& m, const ScreenOptions& o,
 
 std::string samples_tsv(const SampleScreen& s, const std::vector<std::string>& ids,
                         const std::vector<std::string>& labels, const std::string& label_name,
-                        const std::vector<char>& dropped) {
+                        const std::vector<char>& dropped, const std::vector<std::string>& info_names,
+                        const std::vector<std::vector<std::string>>& info) {
   const Eigen::Index k = s.done ? s.scores.cols() : 0;
   std::string out = "sample";
   if (!labels.empty()) {
     out += '\t';
     internal::append_field(out, label_name.empty() ? "label" : label_name, '\t');
+  }
+  for (const auto& name : info_names) {
+    out += '\t';
+    internal::append_field(out, name, '\t');
   }
   out += "\tmissing\tmissing_rate";
   for (Eigen::Index c = 0; c < k; ++c) out += "\tscreen_pc" + std::to_string(c + 1);
@@ -271,7 +276,12 @@ std::string samples_tsv(const SampleScreen& s, const std::vector<std::string>& i
     internal::append_field(out, ids[i], '\t');
     if (!labels.empty()) {
       out += '\t';
-      internal::append_field(out, labels[i], '\t');
+      // A sample without a label (left out of the supervised steps) is written NA.
+      internal::append_field(out, labels[i].empty() ? std::string("NA") : labels[i], '\t');
+    }
+    for (const auto& column : info) {
+      out += '\t';
+      internal::append_field(out, column[i], '\t');
     }
     out += '\t' + std::to_string(s.missing[i]) + '\t';
     internal::append_number(out, s.missing_rate(i));

@@ -52,10 +52,22 @@ json internal::plan_document(const FeatureTable& t, const Reduction& r, const Re
                   {"delimiter", delimiter_text(t.delimiter)},
                   {"label", run.label},
                   {"na", run.na_tokens},
-                  {"allow_inf", run.allow_inf}};
+                  {"allow_inf", run.allow_inf},
+                  {"feature_info", run.feature_info},
+                  {"sample_info", run.sample_info}};
+  // Which samples the fit used: those of --samples, less those left out for a missing label or a
+  // class under --min-class-size (ids listed), less the outliers dropped (sample_screen).
+  json samples = {{"in_file", run.samples_read}, {"used", t.n_samples()}};
+  if (!run.sample_list_path.empty())
+    samples["list"] = {{"path", run.sample_list_path}, {"sha256", run.sample_list_sha256}};
+  samples["left_out_unlabelled"] = run.left_out.unlabelled;
+  samples["min_class_size"] = run.left_out.min_class_size;
+  samples["left_out_small_class"] = run.left_out.small_class;
+  samples["small_classes"] = run.left_out.small_classes;
+  plan["samples"] = samples;
   plan["parameters"] = {
       {"missing_filter", o.missing_filter},
-      {"max_missing", o.max_missing},
+      {"drop_missing_above", o.drop_missing_above},
       {"impute", impute_name(o.impute)},
       {"log2", o.log2},
       {"scale", o.scale},
@@ -92,7 +104,7 @@ json internal::plan_document(const FeatureTable& t, const Reduction& r, const Re
                   {"fill", fill},
                   {"center", center},
                   {"scale", spread}};
-  plan["outputs"] = {{"ranking", "ranking.tsv"}, {"selection_log", "selection-log.tsv"}, {"reduced", "reduced.csv"}};
+  plan["outputs"] = {{"ranking", "ranking.tsv"}, {"selection_log", "selection-log.tsv"}, {"reduced", reduced_file_name(t.delimiter)}};
   if (pp.projection) {
     const Projection& pr = *pp.projection;
     json feature_center = json::array(), feature_scale = json::array();
@@ -182,6 +194,9 @@ Plan load_plan(const std::string& path) {
   p.label = typed<std::string>(path, member(path, read, "label", "read"), "read.label", "a string");
   p.na_tokens = typed<std::vector<std::string>>(path, member(path, read, "na", "read"), "read.na", "an array of strings");
   p.allow_inf = typed<bool>(path, member(path, read, "allow_inf", "read"), "read.allow_inf", "true or false");
+  for (const auto& [key, target] : {std::pair{"feature_info", &p.feature_info}, std::pair{"sample_info", &p.sample_info}})
+    if (const auto it = read.find(key); it != read.end())
+      *target = typed<std::vector<std::string>>(path, *it, std::string("read.") + key, "an array of strings");
   const json& transform = member(path, plan, "transform", "plan");
   p.log2 = typed<bool>(path, member(path, transform, "log2", "transform"), "transform.log2", "true or false");
   p.scale = typed<bool>(path, member(path, transform, "scale", "transform"), "transform.scale", "true or false");
@@ -269,6 +284,27 @@ FeatureTable apply_plan(const Plan& plan, const FeatureTable& data, bool allow_m
                         "feature names must be unique to be matched");
     source[i] = it->second;
   }
+  // Filling most of the plan from training values would give every sample nearly the same row
+  // (a wrong layout does exactly that): more than half absent is refused even when filling is
+  // allowed, and when the plan's names are this file's sample ids the other layout is named.
+  const auto layout_hint = [&]() -> std::string {
+    std::unordered_map<std::string_view, char> ids;
+    for (const auto& id : data.sample_ids) ids.emplace(id, 1);
+    std::size_t as_ids = 0;
+    for (const auto& name : plan.names) as_ids += ids.count(name);
+    if (2 * as_ids <= k) return "";
+    return std::to_string(as_ids) + " of them are sample ids of this file: read it with --layout " +
+           (data.layout == Layout::kRowsAreSamples ? "rows=features" : "rows=samples");
+  };
+  if (2 * report.absent.size() > k) {
+    const std::string hint = layout_hint();
+    throw_input_error({data.source},
+                      std::to_string(report.absent.size()) + " of the plan's " + std::to_string(k) +
+                          " features are not in the data (read as " +
+                          (data.layout == Layout::kRowsAreSamples ? "rows=samples" : "rows=features") +
+                          "), too many to fill with training values",
+                      hint.empty() ? "check that this is the kind of data the plan was made on, and the names" : hint);
+  }
   if (!report.absent.empty() && !allow_missing) {
     std::string names;
     for (std::size_t i = 0; i < report.absent.size() && i < 10; ++i) names += (i ? ", " : "") + report.absent[i];
@@ -288,6 +324,8 @@ FeatureTable apply_plan(const Plan& plan, const FeatureTable& data, bool allow_m
   out.sample_ids = data.sample_ids;
   out.labels = data.labels;
   out.label_name = data.label_name;
+  out.sample_info_names = data.sample_info_names;
+  out.sample_info = data.sample_info;
   out.id_name = data.id_name;
   out.source = data.source;
   out.delimiter = data.delimiter;

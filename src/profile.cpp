@@ -3,6 +3,7 @@
 #include <cmath>          // std::sqrt, std::abs
 #include <string_view>    // std::string_view
 #include <unordered_map>  // std::unordered_map
+#include <vector>         // std::vector
 
 #include "internal/format.h"
 
@@ -19,6 +20,18 @@ Profile profile_table(const FeatureTable& table, const ProfileOptions& options) 
   std::unordered_map<std::string_view, std::int64_t> name_count;
   name_count.reserve(n_features * 2);
   for (const auto& name : table.feature_names) ++name_count[name];
+  // The reader makes repeated names unique (NAME#2, ...): the renamed features, and the first
+  // feature of each name they repeated, are flagged as the file wrote them.
+  std::vector<char> repeated(n_features, 0);
+  if (!table.renamed.empty()) {
+    std::unordered_map<std::string_view, std::size_t> index_of;
+    index_of.reserve(n_features * 2);
+    for (std::size_t j = 0; j < n_features; ++j) index_of.emplace(table.feature_names[j], j);
+    for (const auto& [j, name] : table.renamed) {
+      repeated[static_cast<std::size_t>(j)] = 1;
+      if (const auto it = index_of.find(name); it != index_of.end()) repeated[it->second] = 1;
+    }
+  }
 
   for (std::size_t j = 0; j < n_features; ++j) {
     const ColumnStats& s = p.features[j];
@@ -28,7 +41,7 @@ Profile profile_table(const FeatureTable& table, const ProfileOptions& options) 
     else if (s.n >= 2 && std::sqrt(s.variance) < options.near_constant_cv * std::abs(s.mean))
       f |= kFlagNearConstant;
     if (s.missing_rate() > options.mostly_missing) f |= kFlagMostlyMissing;
-    if (name_count[table.feature_names[j]] > 1) f |= kFlagDuplicateName;
+    if (repeated[j] || name_count[table.feature_names[j]] > 1) f |= kFlagDuplicateName;
     p.flags[j] = f;
     p.missing_cells += s.missing;
     p.n_all_missing += (f & kFlagAllMissing) != 0;

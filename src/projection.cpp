@@ -423,26 +423,17 @@ Eigen::MatrixXd project_rows(const ConstMatrixRef& x, const Eigen::VectorXd& cen
 
 namespace pare {
 
-std::string scores_csv(const Eigen::MatrixXd& scores, const std::vector<std::string>& sample_ids,
-                       const std::vector<std::string>& labels, const std::string& label_name,
-                       const std::string& id_name) {
-  std::string out;
-  internal::append_field(out, id_name.empty() ? "sample" : id_name, ',');
+std::string scores_csv(const Eigen::MatrixXd& scores, const std::vector<std::string>& sample_ids) {
+  // Ids and numbers only, headed `sample` whatever the input's id column was called, so the file
+  // reads as a numeric table with the ids as row names; per-sample facts are in samples.tsv.
+  std::string out = "sample";
   for (Index c = 0; c < scores.cols(); ++c) out += ",PC" + std::to_string(c + 1);
-  if (!labels.empty()) {
-    out += ',';
-    internal::append_field(out, label_name.empty() ? "label" : label_name, ',');
-  }
   out += '\n';
   for (Index i = 0; i < scores.rows(); ++i) {
     internal::append_field(out, sample_ids[static_cast<std::size_t>(i)], ',');
     for (Index c = 0; c < scores.cols(); ++c) {
       out += ',';
       internal::append_number(out, scores(i, c));
-    }
-    if (!labels.empty()) {
-      out += ',';
-      internal::append_field(out, labels[static_cast<std::size_t>(i)], ',');
     }
     out += '\n';
   }

@@ -160,73 +160,133 @@ double f_upper_tail(double statistic, double df1, double df2) {
 
 namespace {
 
-// psi(m) for integers m >= 1 by the recurrence psi(m + 1) = psi(m) + 1/m, psi(1) = -Euler's gamma;
-// a per-thread table grown on demand (the kNN estimator needs psi of counts only).
-double psi_of(std::int64_t m) {
+// psi(m) for the integers 0 < m <= n by the recurrence psi(m + 1) = psi(m) + 1/m, psi(1) = -Euler's
+// gamma: a per-thread table grown on demand (the kNN estimator needs psi of counts only), returned
+// whole so a loop over points indexes it directly.
+const double* psi_table(std::int64_t n) {
   thread_local std::vector<double> table{0.0, -0.57721566490153286060651209008240243};
-  while (static_cast<std::int64_t>(table.size()) <= m) {
+  while (static_cast<std::int64_t>(table.size()) <= n) {
     const auto last = static_cast<double>(table.size() - 1);
     table.push_back(table.back() + 1.0 / last);
   }
-  return table[static_cast<std::size_t>(m)];
+  return table.data();
 }
 
+// Buffers of the kNN estimator, reused from feature to feature (one set per thread), so nothing is
+// allocated per feature once they have grown.
+struct KnnScratch {
+  std::vector<std::int64_t> count, offset, fill;
+  std::vector<double> members, all;
+};
+
 // The kNN estimator on values sorted ascending, `y[i]` the class of `x[i]`.
-double knn_mi_sorted(std::span<const double> x, std::span<const int> y, int classes, int k) {
-  // Points alone in their class carry no neighbour information and are left out (N shrinks).
-  std::vector<std::int64_t> count(static_cast<std::size_t>(classes), 0);
-  for (int c : y) ++count[static_cast<std::size_t>(c)];
-  std::vector<std::vector<double>> by_class(static_cast<std::size_t>(classes));
-  for (std::size_t c = 0; c < by_class.size(); ++c)
-    if (count[c] >= 2) by_class[c].reserve(static_cast<std::size_t>(count[c]));
-  std::vector<double> all;
-  all.reserve(x.size());
-  for (std::size_t i = 0; i < x.size(); ++i) {
-    if (count[static_cast<std::size_t>(y[i])] < 2) continue;
-    by_class[static_cast<std::size_t>(y[i])].push_back(x[i]);  // stays sorted
-    all.push_back(x[i]);
-  }
-  const auto n = static_cast<std::int64_t>(all.size());
+//
+// Ross (2014, PLoS ONE 9(2): e87357) for a continuous x against a discrete y, as CHECKS.md §5
+// states it: MI = psi(N) + <psi(k_i)> - <psi(N_c(i))> - <psi(m_i)>, clipped at 0, where rho_i is
+// the distance from x_i to its k-th nearest neighbour in the joint space (x, y) with the max-norm,
+// i.e. in its own class (a point of another class is infinitely far), k_i = min(k, N_c - 1), and
+// m_i counts the points of any class strictly closer than rho_i, x_i itself included.
+//
+// Ties. Gao, Kannan, Oh & Viswanath, "Estimating Mutual Information for Discrete-Continuous
+// Mixtures", NeurIPS 2017, keep this form but, where the k-th neighbour distance is 0, replace k by
+// the number of points in the zero-radius joint ball and count the marginal balls with that same
+// radius; in the authors' published Python code for the paper the point itself is counted in all
+// three counts. (The paper's Algorithm 1 is recalled from memory only.)
+// Here, for every point, the ball is B_i = {x : |x - x_i| < rho_i} when rho_i > 0 and {x_i} when
+// rho_i = 0, and
+//   k_i = points of class(i) in B_i,   m_i = points of any class in B_i,   both with x_i itself.
+// - No ties at distance rho_i > 0: the k - 1 nearer same-class neighbours and x_i are strictly
+//   inside, so k_i = k and m_i is Ross's: tie-free data give Ross's value exactly (CHECKS §5).
+// - rho_i = 0: Gao et al.'s rule. For a purely discrete x (every value held by more than k points
+//   of each class that holds it) the estimate is psi(N) + (1/N) sum_{x,c} n_xc [psi(n_xc) -
+//   psi(n_c) - psi(n_x)]: the plug-in MI sum_{x,c} (n_xc/N) ln(N n_xc / (n_c n_x)) with psi(n) in
+//   place of ln n (psi(n) - ln n -> 0), like the estimator the paper proves consistent.
+// - Ties at a distance rho_i > 0 (values on a grid: a fixed number of decimals, integer counts):
+//   Ross and Gao et al. (whose model has ties only at distance 0) keep k_i = k while the
+//   neighbours at exactly rho_i are left out of m_i, so m_i can fall below k and a feature
+//   unrelated to the class scores high (54 planted near-constant demo features in the kNN top 100).
+//   Counting k_i in the same open ball as m_i keeps the ratio k_i / m_i an estimate of the class
+//   share near x_i. With ties at distance 0 only, this is Gao et al.'s estimator (with psi(N) where
+//   their code has ln N); without ties, Ross's.
+// Cost: O(k + log n) per point (an outward walk, then binary searches in sorted arrays).
+double knn_mi_sorted(std::span<const double> x, std::span<const int> y, int classes, int k,
+                     KnnScratch& s) {
+  const auto nc = static_cast<std::size_t>(classes);
+  s.count.assign(nc, 0);
+  for (int c : y) ++s.count[static_cast<std::size_t>(c)];
+  // Points alone in their class carry no neighbour information and are left out (N shrinks). The
+  // others are grouped by class (each group stays sorted) and all together in `all` (sorted).
+  s.offset.assign(nc + 1, 0);
+  for (std::size_t c = 0; c < nc; ++c)
+    s.offset[c + 1] = s.offset[c] + (s.count[c] >= 2 ? s.count[c] : 0);
+  const std::int64_t n = s.offset[nc];
   if (n == 0) return 0;
+  s.members.resize(static_cast<std::size_t>(n));
+  s.all.resize(static_cast<std::size_t>(n));
+  s.fill.assign(s.offset.begin(), s.offset.end() - 1);
+  std::size_t next = 0;
+  for (std::size_t i = 0; i < x.size(); ++i) {
+    const auto c = static_cast<std::size_t>(y[i]);
+    if (s.count[c] < 2) continue;
+    s.members[static_cast<std::size_t>(s.fill[c]++)] = x[i];
+    s.all[next++] = x[i];
+  }
+  const double* all_begin = s.all.data();
+  const double* all_end = all_begin + n;
+  const double* psi = psi_table(n);  // every count below is at most n
 
   double sum_psi_k = 0, sum_psi_class = 0, sum_psi_m = 0;
-  for (const auto& members : by_class) {
-    const auto size = static_cast<std::int64_t>(members.size());
+  for (std::size_t c = 0; c < nc; ++c) {
+    const std::int64_t size = s.count[c];
     if (size < 2) continue;
-    const std::int64_t ki = std::min<std::int64_t>(k, size - 1);
-    sum_psi_k += static_cast<double>(size) * psi_of(ki);
-    sum_psi_class += static_cast<double>(size) * psi_of(size);
+    const double* members = s.members.data() + s.offset[c];
+    const std::int64_t kc = std::min<std::int64_t>(k, size - 1);
+    sum_psi_class += static_cast<double>(size) * psi[size];
     for (std::int64_t pos = 0; pos < size; ++pos) {
-      const double xi = members[static_cast<std::size_t>(pos)];
-      // Distance to the ki-th nearest other member: merge outwards from pos.
-      std::int64_t left = pos - 1, right = pos + 1;
+      const double xi = members[pos];
+      // Walk outwards from pos to the kc-th nearest other member: the distances met never
+      // decrease, so when the walk stops at distance d every member closer than d has been passed.
+      // `inside` counts the members passed strictly closer than d, `at_d` those at d.
+      std::int64_t left = pos - 1, right = pos + 1, inside = 0, at_d = 0;
       double d = 0;
-      for (std::int64_t step = 0; step < ki; ++step) {
-        const double dl = left >= 0 ? xi - members[static_cast<std::size_t>(left)] : kInf;
-        const double dr = right < size ? members[static_cast<std::size_t>(right)] - xi : kInf;
-        if (dl <= dr) {
-          d = dl;
+      for (std::int64_t step = 0; step < kc; ++step) {
+        const double dl = left >= 0 ? xi - members[left] : kInf;
+        const double dr = right < size ? members[right] - xi : kInf;
+        const double next_d = std::min(dl, dr);
+        if (dl <= dr)
           --left;
-        } else {
-          d = dr;
+        else
           ++right;
+        if (next_d > d) {
+          inside += at_d;
+          at_d = 1;
+          d = next_d;
+        } else {
+          ++at_d;
         }
       }
-      // m_i: points of any class strictly closer than d, the point itself included. At d == 0
-      // (ties) count the points equal to x_i, as a radius query at distance 0 does.
-      std::int64_t m;
+      std::int64_t ki, m;
       if (d > 0) {
-        const auto lo = std::partition_point(all.begin(), all.end(), [&](double v) { return v < xi && !(xi - v < d); });
-        const auto hi = std::partition_point(lo, all.end(), [&](double v) { return v <= xi || v - xi < d; });
+        // The open ball |x - x_i| < d: the distances are formed as in the walk (xi - v, v - xi).
+        ki = 1 + inside;
+        const double* lo = std::partition_point(
+            all_begin, all_end, [&](double v) { return v < xi && !(xi - v < d); });
+        const double* hi =
+            std::partition_point(lo, all_end, [&](double v) { return v <= xi || v - xi < d; });
         m = hi - lo;
       } else {
-        m = std::upper_bound(all.begin(), all.end(), xi) - std::lower_bound(all.begin(), all.end(), xi);
+        // The zero-radius ball: the points equal to x_i, of its class and of any class.
+        const auto same = std::equal_range(members, members + size, xi);
+        ki = same.second - same.first;
+        const auto any = std::equal_range(all_begin, all_end, xi);
+        m = any.second - any.first;
       }
-      sum_psi_m += psi_of(m);
+      sum_psi_k += psi[ki];
+      sum_psi_m += psi[m];
     }
   }
   const double dn = static_cast<double>(n);
-  const double mi = psi_of(n) + (sum_psi_k - sum_psi_class - sum_psi_m) / dn;
+  const double mi = psi[n] + (sum_psi_k - sum_psi_class - sum_psi_m) / dn;
   return std::max(0.0, mi);
 }
 
@@ -257,7 +317,8 @@ double knn_mutual_information(std::span<const double> x, std::span<const int> y,
     xs[i] = x[order[i]];
     ys[i] = y[order[i]];
   }
-  return knn_mi_sorted(xs, ys, classes, k);
+  KnnScratch scratch;
+  return knn_mi_sorted(xs, ys, classes, k, scratch);
 }
 
 std::vector<double> bh_adjust(std::span<const double> p) {
@@ -291,14 +352,20 @@ struct Scratch {
   std::vector<int> labels;
   std::vector<double> class_sum, class_mean;
   std::vector<std::int64_t> class_count;
+  KnnScratch knn;
 };
 
 struct Result {
   double mi = 0, chi2 = 0, chi2_p = 1, f = 0, f_p = 1, counts = 0, counts_p = 1, variance = 0, missing_rate = 0;
   int chi2_df = 0;
   std::uint8_t flags = 0;
+  std::uint8_t defined = 0;  // bits 1 << Criterion (FeatureScores::defined)
   bool negative = false;
 };
+
+constexpr std::uint8_t defined_bit(Criterion c) {
+  return static_cast<std::uint8_t>(1u << static_cast<unsigned>(c));
+}
 
 Result score_one(const float* column, std::int64_t n_rows, const std::vector<int>& codes, int k,
                  const ScoreOptions& options, Scratch& s, const ColumnStats* known) {
@@ -319,17 +386,24 @@ Result score_one(const float* column, std::int64_t n_rows, const std::vector<int
     s.keys.push_back(static_cast<std::uint64_t>(order_key(v)) << 32 | static_cast<std::uint32_t>(i));
   }
   r.negative = stats.n > 0 && stats.min < 0;
-  bool every_class_observed = true;
+  r.defined = defined_bit(Criterion::kVariance);
+  // Classes of any size are scored (SPEC §9): MI and chi-square need only two distinct values; F
+  // is taken over the classes with an observed value and needs two of them and more observed
+  // values than classes (df2 = n - k_obs > 0).
+  std::int64_t classes_observed = 0, classes_with_two = 0;
   for (auto count : s.class_count) {
-    if (count < 2) r.flags |= kScoreFewValues;
-    if (count < 1) every_class_observed = false;
+    classes_observed += count >= 1;
+    classes_with_two += count >= 2;
   }
+  const bool every_class_observed = classes_observed == k;
+  const auto n = static_cast<std::int64_t>(s.keys.size());  // observed values
+  const bool f_defined = classes_observed >= 2 && n > classes_observed;
+  if (!f_defined) r.flags |= kScoreFewValues;
   if (stats.n == 0 || stats.min == stats.max) r.flags |= kScoreConstant;
   // An infinite value (--allow-inf) leaves class means and distances undefined: F, the counts
   // chi-square and the kNN MI stay 0 with p 1; the rank-based binned MI and chi-square remain.
   const bool finite = stats.n == 0 || (std::isfinite(stats.min) && std::isfinite(stats.max));
 
-  const auto n = static_cast<std::int64_t>(s.keys.size());
   const double dn = static_cast<double>(n);
   const double df1 = static_cast<double>(k - 1);
 
@@ -348,9 +422,10 @@ Result score_one(const float* column, std::int64_t n_rows, const std::vector<int
         r.counts += d * d / expected;
       }
       r.counts_p = chi2_upper_tail(r.counts, df1);
+      r.defined |= defined_bit(Criterion::kChi2Counts);
     }
   }
-  if (r.flags) return r;  // defined result: the other scores 0, p-values 1
+  if (r.flags & kScoreConstant) return r;  // defined result: the other scores 0, p-values 1
 
   // Equal-frequency bins (SPEC §4) and the bin x class table. With bins >= n, floor(B L / n) is
   // strictly increasing in L, so bin L gives the same partition (the same table up to empty rows,
@@ -382,19 +457,25 @@ Result score_one(const float* column, std::int64_t n_rows, const std::vector<int
       s.values.push_back(static_cast<double>(column[row]));
       s.labels.push_back(codes[row]);
     }
-    r.mi = knn_mi_sorted(s.values, s.labels, k, options.neighbors);
+    r.mi = knn_mi_sorted(s.values, s.labels, k, options.neighbors, s.knn);
   }
+  // pearson_chi2 drops empty bins and classes: df = (r - 1)(c - 1) of the non-empty table, and a
+  // table with one non-empty row or column has df 0, chi-square 0, p 1 (and MI 0).
   r.chi2 = pearson_chi2(s.table, bins, k, r.chi2_df);
   r.chi2_p = chi2_upper_tail(r.chi2, r.chi2_df);
+  if (r.chi2_df > 0) r.defined |= defined_bit(Criterion::kChi2);
+  if (options.mi == MiEstimator::kBinned ? r.chi2_df > 0 : finite && classes_with_two >= 2)
+    r.defined |= defined_bit(Criterion::kMi);
 
-  if (!finite) return r;
+  if (!finite || !f_defined) return r;
 
-  // One-way ANOVA F: class means first, then the within-class squares about them (two passes, so
-  // no cancellation from sums of squares).
-  s.class_mean.resize(ku);
-  for (std::size_t c = 0; c < ku; ++c) s.class_mean[c] = s.class_sum[c] / static_cast<double>(s.class_count[c]);
+  // One-way ANOVA F over the k_obs classes with an observed value: class means first, then the
+  // within-class squares about them (two passes, so no cancellation from sums of squares).
+  s.class_mean.assign(ku, 0.0);
   double between = 0;
   for (std::size_t c = 0; c < ku; ++c) {
+    if (s.class_count[c] == 0) continue;
+    s.class_mean[c] = s.class_sum[c] / static_cast<double>(s.class_count[c]);
     const double d = s.class_mean[c] - stats.mean;
     between += static_cast<double>(s.class_count[c]) * d * d;
   }
@@ -405,10 +486,12 @@ Result score_one(const float* column, std::int64_t n_rows, const std::vector<int
     const double d = static_cast<double>(v) - s.class_mean[static_cast<std::size_t>(codes[static_cast<std::size_t>(i)])];
     within += d * d;
   }
-  const double df2 = dn - static_cast<double>(k);
+  const double f_df1 = static_cast<double>(classes_observed - 1);
+  const double f_df2 = dn - static_cast<double>(classes_observed);
+  r.defined |= defined_bit(Criterion::kF);
   if (within > 0) {
-    r.f = (between / df1) / (within / df2);
-    r.f_p = f_upper_tail(r.f, df1, df2);
+    r.f = (between / f_df1) / (within / f_df2);
+    r.f_p = f_upper_tail(r.f, f_df1, f_df2);
   } else {
     r.f = kInf;
     r.f_p = 0;
@@ -477,9 +560,11 @@ FeatureScores score_features(const ConstMatrixRef& m, std::span<const std::int64
   out.missing_rate = take(&Result::missing_rate);
   out.chi2_df.resize(p);
   out.flags.resize(p);
+  out.defined.resize(p);
   for (std::size_t j = 0; j < p; ++j) {
     out.chi2_df[j] = results[j].chi2_df;
     out.flags[j] = results[j].flags;
+    out.defined[j] = results[j].defined;
   }
   out.chi2_q = bh_adjust(out.chi2_p);
   out.chi2_bonferroni = bonferroni_adjust(out.chi2_p);
@@ -516,6 +601,11 @@ double criterion_q(const FeatureScores& s, Criterion c, std::size_t i) {
   return 1.0;
 }
 
+bool criterion_defined(const FeatureScores& s, Criterion c, std::size_t i) {
+  if (c == Criterion::kVariance) return true;
+  return i < s.defined.size() && (s.defined[i] & defined_bit(c)) != 0;
+}
+
 std::vector<std::size_t> rank_order(const FeatureScores& scores, Criterion criterion) {
   std::vector<std::size_t> order(scores.size());
   std::iota(order.begin(), order.end(), std::size_t{0});
@@ -544,8 +634,15 @@ std::string score_flag_names(std::uint8_t flags) {
 }
 
 std::string ranking_tsv(const FeatureScores& s, std::span<const std::size_t> order,
-                        const std::vector<std::string>& feature_names, bool with_counts) {
-  std::string out = "rank\tfeature\tmi\tchi2\tchi2_p\tchi2_q\tf\tf_p\tf_q\tvariance\tmissing_rate";
+                        const std::vector<std::string>& feature_names, bool with_counts,
+                        const std::vector<std::string>& info_names,
+                        const std::vector<std::vector<std::string>>& info) {
+  std::string out = "rank\tfeature";
+  for (const auto& name : info_names) {
+    out += '\t';
+    internal::append_field(out, name, '\t');
+  }
+  out += "\tmi\tchi2\tchi2_p\tchi2_q\tf\tf_p\tf_q\tvariance\tmissing_rate";
   if (with_counts) out += "\tchi2_counts\tchi2_counts_p\tchi2_counts_q";
   out += "\tchi2_bonferroni\tf_bonferroni";
   if (with_counts) out += "\tchi2_counts_bonferroni";
@@ -559,6 +656,10 @@ std::string ranking_tsv(const FeatureScores& s, std::span<const std::size_t> ord
     out += std::to_string(r + 1);
     out += '\t';
     internal::append_field(out, feature_names[static_cast<std::size_t>(s.feature[i])], '\t');
+    for (const auto& column : info) {
+      out += '\t';
+      internal::append_field(out, column[static_cast<std::size_t>(s.feature[i])], '\t');
+    }
     num(s.mi[i]);
     num(s.chi2[i]);
     num(s.chi2_p[i]);

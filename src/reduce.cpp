@@ -78,6 +78,53 @@ float transform_value(float x, bool log2) {
   return log2 ? static_cast<float>(std::log2(static_cast<double>(x) + 1.0)) : x;
 }
 
+void check_reduce_options(const ReduceOptions& o) {
+  if (!(o.drop_missing_above >= 0 && o.drop_missing_above <= 1))
+    throw_usage_error("--drop-missing-above must be between 0 and 1 (a fraction of the samples)");
+  if (!(o.min_variance >= 0)) throw_usage_error("--min-variance must be 0 or more");
+  if (!(o.drop_low_variance >= 0 && o.drop_low_variance < 1))
+    throw_usage_error("--drop-low-variance must be at least 0 and below 1");
+  if (!(o.fdr > 0 && o.fdr <= 1)) throw_usage_error("--fdr must be in (0, 1]", "a q-value threshold such as 0.05");
+  if (o.keep < 0) throw_usage_error("--keep must be 0 (all) or more");
+  if (!(o.max_corr > 0 && o.max_corr <= 1))
+    throw_usage_error("--max-corr must be above 0 and at most 1", "an |r| limit such as 0.9; --no-prune skips the step");
+  if (o.score.bins < 2) throw_usage_error("--bins must be 2 or more");
+  if (o.score.neighbors < 1) throw_usage_error("--neighbors must be 1 or more");
+  if (o.threads < 0) throw_usage_error("--threads must be 1 or more (0 = all cores)");
+}
+
+void log2_transform(FeatureTable& t, int threads) {
+  const Eigen::Index n = t.values.rows();
+  const auto p = static_cast<std::int64_t>(t.values.cols());
+  std::vector<std::int64_t> all(static_cast<std::size_t>(p));
+  std::iota(all.begin(), all.end(), std::int64_t{0});
+  std::vector<float> lowest(static_cast<std::size_t>(p), 0.0f);
+  internal::for_each_column(t.values, all, internal::thread_count(threads), [&](std::size_t j) {
+    float* x = t.values.col(static_cast<Eigen::Index>(j)).data();
+    float low = 0.0f;
+    for (Eigen::Index i = 0; i < n; ++i) {
+      if (std::isnan(x[i])) continue;
+      low = std::min(low, x[i]);
+      if (x[i] >= 0) x[i] = transform_value(x[i], true);
+    }
+    lowest[j] = low;
+  });
+  for (std::size_t j = 0; j < lowest.size(); ++j)
+    if (lowest[j] < 0)
+      throw Error(ErrorKind::kInput, t.source + ": feature " + t.feature_names[j] + " has negative values (min " +
+                                         g3(lowest[j]) +
+                                         "), so --log2 cannot apply (leave out --log2, or transform it yourself)");
+}
+
+void require_some_scored(const FeatureScores& s, Criterion c, const std::string& source) {
+  for (std::size_t i = 0; i < s.size(); ++i)
+    if (criterion_defined(s, c, i)) return;
+  throw Error(ErrorKind::kInput,
+              source + ": no feature could be scored by " + criterion_name(c) + " (" + std::to_string(s.size()) +
+                  " features: constant, or " + (c == Criterion::kF ? "with no more observed values than classes" : "too few observed values") +
+                  "), so a ranking would be the input order (check the labels and the data, or rank by another criterion)");
+}
+
 Reduction reduce(FeatureTable& t, const ReduceOptions& o) {
   const Eigen::Index n = t.values.rows();
   const auto p = static_cast<std::int64_t>(t.values.cols());
@@ -89,11 +136,7 @@ Reduction reduce(FeatureTable& t, const ReduceOptions& o) {
   r.fill.assign(static_cast<std::size_t>(p), std::numeric_limits<float>::quiet_NaN());
   r.supervised = o.relevance && t.has_labels();
   r.criterion = r.supervised ? o.rank_by : Criterion::kVariance;
-  if (!(o.max_missing >= 0 && o.max_missing <= 1)) throw_usage_error("--max-missing must be between 0 and 1");
-  if (!(o.drop_low_variance >= 0 && o.drop_low_variance < 1))
-    throw_usage_error("--drop-low-variance must be at least 0 and below 1");
-  if (!(o.fdr > 0 && o.fdr <= 1)) throw_usage_error("--fdr must be in (0, 1]");
-  if (o.keep < 0) throw_usage_error("--keep must be 0 (all) or more");
+  check_reduce_options(o);
   auto drop = [&](std::int64_t j, const char* step, std::string reason) {
     Decision& d = r.decisions[static_cast<std::size_t>(j)];
     d.step = step;
@@ -107,8 +150,8 @@ Reduction reduce(FeatureTable& t, const ReduceOptions& o) {
   alive.reserve(static_cast<std::size_t>(p));
   for (std::int64_t j = 0; j < p; ++j) {
     const double rate = r.raw_stats[static_cast<std::size_t>(j)].missing_rate();
-    if (o.missing_filter && rate > o.max_missing)
-      drop(j, "missing", "missing rate " + g3(rate) + " > " + g3(o.max_missing));
+    if (o.missing_filter && rate > o.drop_missing_above)
+      drop(j, "missing", "missing rate " + g3(rate) + " > " + g3(o.drop_missing_above));
     else
       alive.push_back(j);
   }
@@ -213,6 +256,7 @@ Reduction reduce(FeatureTable& t, const ReduceOptions& o) {
     std::vector<ColumnStats> alive_stats(alive.size());
     for (std::size_t a = 0; a < alive.size(); ++a) alive_stats[a] = current[static_cast<std::size_t>(alive[a])];
     r.scores = score_features(t.values, alive, classes, so, alive_stats);
+    require_some_scored(r.scores, r.criterion, t.source);
     for (const std::size_t pos : rank_order(r.scores, r.criterion)) {
       const std::int64_t j = r.scores.feature[pos];
       r.score_of[static_cast<std::size_t>(j)] = static_cast<std::int64_t>(pos);
@@ -298,7 +342,7 @@ Reduction reduce(FeatureTable& t, const ReduceOptions& o) {
     std::string counts;
     for (const auto& s : r.steps) counts += (counts.empty() ? "" : ", ") + s.name + " " + std::to_string(s.out);
     throw Error(ErrorKind::kInput, t.source + ": every feature was filtered out (left after each step: " + counts +
-                                       "); loosen the thresholds, e.g. --max-missing, --min-variance, --fdr");
+                                       "); loosen the thresholds, e.g. --drop-missing-above, --min-variance, --fdr");
   }
 
   // Kept features: their rank, and the centre and scale of the transformed, filled column.
@@ -343,13 +387,22 @@ void append_tab_number(std::string& out, double v) {
 
 std::string selection_log_tsv(const FeatureTable& t, const Reduction& r) {
   const bool counts = !r.scores.counts.empty();
-  std::string out = "feature\tindex\tstatus\tstep\treason\trank";
+  std::string out = "feature";
+  for (const auto& name : t.feature_info_names) {  // --feature-info columns, right after feature
+    out += '\t';
+    internal::append_field(out, name, '\t');
+  }
+  out += "\tindex\tstatus\tstep\treason\trank";
   if (r.supervised) out += "\tmi\tchi2\tchi2_p\tchi2_q\tf\tf_p\tf_q";
   if (counts) out += "\tchi2_counts\tchi2_counts_p\tchi2_counts_q";
   out += "\tvariance\tmissing_rate\n";
   for (std::size_t j = 0; j < r.decisions.size(); ++j) {
     const Decision& d = r.decisions[j];
     internal::append_field(out, t.feature_names[j], '\t');
+    for (const auto& column : t.feature_info) {
+      out += '\t';
+      internal::append_field(out, column[j], '\t');
+    }
     out += '\t' + std::to_string(j + 1) + '\t' + (d.kept ? "kept" : "dropped") + '\t' + d.step + '\t';
     internal::append_field(out, d.reason, '\t');
     out += '\t';
@@ -384,19 +437,31 @@ std::string reduction_ranking_tsv(const FeatureTable& t, const Reduction& r) {
     std::vector<std::size_t> order;
     order.reserve(r.kept.size());
     for (const std::int64_t j : r.kept) order.push_back(static_cast<std::size_t>(r.score_of[static_cast<std::size_t>(j)]));
-    return ranking_tsv(r.scores, order, t.feature_names, !r.scores.counts.empty());
+    return ranking_tsv(r.scores, order, t.feature_names, !r.scores.counts.empty(), t.feature_info_names,
+                       t.feature_info);
   }
-  std::string out = "rank\tfeature\tvariance\tmissing_rate\tindex\n";
+  std::string out = "rank\tfeature";
+  for (const auto& name : t.feature_info_names) {
+    out += '\t';
+    internal::append_field(out, name, '\t');
+  }
+  out += "\tvariance\tmissing_rate\tindex\n";
   for (std::size_t k = 0; k < r.kept.size(); ++k) {
     const auto j = static_cast<std::size_t>(r.kept[k]);
     out += std::to_string(k + 1) + '\t';
     internal::append_field(out, t.feature_names[j], '\t');
+    for (const auto& column : t.feature_info) {
+      out += '\t';
+      internal::append_field(out, column[j], '\t');
+    }
     append_tab_number(out, r.variance[j]);
     append_tab_number(out, r.raw_stats[j].missing_rate());
     out += '\t' + std::to_string(j + 1) + '\n';
   }
   return out;
 }
+
+const char* reduced_file_name(char delimiter) { return delimiter == '\t' ? "reduced.tsv" : "reduced.csv"; }
 
 std::string reduced_matrix_text(const FeatureTable& t, const std::vector<std::int64_t>& columns,
                                 const std::vector<std::string>& names) {
@@ -416,36 +481,16 @@ void write_reduced_matrix(const FeatureTable& t, const std::vector<std::int64_t>
   const char d = t.delimiter;
   const Eigen::Index n = t.values.rows();
   const auto k = static_cast<Eigen::Index>(columns.size());
-  const std::string label_name = t.label_name.empty() ? "label" : t.label_name;
   const bool by_sample = t.layout == Layout::kRowsAreSamples;
+  // Ids and numbers only, in both layouts: the file loads as a numeric table with the ids as row
+  // names in one read call; labels and other per-sample facts are in samples.tsv.
   std::string header;
-  if (by_sample) {
-    internal::append_field(header, t.id_name.empty() ? "sample" : t.id_name, d);
-    for (const auto& name : names) {
-      header += d;
-      internal::append_field(header, name, d);
-    }
-    if (t.has_labels()) {
-      header += d;
-      internal::append_field(header, label_name, d);
-    }
-    header += '\n';
-  } else {
-    internal::append_field(header, t.id_name.empty() ? "feature" : t.id_name, d);
-    for (const auto& id : t.sample_ids) {
-      header += d;
-      internal::append_field(header, id, d);
-    }
-    header += '\n';
-    if (t.has_labels()) {
-      internal::append_field(header, label_name, d);
-      for (const auto& l : t.labels) {
-        header += d;
-        internal::append_field(header, l, d);
-      }
-      header += '\n';
-    }
+  internal::append_field(header, t.id_name.empty() ? (by_sample ? "sample" : "feature") : t.id_name, d);
+  for (const auto& name : by_sample ? names : t.sample_ids) {
+    header += d;
+    internal::append_field(header, name, d);
   }
+  header += '\n';
   sink(header);
 
   // Lines are formatted in parallel, a group of lines per task, straight into reused buffers
@@ -523,11 +568,6 @@ void write_reduced_matrix(const FeatureTable& t, const std::vector<std::int64_t>
       for (Eigen::Index i = 0; i < rows; ++i) {
         put_field(t.sample_ids[static_cast<std::size_t>(begin + i)]);
         put_numbers(block.data() + i * k, k, 1);
-        if (t.has_labels()) {
-          *room(1) = d;
-          ++text.size;
-          put_field(t.labels[static_cast<std::size_t>(begin + i)]);
-        }
         *room(1) = '\n';
         ++text.size;
       }

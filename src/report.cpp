@@ -9,27 +9,14 @@
 
 #include "internal/format.h"
 #include "internal/plan_document.h"
+#include "internal/report_html.h"
 #include <nlohmann/json.hpp>
 
 namespace pare {
 
-namespace {
-
-// ---- palette ------------------------------------------------------------------------------------
-// The eight colours of Okabe & Ito (2008, "Color Universal Design", recalled), told apart under
-// the common forms of colour blindness. Kept/passed is blue, dropped/removed vermillion.
-constexpr const char* kBlue = "#0072B2";
-constexpr const char* kVermillion = "#D55E00";
-constexpr const char* kOrange = "#E69F00";
-constexpr const char* kInk = "#1a1a1a";
-constexpr const char* kAxis = "#8c8c8c";
-constexpr const char* kPale = "#cfe3f1";   // "features in" behind the blue "features out"
-constexpr const char* kOther = "#999999";  // classes past the eighth
-constexpr const char* kClassColours[] = {"#0072B2", "#E69F00", "#009E73", "#CC79A7",
-                                         "#56B4E9", "#D55E00", "#F0E442", "#000000"};
-constexpr std::size_t kClassColourCount = 8;
-
-constexpr double kNaN = std::numeric_limits<double>::quiet_NaN();
+// The helpers are shared with src/report_plots.cpp (declared in internal/report_html.h, where
+// the palette is).
+namespace internal::html {
 
 // ---- text
 // -----------------------------------------------------------------------------------------
@@ -144,7 +131,7 @@ std::string count(std::int64_t v) {
 }
 
 // `digits` significant digits as printf's %g writes them (so a checker can reproduce the text).
-std::string g(double v, int digits = 3) {
+std::string g(double v, int digits) {
   if (std::isnan(v)) return "NA";
   if (std::isinf(v)) return v > 0 ? "inf" : "-inf";
   char buffer[48];
@@ -152,7 +139,7 @@ std::string g(double v, int digits = 3) {
   return buffer;
 }
 
-std::string percent(double fraction, int decimals = 1) {
+std::string percent(double fraction, int decimals) {
   char buffer[48];
   std::snprintf(buffer, sizeof buffer, "%.*f%%", decimals, 100 * fraction);
   return buffer;
@@ -169,6 +156,12 @@ std::string xy(double v) {
 }
 
 std::string shortest(double v) {
+  std::string out;
+  internal::append_number(out, v);
+  return out;
+}
+
+std::string shortest(float v) {
   std::string out;
   internal::append_number(out, v);
   return out;
@@ -211,7 +204,7 @@ double nice_step(double range, int target) {
   return (f < 1.5 ? 1 : f < 3.5 ? 2 : f < 7.5 ? 5 : 10) * mag;
 }
 
-std::vector<double> linear_ticks(double lo, double hi, int target, bool integers = false) {
+std::vector<double> linear_ticks(double lo, double hi, int target, bool integers) {
   double step = nice_step(hi - lo, target);
   if (integers) step = std::max(1.0, std::round(step));
   std::vector<double> ticks;
@@ -220,27 +213,21 @@ std::vector<double> linear_ticks(double lo, double hi, int target, bool integers
   return ticks;
 }
 
-// Maps a data value to a pixel: domain [d0, d1] (log10 units when log) onto [r0, r1].
-struct Scale {
-  double d0 = 0, d1 = 1, r0 = 0, r1 = 1;
-  bool log = false;
-  double operator()(double v) const {
-    const double t = log ? std::log10(v) : v;
-    return r0 + (t - d0) / (d1 - d0) * (r1 - r0);
-  }
-  double raw(double t) const { return r0 + (t - d0) / (d1 - d0) * (r1 - r0); }
-};
+double Scale::operator()(double v) const {
+  const double t = log ? std::log10(v) : v;
+  return r0 + (t - d0) / (d1 - d0) * (r1 - r0);
+}
 
 void line(std::string& s, double x1, double y1, double x2, double y2, const char* stroke,
-          double width = 1, const char* dash = nullptr) {
+          double width, const char* dash) {
   s += "<line x1=\"" + xy(x1) + "\" y1=\"" + xy(y1) + "\" x2=\"" + xy(x2) + "\" y2=\"" + xy(y2) +
        "\" stroke=\"" + stroke + "\" stroke-width=\"" + xy(width) + "\"";
   if (dash) s += std::string(" stroke-dasharray=\"") + dash + "\"";
   s += "/>";
 }
 
-void text(std::string& s, double x, double y, const std::string& escaped,
-          const char* anchor = "start", const char* cls = nullptr, const char* extra = nullptr) {
+void text(std::string& s, double x, double y, const std::string& escaped, const char* anchor,
+          const char* cls, const char* extra) {
   s += "<text x=\"" + xy(x) + "\" y=\"" + xy(y) + "\"";
   if (std::string_view(anchor) != "start") s += std::string(" text-anchor=\"") + anchor + "\"";
   if (cls) s += std::string(" class=\"") + cls + "\"";
@@ -249,7 +236,7 @@ void text(std::string& s, double x, double y, const std::string& escaped,
 }
 
 void rect(std::string& s, double x, double y, double w, double h, const char* fill,
-          const std::string& title = {}) {
+          const std::string& title) {
   s += "<rect x=\"" + xy(x) + "\" y=\"" + xy(y) + "\" width=\"" + xy(std::max(w, 0.0)) +
        "\" height=\"" + xy(std::max(h, 0.0)) + "\" fill=\"" + fill + "\"";
   if (title.empty()) {
@@ -417,6 +404,7 @@ std::string histogram_svg(const ReportHistogram& h, std::string& caption_extra) 
   }
   std::int64_t most = std::max<std::int64_t>(1, zero.kept + zero.dropped);
   for (const auto& b : bins) most = std::max(most, b.kept + b.dropped);
+  if (h.level > 0) most = std::max(most, static_cast<std::int64_t>(std::ceil(h.level)));
   const int top_power =
       std::max(1, static_cast<int>(std::ceil(std::log10(static_cast<double>(most)) - 1e-9)));
   // log10 counts from 10^-0.3 (half a feature) so a single feature still shows as a bar.
@@ -442,7 +430,14 @@ std::string histogram_svg(const ReportHistogram& h, std::string& caption_extra) 
     const double y0 = y.raw(std::log10(static_cast<double>(n)));
     rect(s, x0, y0, x1 - x0, top + plot_h - y0, fill, title);
   };
-  const auto draw_bin = [&](double x0, double x1, const Bin& b, const std::string& range) {
+  // Each non-empty bin is a group with its edges (in data units, %g) and counts, for checks.
+  const auto draw_bin = [&](double x0, double x1, const Bin& b, const std::string& range,
+                            double from, double to) {
+    if (b.kept + b.dropped <= 0) return;
+    s += "<g class=\"bin\" data-from=\"" + g(from, 6) + "\" data-to=\"" + g(to, 6) +
+         "\" data-count=\"" + std::to_string(b.kept + b.dropped) + "\"";
+    if (!h.dropped.empty()) s += " data-dropped=\"" + std::to_string(b.dropped) + "\"";
+    s += ">";
     const double gap = std::min(1.0, (x1 - x0) * 0.15);
     x0 += gap / 2;
     x1 -= gap / 2;
@@ -460,13 +455,20 @@ std::string histogram_svg(const ReportHistogram& h, std::string& caption_extra) 
           esc(range + ": " + count(b.kept) + what +
               (h.dropped.empty() ? "" : ", " + h.kept_label)));
     }
+    s += "</g>";
   };
   for (std::size_t k = 0; k < bins.size(); ++k) {
     const double e0 = anchor + static_cast<double>(kmin + static_cast<std::int64_t>(k)) * w,
                  e1 = e0 + w;
-    draw_bin(x.raw(e0), x.raw(e1), bins[k], bin_text(e0, e1));
+    draw_bin(x.raw(e0), x.raw(e1), bins[k], bin_text(e0, e1), h.log_x ? std::pow(10.0, e0) : e0,
+             h.log_x ? std::pow(10.0, e1) : e1);
   }
-  if (has_zero) draw_bin(left + 6, left + 6 + zero_w, zero, "0");
+  if (has_zero) draw_bin(left + 6, left + 6 + zero_w, zero, "0", 0, 0);
+  if (h.level > 0) {
+    const double py = y.raw(std::log10(h.level));
+    line(s, x.r0, py, x.r1, py, kOrange, 1.5, "6 3");
+    text(s, x.r1 - 4, py - 5, esc(h.level_label), "end", "cut");
+  }
 
   // x axis: powers of ten on a log axis (plain values when that would give fewer than 3 ticks).
   std::vector<double> ticks;
@@ -612,26 +614,34 @@ std::string scree_svg(const ReportComponents& c) {
   return s;
 }
 
-// Class colour index of each sample (classes sorted by name, as the rest of pare orders them).
-struct Classes {
-  std::vector<std::string> names;
-  std::vector<std::int64_t> counts;
-  std::vector<std::size_t> of;  // per sample
-};
-
 Classes classes_of(const ReportSamples& d) {
   Classes c;
   if (d.labels.empty()) {
     c.names = {"all samples"};
     c.counts = {static_cast<std::int64_t>(d.ids.size())};
+    c.colours = {colour_of(0)};
     c.of.assign(d.ids.size(), 0);
     return c;
   }
+  // Classes sorted by name; samples without a label last, so they take no class's colour.
   std::map<std::string, std::size_t> index;
-  for (const auto& l : d.labels) index.emplace(l, 0);
+  bool unlabelled = false;
+  for (const auto& l : d.labels) {
+    if (l.empty())
+      unlabelled = true;
+    else
+      index.emplace(l, 0);
+  }
   for (auto& [name, i] : index) {
     i = c.names.size();
+    c.colours.push_back(colour_of(c.names.size()));
     c.names.push_back(name);
+  }
+  if (unlabelled) {
+    index[""] = c.names.size();
+    c.names.push_back("no label");
+    c.colours.push_back(kMissing);
+    c.has_missing = true;
   }
   c.counts.assign(c.names.size(), 0);
   for (const auto& l : d.labels) {
@@ -694,12 +704,16 @@ std::string scatter_svg(const std::vector<double>& xs, const std::vector<double>
     if (row % stride != 0 && !flag) continue;
     ++drawn;
     std::string title = esc(d.ids[i]);
-    if (!d.labels.empty()) title += " \xC2\xB7 " + esc(d.labels[i]);
+    if (!d.labels.empty())
+      title += " \xC2\xB7 " + esc(d.labels[i].empty() ? "no label" : d.labels[i]);
+    if (!d.marks.empty())
+      title +=
+          " \xC2\xB7 " + esc(d.mark_name) + " " + esc(d.marks[i].empty() ? "missing" : d.marks[i]);
     if (d.screened) title += " \xC2\xB7 distance " + esc(g(d.distance[i]));
     if (flag) title += " \xC2\xB7 flagged outlier";
     if (!d.dropped.empty() && d.dropped[i]) title += " (dropped)";
     s += "<circle cx=\"" + xy(x(xs[row])) + "\" cy=\"" + xy(y(ys[row])) + "\" r=\"" + xy(r) +
-         "\" fill=\"" + colour_of(classes.of[i]) + "\" fill-opacity=\"0.8\"><title>" + title +
+         "\" fill=\"" + classes.colours[classes.of[i]] + "\" fill-opacity=\"0.8\"><title>" + title +
          "</title></circle>";
     if (flag) {
       rings += "<circle cx=\"" + xy(x(xs[row])) + "\" cy=\"" + xy(y(ys[row])) + "\" r=\"" +
@@ -768,6 +782,9 @@ svg text.note { font-size: 11px; fill: #595959; font-style: italic; }
   display: flex; flex-wrap: wrap; gap: 4px 16px; }
 .legend svg { display: inline-block; vertical-align: -2px; }
 .none { color: #595959; font-style: italic; }
+.caution { border-left: 3px solid #E69F00; padding: 2px 0 2px 10px; max-width: 52em; }
+.strips { display: grid; grid-template-columns: repeat(3, 1fr); gap: 8px 14px; }
+@media (max-width: 820px) { .strips { grid-template-columns: 1fr 1fr; } }
 .flagged { color: #1a1a1a; }
 table { border-collapse: collapse; font-size: 0.88em; margin-top: 4px; }
 th, td { text-align: left; vertical-align: top; padding: 3px 12px 3px 0;
@@ -791,11 +808,12 @@ footer { margin-top: 36px; color: #595959; font-size: 0.85em; border-top: 1px so
 }
 )";
 
-enum class Mark { kBox, kDot, kRing };
-
-std::string swatch(const char* colour, Mark mark = Mark::kBox) {
+std::string swatch(const char* colour, Mark mark) {
   std::string s = "<svg width=\"14\" height=\"12\" viewBox=\"0 0 14 12\" aria-hidden=\"true\">";
-  if (mark == Mark::kRing)
+  if (mark == Mark::kLine)
+    s += std::string("<line x1=\"0\" y1=\"6\" x2=\"14\" y2=\"6\" stroke=\"") + colour +
+         "\" stroke-width=\"2\"/>";
+  else if (mark == Mark::kRing)
     s += std::string("<circle cx=\"7\" cy=\"6\" r=\"4.5\" fill=\"none\" stroke=\"") + colour +
          "\" stroke-width=\"1.5\"/>";
   else if (mark == Mark::kDot)
@@ -818,7 +836,9 @@ std::string name_list(const std::vector<std::string>& names, std::size_t max) {
   return out;
 }
 
-}  // namespace
+}  // namespace internal::html
+
+using namespace internal::html;
 
 std::string report_html(const ReportData& d) {
   std::string h;
@@ -856,9 +876,11 @@ std::string report_html(const ReportData& d) {
   if (!si.ids.empty()) {
     h += "<li>" + count(static_cast<std::int64_t>(si.ids.size())) + " samples";
     if (!si.labels.empty()) {
-      h += " in " + std::to_string(classes.names.size()) + " classes (";
-      for (std::size_t k = 0; k < classes.names.size(); ++k)
+      const std::size_t real = classes.names.size() - (classes.has_missing ? 1 : 0);
+      h += " in " + std::to_string(real) + " classes (";
+      for (std::size_t k = 0; k < real; ++k)
         h += (k ? ", " : "") + esc(classes.names[k]) + " " + count(classes.counts[k]);
+      if (classes.has_missing) h += "; " + count(classes.counts.back()) + " without a label";
       h += ")";
     }
     if (!si.screened) {
@@ -916,10 +938,11 @@ std::string report_html(const ReportData& d) {
     h += "</section>\n";
   }
 
-  if (!d.ranking.bars.empty() || !d.ranking_note.empty()) {
+  if (!d.ranking.bars.empty() || !d.ranking_note.empty() || !d.score_curve.values.empty() ||
+      !d.p_values.values.empty()) {
     h += "<section id=\"ranking\"><h2>Leading features</h2>";
     if (d.ranking.bars.empty()) {
-      h += "<p class=\"none\">" + esc(d.ranking_note) + "</p>";
+      if (!d.ranking_note.empty()) h += "<p class=\"none\">" + esc(d.ranking_note) + "</p>";
     } else {
       h += "<p class=\"lead\">The first " + std::to_string(d.ranking.bars.size()) + " of " +
            count(d.ranking.total) + " kept features in ranking.tsv order, by " +
@@ -928,8 +951,10 @@ std::string report_html(const ReportData& d) {
                            "The leading features by the ranking criterion"),
                   esc(d.ranking.caption));
     }
+    h += score_curve_html(d.score_curve) + p_values_html(d.p_values);
     h += "</section>\n";
   }
+  h += top_features_html(d.top_features, classes);
 
   if (d.has_redundancy) {
     const ReportRedundancy& r = d.redundancy;
@@ -957,6 +982,13 @@ std::string report_html(const ReportData& d) {
          "variance of " +
          esc(d.components.source) +
          " carried by each component (bars) and by the first ones together (line).</p>";
+    if (d.chosen_with_labels && d.components.of_kept)
+      h += "<p class=\"caution\">These features were selected using the labels" +
+           (si.label_name.empty() ? std::string() : " (" + esc(si.label_name) + ")") +
+           ", so the classes are expected to separate on these components, and on the sample "
+           "plots below, even in data without real differences: the separation is not evidence "
+           "by itself. To test it, select on training samples only and apply the plan to "
+           "held-out ones.</p>";
     h += figure(scree_svg(d.components), "");
     h += "</section>\n";
   }
@@ -967,27 +999,46 @@ std::string report_html(const ReportData& d) {
     const auto& rows = d.components.sample_of;
     if (sc.size() >= 2 &&
         (rows.empty() ? sc[0].size() == si.ids.size() : sc[0].size() == rows.size())) {
+      // With --mark-by, every plot is drawn twice, side by side: by class and by the mark column.
+      const bool marked = !si.marks.empty() && si.marks.size() == si.ids.size();
+      std::string mark_note;
+      const Classes marks = marked ? marks_of(si, mark_note) : Classes{};
       h += "<p class=\"lead\">Each dot is a sample on the components above, coloured by class" +
+           std::string(marked ? " (left) and by " + esc(si.mark_name) + " (right)" : "") +
            std::string(si.screened ? "; a black ring marks a sample flagged as an outlier" : "") +
-           ". Hover a dot for its id.</p><div class=\"pair\">";
+           ". Hover a dot for its id.</p>";
+      h += "<div class=\"pair\">";
       const auto axis_name = [&](std::size_t k) {
         return "PC" + std::to_string(k + 1) + " score (" + percent(d.components.ratio[k]) +
                " of variance)";
       };
-      h += figure(scatter_svg(sc[0], sc[1], rows, si, classes, axis_name(0), axis_name(1),
-                              "Samples on PC1 and PC2"),
-                  "");
-      if (sc.size() >= 3)
-        h += figure(scatter_svg(sc[0], sc[2], rows, si, classes, axis_name(0), axis_name(2),
-                                "Samples on PC1 and PC3"),
+      const auto legend = [&](const Classes& c, bool rings, const std::string& heading) {
+        std::string l = "<ul class=\"legend\">";
+        if (!heading.empty()) l += "<li><strong>" + esc(heading) + ":</strong></li>";
+        for (std::size_t k = 0; k < c.names.size(); ++k)
+          l += "<li>" + swatch(c.colours[k].c_str(), Mark::kDot) + " " + esc(c.names[k]) + " (" +
+               count(c.counts[k]) + ")</li>";
+        if (rings) l += "<li>" + swatch(kInk, Mark::kRing) + " flagged outlier</li>";
+        return l + "</ul>";
+      };
+      for (std::size_t k = 1; k < sc.size() && k < 3; ++k) {
+        const std::string aria = "Samples on PC1 and PC" + std::to_string(k + 1);
+        h += figure(scatter_svg(sc[0], sc[k], rows, si, classes, axis_name(0), axis_name(k), aria),
                     "");
-      h += "</div><ul class=\"legend\">";
-      for (std::size_t k = 0; k < classes.names.size(); ++k)
-        h += "<li>" + swatch(colour_of(k), Mark::kDot) + " " + esc(classes.names[k]) + " (" +
-             count(classes.counts[k]) + ")</li>";
-      if (si.screened) h += "<li>" + swatch(kInk, Mark::kRing) + " flagged outlier</li>";
-      h += "</ul>";
-      if (classes.names.size() > kClassColourCount)
+        if (marked)
+          h += figure(scatter_svg(sc[0], sc[k], rows, si, marks, axis_name(0), axis_name(k),
+                                  aria + " by " + si.mark_name),
+                      "");
+      }
+      if (marked) {
+        h += "<div>" + legend(classes, si.screened, si.labels.empty() ? "" : si.label_name) +
+             "</div><div>" + legend(marks, si.screened, si.mark_name) +
+             (mark_note.empty() ? "" : "<p class=\"none\">" + esc(mark_note) + "</p>") + "</div>";
+        h += "</div>";
+      } else {
+        h += "</div>" + legend(classes, si.screened, "");
+      }
+      if (classes.names.size() - (classes.has_missing ? 1 : 0) > kClassColourCount)
         h += "<p class=\"none\">Classes past the eighth are drawn grey.</p>";
       if (!d.components.note.empty()) h += "<p class=\"none\">" + esc(d.components.note) + "</p>";
     }
@@ -1106,7 +1157,7 @@ std::string report_html(const ReportData& d) {
 // ---- builders
 // -----------------------------------------------------------------------------------------
 
-namespace {
+namespace internal::html {
 
 const char* criterion_column(Criterion c) {
   switch (c) {
@@ -1155,7 +1206,7 @@ const char* criterion_axis(Criterion c) {
   return "sample variance";
 }
 
-}  // namespace
+}  // namespace internal::html
 
 void add_reduction(ReportData& d, const FeatureTable& t, const Reduction& r, const ReduceOptions& o,
                    bool selection) {
@@ -1177,11 +1228,11 @@ void add_reduction(ReportData& d, const FeatureTable& t, const Reduction& r, con
     miss.dropped.resize(p);
     for (std::size_t j = 0; j < p; ++j)
       miss_dropped += miss.dropped[j] = !r.decisions[j].kept && r.decisions[j].step == "missing";
-    miss.cuts.push_back({o.max_missing, "max missing " + g(o.max_missing)});
+    miss.cuts.push_back({o.drop_missing_above, "drop missing above " + g(o.drop_missing_above)});
     miss.caption = "All " + count(static_cast<std::int64_t>(p)) +
                    " input features. The missing filter drops a feature "
                    "missing in more than " +
-                   percent(o.max_missing, 0) + " of the samples: " + count(miss_dropped) +
+                   percent(o.drop_missing_above, 0) + " of the samples: " + count(miss_dropped) +
                    " dropped.";
   } else {
     miss.caption = "All " + count(static_cast<std::int64_t>(p)) +
@@ -1230,42 +1281,57 @@ void add_reduction(ReportData& d, const FeatureTable& t, const Reduction& r, con
   d.histograms.push_back(std::move(var));
 
   if (!selection) return;
-  // The leading features, as ranking.tsv writes them.
-  d.ranking.criterion = criterion_name(r.criterion);
-  d.ranking.column = criterion_column(r.criterion);
-  d.ranking.q_column = r.supervised ? criterion_q_column(r.criterion) : "";
-  d.ranking.axis = criterion_axis(r.criterion);
-  d.ranking.total = static_cast<std::int64_t>(r.kept.size());
-  if (!o.relevance) {
-    d.ranking_note = "No ranking ran: the kept features are in input order.";
+  // The leading features (as ranking.tsv writes them), the score curve and the p-values.
+  if (r.supervised && o.relevance) {
+    const std::vector<std::size_t> order = rank_order(r.scores, r.criterion);
+    std::vector<std::size_t> kept;
+    kept.reserve(r.kept.size());
+    for (const std::int64_t j : r.kept)
+      kept.push_back(static_cast<std::size_t>(r.score_of[static_cast<std::size_t>(j)]));
+    add_ranking(d, t, r.scores, order, kept, r.criterion, o.fdr, o.keep);
+    d.chosen_with_labels = r.criterion != Criterion::kVariance;
   } else {
-    for (std::size_t k = 0; k < r.kept.size() && k < 30; ++k) {
-      const auto j = static_cast<std::size_t>(r.kept[k]);
-      ReportBar b;
-      b.name = t.feature_names[j];
-      const std::int64_t pos = r.score_of[j];
-      if (r.supervised && pos >= 0) {
-        const auto i = static_cast<std::size_t>(pos);
-        b.value = criterion_score(r.scores, r.criterion, i);
-        if (!d.ranking.q_column.empty()) b.q = criterion_q(r.scores, r.criterion, i);
-      } else {
+    d.ranking.criterion = criterion_name(r.criterion);
+    d.ranking.column = criterion_column(r.criterion);
+    d.ranking.axis = criterion_axis(r.criterion);
+    d.ranking.total = static_cast<std::int64_t>(r.kept.size());
+    if (!o.relevance) {
+      d.ranking_note = "No ranking ran: the kept features are in input order.";
+    } else {
+      for (std::size_t k = 0; k < r.kept.size() && k < 30; ++k) {
+        const auto j = static_cast<std::size_t>(r.kept[k]);
+        ReportBar b;
+        b.name = t.feature_names[j];
         b.value = r.variance[j];
+        b.raw_value = shortest(b.value);
+        d.ranking.bars.push_back(std::move(b));
       }
-      b.raw_value = shortest(b.value);
-      if (!std::isnan(b.q)) b.raw_q = shortest(b.q);
-      d.ranking.bars.push_back(std::move(b));
+      d.ranking.caption = "Ranked by variance (no labels given).";
+      // The curve: every feature that reached the ranking, by variance (ties in input order, as
+      // reduce orders them).
+      std::vector<std::int64_t> ranked;
+      for (std::size_t j = 0; j < p; ++j) {
+        const Decision& dec = r.decisions[j];
+        if (dec.kept || (dec.step != "missing" && dec.step != "variance"))
+          ranked.push_back(static_cast<std::int64_t>(j));
+      }
+      std::stable_sort(ranked.begin(), ranked.end(), [&](std::int64_t a, std::int64_t b) {
+        return r.variance[static_cast<std::size_t>(a)] > r.variance[static_cast<std::size_t>(b)];
+      });
+      std::vector<std::int64_t> rank_of(p, 0);
+      std::vector<double> values;
+      values.reserve(ranked.size());
+      for (std::size_t k = 0; k < ranked.size(); ++k) {
+        rank_of[static_cast<std::size_t>(ranked[k])] = static_cast<std::int64_t>(k + 1);
+        values.push_back(r.variance[static_cast<std::size_t>(ranked[k])]);
+      }
+      std::vector<std::int64_t> kept_ranks;
+      for (const std::int64_t j : r.kept)
+        kept_ranks.push_back(rank_of[static_cast<std::size_t>(j)]);
+      set_score_curve(d.score_curve, std::move(values), {}, std::move(kept_ranks), 1, o.keep);
+      d.score_curve.column = "variance";
+      d.score_curve.axis = criterion_axis(Criterion::kVariance);
     }
-    std::string test;
-    if (r.criterion == Criterion::kMi || r.criterion == Criterion::kChi2)
-      test = "the chi-square test of independence on the same bins";
-    else if (r.criterion == Criterion::kF)
-      test = "the one-way ANOVA F-test";
-    else if (r.criterion == Criterion::kChi2Counts)
-      test = "the counts chi-square test";
-    d.ranking.caption = test.empty() ? "Ranked by variance" +
-                                           std::string(r.supervised ? "." : " (no labels given).")
-                                     : "Right: q-value (Benjamini\xE2\x80\x93Hochberg) of " + test +
-                                           ". Hover a bar for the exact value.";
   }
 
   // Redundancy groups: each kept feature and the dropped features that named it as their twin.
@@ -1307,6 +1373,7 @@ void add_reduction(ReportData& d, const FeatureTable& t, const Reduction& r, con
 void add_components(ReportData& d, const Projection& pr, const std::string& source) {
   d.components = {};
   d.components.source = source;
+  d.components.of_kept = true;
   for (Eigen::Index k = 0; k < pr.ratio.size(); ++k) {
     d.components.ratio.push_back(pr.ratio(k));
     d.components.cumulative.push_back(pr.cumulative(k));

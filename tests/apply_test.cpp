@@ -257,15 +257,17 @@ TEST_CASE("apply: held-out samples get the plan's columns, training fill values 
   const auto rows = read_rows(out + "/reduced.csv", ',');
   std::vector<std::string> header{"sample"};
   header.insert(header.end(), plan.names.begin(), plan.names.end());
-  header.push_back("cls");
-  REQUIRE(rows.at(0) == header);
+  REQUIRE(rows.at(0) == header);  // ids and numbers only: the labels are in samples.tsv
+  const auto samples = read_rows(out + "/samples.tsv", '\t');
+  REQUIRE(samples.at(0) == std::vector<std::string>{"sample", "cls"});
+  REQUIRE(samples.size() == s.test.ids.size() + 1);
   REQUIRE(rows.size() == s.test.ids.size() + 1);
   std::int64_t gaps_checked = 0;
   for (std::size_t i = 0; i < s.test.ids.size(); ++i) {
     const auto& row = rows[i + 1];
     REQUIRE(row.size() == header.size());
     REQUIRE(row.front() == s.test.ids[i]);
-    REQUIRE(row.back() == s.test.labels[i]);
+    REQUIRE(samples[i + 1] == std::vector<std::string>{s.test.ids[i], s.test.labels[i]});
     for (std::size_t k = 0; k < plan.names.size(); ++k) {
       const float raw = s.test.x[i][feature_index(s.test, plan.names[k])];
       const double want = planned_value(plan, k, raw);
@@ -468,7 +470,7 @@ TEST_CASE("reduce: failures leave no output and never touch the input", "[apply]
   for (const std::vector<std::string>& bad : {std::vector<std::string>{"--max-corr", "2"},
                                               {"--rank-by", "nope"},
                                               {"--no-such-option"},
-                                              {"--max-missing", "-0.1"},
+                                              {"--drop-missing-above", "-0.1"},
                                               {"--keep", "many"}}) {
     std::vector<std::string> args{"reduce", s.train_path, "--label", "cls", "--out", out2};
     args.insert(args.end(), bad.begin(), bad.end());
@@ -507,15 +509,13 @@ TEST_CASE("apply: rows=features TSV with a sample sheet replays on its training 
   require_ok(run({"reduce", data, "--layout", "rows=features", "--labels", sheet + ":condition",
                   "--log2", "--scale", "--keep", "4", "--out", fit, "--quiet"}));
   require_ok(run({"apply", fit + "/plan.json", data, "--out", out, "--quiet"}));
-  // The training output has the label line (from the sheet); apply read no labels (a sheet is not
-  // part of the plan), so that line is the only difference.
-  const auto trained = read_rows(fit + "/reduced.csv", '\t');
-  const auto applied = read_rows(out + "/reduced.csv", '\t');
-  REQUIRE(trained.size() == 1 + 1 + 4);
-  REQUIRE(trained.at(1).at(0) == "condition");
-  std::vector<std::vector<std::string>> without_labels = trained;
-  without_labels.erase(without_labels.begin() + 1);
-  REQUIRE(applied == without_labels);
+  // Tab-separated input gives reduced.tsv. The reduced matrix holds ids and numbers only (the
+  // labels from the sheet are in samples.tsv), so the replay on the training file is identical.
+  REQUIRE_FALSE(std::filesystem::exists(fit + "/reduced.csv"));
+  const auto trained = read_rows(fit + "/reduced.tsv", '\t');
+  const auto applied = read_rows(out + "/reduced.tsv", '\t');
+  REQUIRE(trained.size() == 1 + 4);
+  REQUIRE(applied == trained);
   const PlanNumbers plan = read_plan(fit + "/plan.json");
   for (std::size_t k = 0; k < 4; ++k) REQUIRE(applied[k + 1][0] == plan.names[k]);
 }

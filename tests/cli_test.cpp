@@ -113,8 +113,13 @@ TEST_CASE("cli: ragged rows, too few and too many fields", "[cli]") {
 TEST_CASE("cli: a non-numeric cell", "[cli]") {
   TempDir dir;
   const auto path = dir.write("text.csv", "id,a,b\ns1,1,2\ns2,3,abc\n");
+  // Text in a rows=samples column: the message says how to use such a column.
   require_input_error(run({"scan", path, "--out", dir.path()}), path, 3, 6,
-                      "cannot read \"abc\" in column \"b\" as a number");
+                      "column \"b\" holds text (\"abc\" on line 3), not numbers (pass --label b if it holds "
+                      "the classes, or --sample-info b");
+  const auto odd = dir.write("odd.csv", "id,a,b\ns1,1,2\ns2,3,1.2.3\n");
+  require_input_error(run({"scan", odd, "--out", dir.path()}), odd, 3, 6,
+                      "cannot read \"1.2.3\" in column \"b\" as a number");
   const auto path_f = dir.write("text-f.csv", "feature,s1,s2\ng1,1,2\ng2,abc,3\n");
   require_input_error(run({"scan", path_f, "--layout", "rows=features", "--out", dir.path()}),
                       path_f, 3, 4, "cannot read \"abc\" in column \"g2\" as a number");
@@ -166,22 +171,29 @@ TEST_CASE("cli: an unknown --label column or line", "[cli]") {
                       features, 0, 0, "no line starts with \"condition\" for --label");
 }
 
-TEST_CASE("cli: a sample without a label", "[cli]") {
+TEST_CASE("cli: a sample without a label is left out of supervised steps", "[cli]") {
   TempDir dir;
-  // rows=samples: "s2,3," is 5 bytes, so the empty label starts at column 6.
-  const auto samples = dir.write("d.csv", "id,a,group\ns1,1,A\ns2,3,\n");
-  require_input_error(run({"scan", samples, "--label", "group", "--out", dir.path()}), samples, 3,
-                      6, "sample \"s2\" has no label");
-  // rows=features: "group," is 6 bytes, the quoted "a,b" takes 5 more and a comma: NA at 13.
-  const auto features = dir.write("f.csv", "feature,s1,s2\ngroup,\"a,b\",NA\ng1,1,2\n");
-  require_input_error(
-      run({"scan", features, "--layout", "rows=features", "--label", "group", "--out", dir.path()}),
-      features, 2, 13, "sample \"s2\" has no label");
-  // A sample sheet row without a label.
+  // rows=samples, rows=features and a sheet: an empty or NA label is no longer an error. scan
+  // profiles every sample and counts those without a label; rank leaves them out and says so.
+  const auto samples = dir.write("d.csv", "id,a,group\ns1,1,A\ns2,3,\ns3,2,B\ns4,5,A\ns5,4,B\n");
+  const Run scan = run({"scan", samples, "--label", "group", "--out", dir.file("s")});
+  INFO(scan.err);
+  REQUIRE(scan.code == 0);
+  REQUIRE(scan.out.find("A 2, B 2 (majority:minority 1.0:1); 1 without a label") != std::string::npos);
+  const Run rank = run({"rank", samples, "--label", "group", "--out", dir.file("r")});
+  INFO(rank.err);
+  REQUIRE(rank.code == 0);
+  REQUIRE(rank.err.find("pare: warning: 1 sample without a label left out (s2;") != std::string::npos);
+  REQUIRE(rank.out.find("4 of 5 used") != std::string::npos);
+  const auto features = dir.write("f.csv", "feature,s1,s2,s3\ngroup,\"a,b\",NA,c\ng1,1,2,4\n");
+  const Run f = run({"scan", features, "--layout", "rows=features", "--label", "group", "--out", dir.file("f")});
+  REQUIRE(f.code == 0);
+  REQUIRE(f.out.find("1 without a label") != std::string::npos);
+  // Every label missing: nothing to score against.
   const auto data = dir.write("d2.csv", "id,a\ns1,1\ns2,2\n");
-  const auto sheet = dir.write("sheet.csv", "sample,group\ns1,A\ns2,NA\n");
-  require_input_error(run({"scan", data, "--labels", sheet, "--out", dir.path()}), sheet, 3, 1,
-                      "sample \"s2\" has no label in column \"group\"");
+  const auto sheet = dir.write("sheet.csv", "sample,group\ns1,NA\ns2,\n");
+  require_input_error(run({"rank", data, "--labels", sheet, "--out", dir.path(), "--quiet"}), sheet, 0, 0,
+                      "no sample is left with a label");
 }
 
 TEST_CASE("cli: a sample sheet that matches no samples or only some", "[cli]") {

@@ -12,6 +12,7 @@
 #include <limits>    // std::numeric_limits
 #include <random>    // std::mt19937_64
 #include <string>    // std::string
+#include <utility>   // std::pair
 #include <vector>    // std::vector
 
 #include <catch2/catch.hpp>
@@ -414,11 +415,12 @@ TEST_CASE("label column in rows=samples and a label line in rows=features", "[io
   REQUIRE(b.label_name == "group");
   require_same_table(a, b);
 
-  // Without a label option the same line is data, and "wet" is not a number.
+  // Without a label option the same line is data, and "wet" is not a number: a line of text,
+  // which --label names.
   const std::string message =
       error_of([&] { pare::read_table(features, options(Layout::kRowsAreFeatures)); });
-  INFO(message);
-  REQUIRE(message.rfind(features + ":3:7: cannot read \"wet\"", 0) == 0);
+  REQUIRE(message == features + ":3:7: line \"group\" holds text (\"wet\" in column \"s1\"), not numbers "
+                                "(pass --label group if it holds the classes)");
 }
 
 TEST_CASE("sample sheet FILE:COLUMN, attached by id in another order", "[io]") {
@@ -562,7 +564,7 @@ TEST_CASE("files larger than one 4 MiB chunk read bit-identically with 1 and 2 t
     o.threads = threads;
     const std::string message = error_of([&] { pare::read_table(broken_path, o); });
     INFO("threads " << threads << ": " << message);
-    REQUIRE(message.rfind(broken_path + ":" + std::to_string(line) + ":" + col + ": cannot read",
+    REQUIRE(message.rfind(broken_path + ":" + std::to_string(line) + ":" + col + ": column \"f0\" holds text",
                           0) == 0);
   }
 
@@ -597,6 +599,266 @@ TEST_CASE("files larger than one 4 MiB chunk read bit-identically with 1 and 2 t
   two_labels.insert(two_labels.rfind("\nf" + std::to_string(kFeatures - 1) + ",") + 1, label_line);
   two_labels.insert(two_labels.find('\n') + 1, label_line);
   same_error(two_labels, "two-labels.csv", labelled);
+}
+
+TEST_CASE("duplicate feature names are made unique, the same way in both layouts", "[io]") {
+  TempDir dir;
+  // "a" three times and an "a#2" of the file's own: the first "a" keeps its name, the next gets
+  // a#3 (a#2 is taken by the file), the last a#4; "a#2" itself is not a repeat.
+  const auto samples = dir.write("dup.csv",
+                                 "id,a,b,a,a#2,a\n"
+                                 "s1,1,2,3,4,5\n"
+                                 "s2,6,7,8,9,10\n");
+  const auto features = dir.write("dup-f.csv",
+                                  "feature,s1,s2\n"
+                                  "a,1,6\n"
+                                  "b,2,7\n"
+                                  "a,3,8\n"
+                                  "a#2,4,9\n"
+                                  "a,5,10\n");
+  const FeatureTable a = pare::read_table(samples, options());
+  REQUIRE(a.feature_names == Names{"a", "b", "a#3", "a#2", "a#4"});
+  using Renamed = std::vector<std::pair<std::int64_t, std::string>>;
+  REQUIRE(a.renamed == Renamed{{2, "a"}, {4, "a"}});
+  REQUIRE(a.values(1, 4) == 10.0f);
+  ReadOptions by_features = options(Layout::kRowsAreFeatures);
+  const FeatureTable b = pare::read_table(features, by_features);
+  require_same_table(a, b);
+  REQUIRE(b.renamed == a.renamed);
+  // Streamed gzip and two threads: the same names.
+  by_features.threads = 2;
+  const auto gz = gzip_file(dir, "dup-f.csv.gz", {TempDir::read(features)});
+  const FeatureTable c = pare::read_table(gz, by_features);
+  require_same_table(a, c);
+  REQUIRE(c.renamed == a.renamed);
+  // Quoted names and CRLF: the name as written is the unquoted one.
+  const auto quoted = dir.write("dup-q.csv", "id,\"x,y\",\"x,y\"\r\ns1,1,2\r\n");
+  const FeatureTable q = pare::read_table(quoted, options());
+  REQUIRE(q.feature_names == Names{"x,y", "x,y#2"});
+  REQUIRE(q.renamed == Renamed{{1, "x,y"}});
+  // No repeats: nothing renamed.
+  REQUIRE(pare::read_table(dir.write("plain.csv", "id,a,b\ns1,1,2\n"), options()).renamed.empty());
+}
+
+TEST_CASE("a missing label is no label: label column, label line, sample sheet", "[io]") {
+  TempDir dir;
+  // rows=samples: NA and an empty field (both default missing tokens) are read as "".
+  const auto samples = dir.write("s.csv", "id,a,group\ns1,1,A\ns2,2,NA\ns3,3,\ns4,4,B\n");
+  ReadOptions o = options();
+  o.label_column = "group";
+  const FeatureTable a = pare::read_table(samples, o);
+  REQUIRE(a.labels == Names{"A", "", "", "B"});
+  // rows=features: the label line.
+  const auto features = dir.write("f.csv", "feature,s1,s2,s3,s4\ngroup,A,NA,,B\na,1,2,3,4\n");
+  o.layout = Layout::kRowsAreFeatures;
+  const FeatureTable b = pare::read_table(features, o);
+  require_same_table(a, b);
+  // The read's own tokens decide: with --na "-", "-" is no label and "NA" is a class named NA.
+  ReadOptions custom = options();
+  custom.label_column = "group";
+  custom.na_tokens = {"-"};
+  const auto dashes = dir.write("dash.csv", "id,a,group\ns1,1,A\ns2,2,-\ns3,3,NA\n");
+  REQUIRE(pare::read_table(dashes, custom).labels == Names{"A", "", "NA"});
+
+  // A sheet row whose label is a default missing token gives "" for that sample.
+  const auto sheet = dir.write("sheet.csv", "sample,group,batch\ns1,A,b1\ns2,NA,b2\ns3,,NA\n");
+  const pare::SampleSheet s = pare::read_sample_sheet(sheet);
+  REQUIRE(s.labels == Names{"A", "", ""});
+  const auto data = dir.write("d.csv", "id,a\ns3,1\ns1,2\ns2,3\n");
+  FeatureTable t = pare::read_table(data, options());
+  pare::attach_labels(t, s);
+  REQUIRE(t.labels == Names{"", "A", ""});
+  // A sample the sheet does not list is still an error.
+  const auto data4 = dir.write("d4.csv", "id,a\ns1,1\ns2,2\ns4,3\n");
+  FeatureTable t4 = pare::read_table(data4, options());
+  REQUIRE(error_of([&] { pare::attach_labels(t4, s); }) ==
+          sheet + ": 1 of 3 samples of " + data4 +
+              " are not in the sample sheet: \"s4\" (add them to the sheet or remove them from the data)");
+}
+
+TEST_CASE("a sample sheet keeps every column; sheet_column_values", "[io]") {
+  TempDir dir;
+  const auto sheet = dir.write("sheet.tsv",
+                               "sample\tgroup\tbatch\r\n"
+                               "s1\tA\tb1\r\n"
+                               "\r\n"
+                               "s2\tB\t\"b,2\"\r\n"
+                               "s3\tA\tNA\r\n");
+  const pare::SampleSheet s = pare::read_sample_sheet(sheet);
+  REQUIRE(s.header == Names{"sample", "group", "batch"});
+  REQUIRE(s.cells == std::vector<Names>{{"s1", "A", "b1"}, {"s2", "B", "b,2"}, {"s3", "A", "NA"}});
+  // Per sample id, in the order asked; "" for a missing token and for an id the sheet lacks.
+  REQUIRE(pare::sheet_column_values(s, "batch", {"s3", "s1", "x9", "s2"}) == Names{"", "b1", "", "b,2"});
+  REQUIRE(pare::sheet_column_values(s, "group", {"s2", "s1"}) == Names{"B", "A"});
+  REQUIRE(pare::sheet_column_values(s, "sample", {"s2", "x9"}) == Names{"s2", ""});
+  REQUIRE(error_of([&] { pare::sheet_column_values(s, "site", {"s1"}); }) ==
+          sheet + ":1: the sample sheet has no column named \"site\" (the header has: \"sample\", \"group\", \"batch\")");
+  // A value that is not UTF-8 text is refused where it is used, at its line.
+  const auto latin1 = dir.write("latin1.csv", "sample,group,site\ns1,A,ok\ns2,B,K\xF6ln\n");
+  const pare::SampleSheet l = pare::read_sample_sheet(latin1);
+  REQUIRE(pare::sheet_column_values(l, "group", {"s1", "s2"}) == Names{"A", "B"});
+  const std::string message = error_of([&] { pare::sheet_column_values(l, "site", {"s1", "s2"}); });
+  REQUIRE(message.rfind(latin1 + ":3:1: value \"K", 0) == 0);
+  REQUIRE_THAT(message, Catch::Matchers::Contains("in column \"site\" is not valid UTF-8"));
+}
+
+TEST_CASE("a text cell names its column and the option that takes it", "[io]") {
+  TempDir dir;
+  // rows=samples: "s1,1," is 5 bytes, so the text starts at column 6.
+  const auto samples = dir.write("text.csv", "id,a,batch\ns1,1,plate1\ns2,2,plate2\n");
+  REQUIRE(error_of([&] { pare::read_table(samples, options()); }) ==
+          samples + ":2:6: column \"batch\" holds text (\"plate1\" on line 2), not numbers (pass --label batch if "
+                    "it holds the classes, or --sample-info batch to carry it into samples.tsv)");
+  // rows=features: a text column of the header is an annotation column.
+  const auto features = dir.write("text-f.csv", "feature,s1,symbol,s2\ng1,1,TP53,2\ng2,3,MYC,4\n");
+  REQUIRE(error_of([&] { pare::read_table(features, options(Layout::kRowsAreFeatures)); }) ==
+          features + ":2:6: column \"symbol\" holds text (\"TP53\" on line 2), not numbers (pass --feature-info "
+                     "symbol if it describes the features, e.g. gene symbols or chromosomes)");
+  // Text further down a column of numbers is a stray cell, not a text column: the old message.
+  const auto stray = dir.write("stray-f.csv", "feature,s1,s2\ng1,1,2\ng2,abc,3\n");
+  REQUIRE(error_of([&] { pare::read_table(stray, options(Layout::kRowsAreFeatures)); }) ==
+          stray + ":3:4: cannot read \"abc\" in column \"g2\" as a number (missing values must be one of: an empty "
+                  "field, ?, NA, NaN, nan, null; --na sets the list)");
+  // A number-shaped bad cell, or a gap spelled in a way --na does not list, keeps the old message.
+  const std::string hint = " as a number (missing values must be one of: an empty field, ?, NA, NaN, nan, null; "
+                           "--na sets the list)";
+  const auto number = dir.write("number.csv", "id,a\ns1,1.2.3\n");
+  REQUIRE(error_of([&] { pare::read_table(number, options()); }) ==
+          number + ":2:4: cannot read \"1.2.3\" in column \"a\"" + hint);
+  const auto gap = dir.write("gap.csv", "id,a\ns1,N/A\n");
+  REQUIRE(error_of([&] { pare::read_table(gap, options()); }) == gap + ":2:4: cannot read \"N/A\" in column \"a\"" + hint);
+  const auto none = dir.write("none.csv", "id,a\ns1,-none\n");
+  REQUIRE(error_of([&] { pare::read_table(none, options()); }) ==
+          none + ":2:4: cannot read \"-none\" in column \"a\"" + hint);
+  ReadOptions custom = options();
+  custom.na_tokens = {"-999"};
+  const auto na = dir.write("na.csv", "id,a\ns1,NA\n");
+  REQUIRE(error_of([&] { pare::read_table(na, custom); }) ==
+          na + ":2:4: cannot read \"NA\" in column \"a\" as a number (missing values must be one of: -999; --na "
+               "sets the list)");
+}
+
+TEST_CASE("--feature-info and --sample-info: text columns in either layout", "[io]") {
+  TempDir dir;
+  // rows=features, CRLF, quoted names with the delimiter; the annotation columns sit anywhere
+  // after the id, the label line has fields under them (ignored).
+  const std::string by_features =
+      "feature,\"gene, symbol\",s1,s2,chrom\r\n"
+      "g1,\"TP53, mutant\",1,2,chr17\r\n"
+      "group,x,A,NA,y\r\n"
+      "g2,MYC,3,4,chr8\r\n";
+  ReadOptions o = options(Layout::kRowsAreFeatures);
+  o.label_column = "group";
+  o.feature_info = {"chrom", "gene, symbol"};
+  const auto path = dir.write("info-f.csv", by_features);
+  const FeatureTable f = pare::read_table(path, o);
+  REQUIRE(f.sample_ids == Names{"s1", "s2"});
+  REQUIRE(f.feature_names == Names{"g1", "g2"});
+  REQUIRE(f.labels == Names{"A", ""});
+  REQUIRE(f.feature_info_names == Names{"chrom", "gene, symbol"});
+  REQUIRE(f.feature_info == std::vector<Names>{{"chr17", "chr8"}, {"TP53, mutant", "MYC"}});
+  REQUIRE(f.values(0, 0) == 1.0f);
+  REQUIRE(f.values(1, 0) == 2.0f);
+  REQUIRE(f.values(0, 1) == 3.0f);
+  REQUIRE(f.values(1, 1) == 4.0f);
+  REQUIRE(f.sample_info.empty());
+  // The same as a streamed gzip file with two threads, and on disk (--memory).
+  ReadOptions two = o;
+  two.threads = 2;
+  const FeatureTable g = pare::read_table(gzip_file(dir, "info-f.csv.gz", {by_features}), two);
+  require_same_table(f, g);
+  REQUIRE(g.feature_info == f.feature_info);
+  ReadOptions disk = o;
+  disk.memory.bytes = 4;
+  disk.memory.cache_dir = dir.path();
+  const FeatureTable h = pare::read_table(path, disk);
+  REQUIRE(h.values.on_disk());
+  require_same_table(f, h);
+  REQUIRE(h.feature_info == f.feature_info);
+
+  // rows=samples: text columns per sample, in the order given.
+  const std::string by_samples =
+      "sample,batch,g1,group,g2,site\r\n"
+      "s1,\"p,1\",1,A,3,x\r\n"
+      "s2,p2,2,NA,4,\r\n";
+  ReadOptions s = options();
+  s.label_column = "group";
+  s.sample_info = {"site", "batch"};
+  const FeatureTable a = pare::read_table(dir.write("info-s.csv", by_samples), s);
+  require_same_table(f, a);
+  REQUIRE(a.sample_info_names == Names{"site", "batch"});
+  REQUIRE(a.sample_info == std::vector<Names>{{"x", ""}, {"p,1", "p2"}});
+  REQUIRE(a.feature_info.empty());
+  s.threads = 2;
+  const FeatureTable b = pare::read_table(gzip_file(dir, "info-s.csv.gz", {by_samples}), s);
+  require_same_table(a, b);
+  REQUIRE(b.sample_info == a.sample_info);
+
+  // A text cell that is not UTF-8 is refused at its place: "g1," is 3 bytes.
+  const auto latin1 = dir.write("latin1.csv", "feature,symbol,s1\ng1,K\xF6ln,1\n");
+  ReadOptions l = options(Layout::kRowsAreFeatures);
+  l.feature_info = {"symbol"};
+  const std::string message = error_of([&] { pare::read_table(latin1, l); });
+  REQUIRE(message.rfind(latin1 + ":2:4: value \"K", 0) == 0);
+  REQUIRE_THAT(message, Catch::Matchers::Contains("in column \"symbol\" is not valid UTF-8"));
+  // Only text columns: no samples left.
+  const auto only = dir.write("only.csv", "feature,symbol\ng1,TP53\n");
+  REQUIRE(error_of([&] { pare::read_table(only, l); }) ==
+          only + ":1: the header names no sample columns (with --layout rows=features the header lists the "
+                 "sample ids)");
+}
+
+TEST_CASE("--feature-info and --sample-info: each mistake gets its own message", "[io]") {
+  TempDir dir;
+  // Checked before the file is opened: usage errors, even for a file that does not exist.
+  const std::string absent = dir.file("absent.csv");
+  ReadOptions wrong_layout = options();
+  wrong_layout.feature_info = {"symbol"};
+  REQUIRE(error_of([&] { pare::read_table(absent, wrong_layout); }, pare::ErrorKind::kUsage) ==
+          "--feature-info is for --layout rows=features (a feature per line) (with rows=samples, text columns "
+          "describing the samples are --sample-info COLUMNS)");
+  ReadOptions wrong_layout_f = options(Layout::kRowsAreFeatures);
+  wrong_layout_f.sample_info = {"batch"};
+  REQUIRE(error_of([&] { pare::read_table(absent, wrong_layout_f); }, pare::ErrorKind::kUsage) ==
+          "--sample-info is for --layout rows=samples (a sample per line) (with rows=features, text columns "
+          "describing the features are --feature-info COLUMNS)");
+  ReadOptions twice = options(Layout::kRowsAreFeatures);
+  twice.feature_info = {"symbol", "chrom", "symbol"};
+  REQUIRE(error_of([&] { pare::read_table(absent, twice); }, pare::ErrorKind::kUsage) ==
+          "--feature-info names \"symbol\" twice (give each column once)");
+  ReadOptions label = options();
+  label.label_column = "group";
+  label.sample_info = {"batch", "group"};
+  REQUIRE(error_of([&] { pare::read_table(absent, label); }, pare::ErrorKind::kUsage) ==
+          "--sample-info names \"group\", the --label column (the labels are carried already; leave it out of "
+          "--sample-info)");
+  ReadOptions empty = options();
+  empty.sample_info = {"batch", ""};
+  REQUIRE(error_of([&] { pare::read_table(absent, empty); }, pare::ErrorKind::kUsage) ==
+          "--sample-info has an empty column name (give comma-separated header names)");
+
+  // Against the header: input errors.
+  const auto features = dir.write("f.csv", "feature,symbol,s1,s2\ng1,TP53,1,2\n");
+  ReadOptions unknown = options(Layout::kRowsAreFeatures);
+  unknown.feature_info = {"symbol", "chrom"};
+  REQUIRE(error_of([&] { pare::read_table(features, unknown); }) ==
+          features + ":1: no column named \"chrom\" for --feature-info (the header has: \"feature\", \"symbol\", "
+                     "\"s1\", \"s2\")");
+  ReadOptions id = options(Layout::kRowsAreFeatures);
+  id.feature_info = {"feature"};
+  REQUIRE(error_of([&] { pare::read_table(features, id); }) ==
+          features + ":1:1: --feature-info names \"feature\", the id column (the first column holds the ids; name "
+                     "only text columns after it)");
+  const auto samples = dir.write("s.csv", "sample,a,batch\ns1,1,p1\n");
+  ReadOptions unknown_s = options();
+  unknown_s.sample_info = {"site"};
+  REQUIRE(error_of([&] { pare::read_table(samples, unknown_s); }) ==
+          samples + ":1: no column named \"site\" for --sample-info (the header has: \"sample\", \"a\", \"batch\")");
+  ReadOptions id_s = options();
+  id_s.sample_info = {"sample"};
+  REQUIRE(error_of([&] { pare::read_table(samples, id_s); }) ==
+          samples + ":1:1: --sample-info names \"sample\", the id column (the first column holds the ids; name "
+                    "only text columns after it)");
 }
 
 TEST_CASE("encode_classes sorts classes by name and counts them", "[io]") {

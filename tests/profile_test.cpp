@@ -175,3 +175,24 @@ TEST_CASE("profile_tsv: header, 1-based index, NA for undefined statistics", "[p
   REQUIRE(pare::profile_tsv(t, pare::profile_table(t, one)) ==
           pare::profile_tsv(t, pare::profile_table(t, two)));
 }
+
+TEST_CASE("profile_table flags names the reader made unique, the first and the renamed", "[profile]") {
+  // As read_table leaves a file whose header is "id,dup,x,dup,dup,dup#2": the repeats renamed
+  // (dup#3, dup#4: dup#2 is the file's own name) and listed in `renamed` (tests/io_test.cpp).
+  pare::FeatureTable t;
+  t.feature_names = {"dup", "x", "dup#3", "dup#4", "dup#2"};
+  t.renamed = {{2, "dup"}, {3, "dup"}};
+  t.sample_ids = {"s1", "s2"};
+  t.values.resize(2, 5);
+  t.values << 1, 2, 3, 4, 5, 6, 7, 8, 9, 10;
+  const pare::Profile p = pare::profile_table(t);
+  const std::vector<std::uint8_t> expected = {pare::kFlagDuplicateName, 0, pare::kFlagDuplicateName,
+                                              pare::kFlagDuplicateName, 0};
+  REQUIRE(p.flags == expected);
+  REQUIRE(p.n_duplicate_name == 3);
+  // profile.tsv names them as every other output does.
+  const auto lines = lines_of(pare::profile_tsv(t, p));
+  REQUIRE(lines[3].rfind("dup#3\t3\t", 0) == 0);
+  REQUIRE(split(lines[3], '\t')[10] == "duplicate_name");
+  REQUIRE(split(lines[5], '\t')[10].empty());
+}

@@ -7,16 +7,19 @@
 #include <numeric>    // std::iota
 #include <cmath>      // std::exp, std::erfc, std::log, std::sqrt, std::isnan, std::isinf
 #include <cstdint>    // std::int64_t, std::uint8_t
+#include <cstdlib>    // std::getenv
 #include <cstring>    // std::memcmp
 #include <limits>     // std::numeric_limits
 #include <random>     // std::mt19937_64, distributions
-#include <string>     // std::string
+#include <sstream>    // std::istringstream
+#include <string>     // std::string, std::stod
 #include <utility>    // std::pair
 #include <vector>     // std::vector
 
 #include <catch2/catch.hpp>
 
 #include "pare/error.h"
+#include "pare/io.h"
 #include "pare/matrix.h"
 
 namespace {
@@ -341,6 +344,87 @@ TEST_CASE("knn_mutual_information on the CHECKS 5 example", "[ranking][knn]") {
   CHECK(std::abs(pare::knn_mutual_information(x_plus, y_plus, 4, 3) - expected[2]) <= 1e-9);
 }
 
+TEST_CASE("knn_mutual_information counts tied values and tied distances (Gao et al. 2017)",
+          "[ranking][knn]") {
+  // The estimator of numerics.md: ball B_i = {|x - x_i| < rho_i} (rho_i > 0) or {x_i} (rho_i =
+  // 0), k_i and m_i the points of class(i) and of any class in B_i, x_i included, and
+  // MI = psi(N) + <psi(k_i)> - <psi(N_c)> - <psi(m_i)>. psi(n) = H(n - 1) - gamma (H the harmonic
+  // numbers), and the gammas cancel (+1 +1 -1 -1), so the values below are exact fractions.
+  //
+  // (a) All-discrete (Gao et al.'s rho = 0 case), k = 3. Class a: 0 0 0 0 1 1 1 1, class b:
+  // 1 1 1 1 2 2 2 2. Every (value, class) group has 4 = k + 1 points, so rho_i = 0 everywhere,
+  // k_i = 4, N_c = 8, and m_i = 4 for the values 0 and 2, 8 for the value 1. By hand:
+  //   MI = psi(16) + psi(4) - psi(8) - (8 psi(4) + 8 psi(8)) / 16
+  //      = H15 + H3 / 2 - 3 H7 / 2 = 1195757/360360 + 11/12 - 1089/280 = 2224/6435 = 0.3456099...
+  // next to the plug-in MI of the table, (1/2) ln 2 = 0.3465736. Ross's counting (k_i = 3)
+  // gives H15 + H2 - H7 - H3 / 2 - H7 / 2 = 0.0122766: ties pull it towards 0.
+  {
+    const std::vector<double> x = {0, 0, 0, 0, 1, 1, 1, 1, 1, 1, 1, 1, 2, 2, 2, 2};
+    const std::vector<int> y = {0, 0, 0, 0, 0, 0, 0, 0, 1, 1, 1, 1, 1, 1, 1, 1};
+    const double got = pare::knn_mutual_information(x, y, 2, 3);
+    INFO("discrete case: " << got);
+    CHECK(std::abs(got - 2224.0 / 6435.0) <= 1e-14);
+    // row order does not matter
+    std::vector<double> x_rev(x.rbegin(), x.rend());
+    std::vector<int> y_rev(y.rbegin(), y.rend());
+    CHECK(std::abs(pare::knn_mutual_information(x_rev, y_rev, 2, 3) - 2224.0 / 6435.0) <= 1e-14);
+  }
+  // (b) Tied distances (values on a grid), k = 2. Class a: 0 2 4, class b: 10 12 14. The point 2
+  // has both same-class neighbours at exactly 2: rho = 2, and only x_i itself is strictly inside,
+  // so k_i = 1 and m_i = 1. The points 0 and 4 (and 10, 14) have rho = 4 with k_i = m_i = 2. The
+  // classes do not overlap, so k_i = m_i everywhere and MI = psi(6) - psi(3) = H5 - H2 = 47/60,
+  // the value of any tie-free data with two separated classes of 3. Ross's counting (k_i = 2
+  // for the middle points too) gives psi(6) + psi(2) - psi(3) - (4 psi(2) + 2 psi(1)) / 6 =
+  // 67/60 = 1.117, more than H(class) = ln 2.
+  {
+    const std::vector<double> x = {0, 2, 4, 10, 12, 14};
+    const std::vector<int> y = {0, 0, 0, 1, 1, 1};
+    const double got = pare::knn_mutual_information(x, y, 2, 2);
+    INFO("grid case: " << got);
+    CHECK(std::abs(got - 47.0 / 60.0) <= 1e-14);
+    // the same configuration without ties (middle points moved off the grid) gives the same
+    std::vector<double> jittered = {0, 2.5, 4, 10, 11.5, 14};
+    CHECK(std::abs(pare::knn_mutual_information(jittered, y, 2, 2) - 47.0 / 60.0) <= 1e-14);
+  }
+}
+
+TEST_CASE("kNN MI: a tie-heavy feature unrelated to the class scores below an informative one",
+          "[ranking][knn]") {
+  // 240 samples, classes alternating a b a b. Column 0: integers (50 i) mod 61, so every value
+  // 0..60 is held by about four samples, two of each class: no information about the class, but
+  // ties at distance 0 and 1 everywhere. Column 1: N(0, 1) + 1.0 for class b (seeded), continuous;
+  // its MI is about 0.1 nats (numerical integration of the two Gaussians, here and in
+  // numerics.md). Ross's counting scored column 0 at 0.379 (a direct numpy implementation, the
+  // neighbours tied at rho_i counted in k but not in m) - above column 1. The tie rule gives 0
+  // (the estimate is negative and clipped; numpy implementation of the same formula).
+  const Eigen::Index n = 240;
+  Matrix m(n, 2);
+  std::vector<std::string> labels;
+  std::mt19937_64 rng(2017);
+  std::normal_distribution<double> normal(0.0, 1.0);
+  for (Eigen::Index i = 0; i < n; ++i) {
+    labels.push_back(i % 2 == 0 ? "a" : "b");
+    m(i, 0) = static_cast<float>((50 * i) % 61);
+    m(i, 1) = static_cast<float>(normal(rng) + (i % 2 == 0 ? 0.0 : 1.0));
+  }
+  pare::ScoreOptions options;
+  options.mi = pare::MiEstimator::kKnn;
+  options.threads = 1;
+  const FeatureScores s = pare::score_features(m, all_columns(m), classes_of(labels), options);
+  INFO("tie-heavy " << s.mi[0] << ", informative " << s.mi[1]);
+  CHECK(s.mi[0] == 0.0);
+  CHECK(s.mi[1] > 0.03);
+  CHECK(pare::rank_order(s, pare::Criterion::kMi) == std::vector<std::size_t>{1, 0});
+  // The same column through knn_mutual_information (the values and codes directly).
+  std::vector<double> x0(static_cast<std::size_t>(n));
+  std::vector<int> y(static_cast<std::size_t>(n));
+  for (Eigen::Index i = 0; i < n; ++i) {
+    x0[static_cast<std::size_t>(i)] = m(i, 0);
+    y[static_cast<std::size_t>(i)] = static_cast<int>(i % 2);
+  }
+  CHECK(pare::knn_mutual_information(x0, y, 2, 3) == 0.0);
+}
+
 // ---- CHECKS.md §6: counts chi-square ------------------------------------------------------
 
 TEST_CASE("score_features counts chi-square on sklearn's test_chi2 example", "[ranking][counts]") {
@@ -364,12 +448,17 @@ TEST_CASE("score_features counts chi-square on sklearn's test_chi2 example", "[r
   CHECK(rel_diff(s.counts_p[0], 0.0268458) <= 2e-6);
   CHECK(s.counts_p[1] == 1.0);
   CHECK(rel_diff(s.counts_p[2], 0.8071178) <= 1e-6);
-  // Two classes have one sample each, so the per-sample scores are degenerate and flagged
-  // (few_values); the constant column is flagged constant.
-  CHECK((s.flags[0] & pare::kScoreFewValues) != 0);
+  // Two classes have one sample each. Classes of any size are scored (SPEC §9; this test once
+  // expected F 0 and few_values here): 4 observed values > 3 classes, so F is defined. By hand:
+  // class means 2, 9, 3 about the mean 17/4: between = 2.25^2 + 4.75^2 + 2 * 1.25^2 = 30.75,
+  // within = 3^2 + 3^2 = 18, F = (30.75 / 2) / (18 / 1) = 0.8541667; scipy.stats.f_oneway([2],
+  // [9], [6, 0]) (Debian's scipy 1.10.1) = 0.8541666666666666, p 0.6076436202502001 (1e-12:
+  // both evaluate the same incomplete beta to near full precision). The constant column is
+  // flagged constant.
+  CHECK(s.flags[0] == 0);
   CHECK((s.flags[1] & pare::kScoreConstant) != 0);
-  CHECK(s.f[0] == 0.0);
-  CHECK(s.f_p[0] == 1.0);
+  CHECK(rel_diff(s.f[0], 30.75 / 2 / 18) <= 1e-14);
+  CHECK(rel_diff(s.f_p[0], 0.6076436202502001) <= 1e-12);
   // BH over the three counts p-values, checked against the step-up definition by hand.
   const double p0 = s.counts_p[0], p2 = s.counts_p[2];
   CHECK(rel_diff(s.counts_q[0], p0 * 3) <= 1e-15);
@@ -502,9 +591,9 @@ TEST_CASE("score_features with bins >= n equals bins = n, without a huge table",
 TEST_CASE("score_features flags degenerate features and never returns NaN",
           "[ranking][degenerate]") {
   // 12 samples, 3 classes of 4. Columns:
-  //  0 informative; 1 constant; 2 all missing; 3 class "b" has one observed value;
-  //  4 constant within every class but not overall (F infinite); 5 informative with gaps;
-  //  6 a single observed value.
+  //  0 informative; 1 constant; 2 all missing; 3 class "b" has one observed value (scored: SPEC
+  //  §9, classes of any size); 4 constant within every class but not overall (F infinite);
+  //  5 informative with gaps; 6 a single observed value.
   const std::vector<std::string> labels = {"a", "a", "a", "a", "b", "b",
                                            "b", "b", "c", "c", "c", "c"};
   const ClassCodes classes = classes_of(labels);
@@ -540,7 +629,7 @@ TEST_CASE("score_features flags degenerate features and never returns NaN",
     CHECK(s.f_p[0] < 1e-3);
     // Constant column (header: scores 0, p-values 1, flag constant).
     CHECK(s.flags[1] == pare::kScoreConstant);
-    for (std::size_t j : {std::size_t{1}, std::size_t{2}, std::size_t{3}, std::size_t{6}}) {
+    for (std::size_t j : {std::size_t{1}, std::size_t{2}, std::size_t{6}}) {
       INFO("degenerate column " << j);
       CHECK(s.mi[j] == 0.0);
       CHECK(s.chi2[j] == 0.0);
@@ -557,9 +646,23 @@ TEST_CASE("score_features flags degenerate features and never returns NaN",
     CHECK(s.variance[2] == 0.0);
     CHECK(s.counts[2] == 0.0);
     CHECK(s.counts_p[2] == 1.0);
-    // One observed value in class b.
-    CHECK(s.flags[3] == pare::kScoreFewValues);
+    // One observed value in class b: 0 1 2 3 | 4 | 8 9 10 11. This test once expected every
+    // score 0 and few_values here; classes of any size are scored now (SPEC §9). F by hand: class
+    // means 1.5, 4, 9.5 about 48/9; between = 4 (1.5 - 48/9)^2 + (4 - 48/9)^2 + 4 (9.5 - 48/9)^2
+    // = 130, within = 5 + 0 + 5 = 10, F = (130 / 2) / (10 / 6) = 39; scipy.stats.f_oneway([0, 1,
+    // 2, 3], [4], [8, 9, 10, 11]) = 39.0, p 0.0003644314868804664. Each of the 9 values has its
+    // own bin (10 bins), so the 9 x 3 table's chi-square is 9 * (3 - 1) = 18 with df 16 (scipy
+    // chi2_contingency: 17.999999999999996, p 0.32389696431289655) and MI = H(class) =
+    // (4/9) ln(9/4) * 2 + (1/9) ln 9 = 0.96496292300742759 (sklearn mutual_info_score).
+    CHECK(s.flags[3] == 0);
     CHECK(s.missing_rate[3] == Approx(3.0 / 12.0).epsilon(1e-15));
+    CHECK(rel_diff(s.f[3], 39.0) <= 1e-14);
+    CHECK(rel_diff(s.f_p[3], 0.0003644314868804664) <= 1e-12);
+    CHECK(rel_diff(s.chi2[3], 18.0) <= 1e-14);
+    CHECK(s.chi2_df[3] == 16);
+    CHECK(rel_diff(s.chi2_p[3], 0.32389696431289655) <= 1e-12);
+    if (estimator == pare::MiEstimator::kBinned)
+      CHECK(rel_diff(s.mi[3], 2 * (4.0 / 9) * std::log(9.0 / 4) + std::log(9.0) / 9) <= 1e-14);
     // Separates the classes exactly: F infinite with p 0, flagged; the chi-square is still
     // computed.
     CHECK(s.flags[4] == pare::kScoreSeparates);
@@ -580,6 +683,201 @@ TEST_CASE("score_features flags degenerate features and never returns NaN",
   options.bins = 10;
   options.neighbors = 0;
   CHECK_THROWS_AS(pare::score_features(m, all_columns(m), classes, options), pare::Error);
+}
+
+// ---- classes of any size (SPEC §9) ----------------------------------------------------------
+
+namespace {
+
+// A Debian python3-sklearn dataset (CHECKS.md §10) as float32 columns and class labels: `header`
+// lines skipped, then comma-separated values with the class last; gzip is inflated. Returns
+// false when the file is missing outside CI (a failure under CI=true; scripts/install-deps.sh
+// installs python3-sklearn).
+bool read_sklearn_data(const std::string& name, int header, Matrix& x,
+                       std::vector<std::string>& labels) {
+  const std::string path = "/usr/lib/python3/dist-packages/sklearn/datasets/data/" + name;
+  std::string text;
+  try {
+    text = pare::read_file_text(path);
+  } catch (const std::exception&) {
+    const char* ci = std::getenv("CI");
+    INFO("dataset file " << path << " is missing; CI=true makes that a failure");
+    REQUIRE_FALSE((ci != nullptr && std::string(ci) == "true"));
+    WARN("skipped: " << path << " not found (install python3-sklearn)");
+    return false;
+  }
+  std::vector<std::vector<float>> rows;
+  std::istringstream in(text);
+  std::string line;
+  for (int i = 0; i < header; ++i) std::getline(in, line);
+  while (std::getline(in, line)) {
+    if (line.empty()) continue;
+    const std::vector<std::string> fields = pare::split_fields(line, ',');
+    std::vector<float> row;
+    // std::stod then float, as numpy's float32(float(text)) in the reference computation
+    for (std::size_t j = 0; j + 1 < fields.size(); ++j)
+      row.push_back(static_cast<float>(std::stod(fields[j])));
+    rows.push_back(std::move(row));
+    labels.push_back(std::to_string(static_cast<int>(std::stod(fields.back()))));
+  }
+  x.resize(static_cast<Eigen::Index>(rows.size()), static_cast<Eigen::Index>(rows.front().size()));
+  for (std::size_t i = 0; i < rows.size(); ++i)
+    for (std::size_t j = 0; j < rows[i].size(); ++j)
+      x(static_cast<Eigen::Index>(i), static_cast<Eigen::Index>(j)) = rows[i][j];
+  return true;
+}
+
+}  // namespace
+
+TEST_CASE("score_features scores classes of one sample (wine, digits) as scipy does",
+          "[ranking][classes]") {
+  // SPEC §9: classes of any size are scored. Once, one class with a single sample made every
+  // feature few_values with all scores 0 (so the ranking was the file order).
+  // Reference values computed for this test with Debian's scipy 1.10.1 / sklearn 1.2.1 on the
+  // same float32 values: mi = sklearn.metrics.mutual_info_score on the SPEC §4 bins (10),
+  // chi2/p/df = scipy.stats.chi2_contingency(correction=False) on the bin x class table,
+  // f/p = scipy.stats.f_oneway over the classes. Tolerance 1e-10 relative: the same formulas in
+  // double, differing only in summation order and in the incomplete gamma/beta evaluations.
+  struct Expected {
+    int column;
+    double mi, chi2, chi2_p;
+    int df;
+    double f, f_p;
+  };
+  auto check = [](const FeatureScores& s, const Expected& e) {
+    const auto j = static_cast<std::size_t>(e.column);
+    INFO("column " << e.column << ": mi " << s.mi[j] << " chi2 " << s.chi2[j] << " p "
+                   << s.chi2_p[j] << " df " << s.chi2_df[j] << " f " << s.f[j] << " p " << s.f_p[j]
+                   << " flags " << static_cast<int>(s.flags[j]));
+    CHECK(s.flags[j] == 0);
+    CHECK(rel_diff(s.mi[j], e.mi) <= 1e-10);
+    CHECK(rel_diff(s.chi2[j], e.chi2) <= 1e-10);
+    CHECK(rel_diff(s.chi2_p[j], e.chi2_p) <= 1e-10);
+    CHECK(s.chi2_df[j] == e.df);
+    CHECK(rel_diff(s.f[j], e.f) <= 1e-10);
+    CHECK(rel_diff(s.f_p[j], e.f_p) <= 1e-10);
+    for (auto c : {pare::Criterion::kMi, pare::Criterion::kChi2, pare::Criterion::kF})
+      CHECK(pare::criterion_defined(s, c, j));
+  };
+  pare::ScoreOptions options;
+  options.threads = 2;
+
+  SECTION("wine, sample 1 relabelled as a fourth class of its own (58/71/48/1)") {
+    Matrix x;
+    std::vector<std::string> labels;
+    if (!read_sklearn_data("wine_data.csv", 1, x, labels)) return;
+    REQUIRE(x.rows() == 178);
+    REQUIRE(x.cols() == 13);
+    labels[0] = "solo";
+    const ClassCodes classes = classes_of(labels);
+    REQUIRE(classes.classes.size() == 4);
+    const FeatureScores s = pare::score_features(x, all_columns(x), classes, options);
+    // columns 0 (alcohol), 6 (flavanoids), 12 (proline)
+    check(s, {0, 0.48263153623208133, 150.11383866782853, 4.900324505044674e-19, 27,
+              90.31183269005858, 2.7789507241514562e-35});
+    check(s, {6, 0.67592553870016303, 221.51195636517147, 1.8715630807692252e-32, 27,
+              155.08660975290533, 6.1639350319820882e-49});
+    check(s, {12, 0.59722252520483565, 184.35059557447289, 2.2687420815645931e-25, 27,
+              137.92009100650714, 9.0417507912934567e-46});
+    for (std::size_t j = 0; j < s.size(); ++j) CHECK(s.flags[j] == 0);
+  }
+  SECTION("digits, first 300 rows with every 9 but the first left out: 10 classes, one of 1") {
+    Matrix all;
+    std::vector<std::string> all_labels;
+    if (!read_sklearn_data("digits.csv.gz", 0, all, all_labels)) return;
+    REQUIRE(all.rows() == 1797);
+    std::vector<Eigen::Index> rows;
+    bool nine_seen = false;
+    for (Eigen::Index i = 0; i < 300; ++i) {
+      if (all_labels[static_cast<std::size_t>(i)] == "9") {
+        if (nine_seen) continue;
+        nine_seen = true;
+      }
+      rows.push_back(i);
+    }
+    REQUIRE(rows.size() == 270);  // numpy: class counts 31 30 29 29 29 32 29 29 31 1
+    Matrix x(static_cast<Eigen::Index>(rows.size()), all.cols());
+    std::vector<std::string> labels;
+    for (std::size_t r = 0; r < rows.size(); ++r) {
+      x.row(static_cast<Eigen::Index>(r)) = all.row(rows[r]);
+      labels.push_back(all_labels[static_cast<std::size_t>(rows[r])]);
+    }
+    const ClassCodes classes = classes_of(labels);
+    REQUIRE(classes.classes.size() == 10);
+    const FeatureScores s = pare::score_features(x, all_columns(x), classes, options);
+    check(s, {20, 0.48428740558428418, 238.61244715701224, 4.7761537706725184e-25, 54,
+              32.005452965070681, 1.9588306530500564e-37});
+    check(s, {33, 0.39108425267647084, 189.00852297753389, 1.4549595086886926e-19, 45,
+              31.664831113798197, 3.9908730120790338e-37});
+    check(s, {42, 0.59051315087076794, 282.30650774027265, 1.179903276086952e-32, 54,
+              55.265206785541501, 2.2978747143825961e-55});
+    // pixel 0 is 0 in every image: constant, nothing defined but the variance
+    CHECK(s.flags[0] == pare::kScoreConstant);
+    for (auto c : {pare::Criterion::kMi, pare::Criterion::kChi2, pare::Criterion::kF})
+      CHECK_FALSE(pare::criterion_defined(s, c, 0));
+    CHECK(pare::criterion_defined(s, pare::Criterion::kVariance, 0));
+  }
+}
+
+TEST_CASE("F needs more observed values than observed classes; MI and chi-square do not",
+          "[ranking][classes]") {
+  // Columns over 6 samples, classes a a b b c c:
+  //  0: one value per class observed (1, -, 5, -, 9, -): n = 3 = classes, F undefined
+  //     (df2 = 0): few_values, F 0, p 1. The 3 x 3 table is diagonal with ones, so by hand
+  //     chi-square = 3 * (1 - 1/3)^2 / (1/3) + 6 * (1/3)^2 / (1/3) = 4 + 2 = 6, df 4, and
+  //     MI = ln 3 (the class is a function of the bin, three equally likely classes).
+  //  1: class c unobserved (1, 2, 5, 7, -, -): F over the two observed classes, by hand: means
+  //     1.5 and 6 about 3.75, between = 2 * 2.25^2 * 2 = 20.25, within = 0.5 + 2 = 2.5, df 1 and 2,
+  //     F = 20.25 / 1.25 = 16.2 (scipy.stats.f_oneway([1, 2], [5, 7]) = 16.2, p 0.05654...).
+  //  2: a single observed class (1, 2, -, -, -, -): F undefined, chi-square df 0 (one column),
+  //     MI 0: nothing but the variance is defined.
+  const float nan = std::numeric_limits<float>::quiet_NaN();
+  Matrix m(6, 3);
+  m << 1, 1, 1,  //
+      nan, 2, 2,   //
+      5, 5, nan,   //
+      nan, 7, nan, //
+      9, nan, nan, //
+      nan, nan, nan;
+  const ClassCodes classes = classes_of({"a", "a", "b", "b", "c", "c"});
+  for (auto estimator : {pare::MiEstimator::kBinned, pare::MiEstimator::kKnn}) {
+    INFO("estimator " << (estimator == pare::MiEstimator::kKnn ? "knn" : "binned"));
+    pare::ScoreOptions options;
+    options.mi = estimator;
+    options.threads = 1;
+    const FeatureScores s = pare::score_features(m, all_columns(m), classes, options);
+    CHECK(s.flags[0] == pare::kScoreFewValues);
+    CHECK(s.f[0] == 0.0);
+    CHECK(s.f_p[0] == 1.0);
+    CHECK(rel_diff(s.chi2[0], 6.0) <= 1e-14);
+    CHECK(s.chi2_df[0] == 4);
+    CHECK(rel_diff(s.chi2_p[0], std::exp(-3.0) * (1 + 3.0)) <= 1e-12);  // df 4: e^(-x/2)(1 + x/2)
+    CHECK_FALSE(pare::criterion_defined(s, pare::Criterion::kF, 0));
+    CHECK(pare::criterion_defined(s, pare::Criterion::kChi2, 0));
+    if (estimator == pare::MiEstimator::kBinned) {
+      CHECK(rel_diff(s.mi[0], std::log(3.0)) <= 1e-14);
+      CHECK(pare::criterion_defined(s, pare::Criterion::kMi, 0));
+    } else {
+      // every class has one observed value: the kNN estimator leaves them all out
+      CHECK(s.mi[0] == 0.0);
+      CHECK_FALSE(pare::criterion_defined(s, pare::Criterion::kMi, 0));
+    }
+
+    CHECK(s.flags[1] == 0);
+    CHECK(rel_diff(s.f[1], 16.2) <= 1e-14);
+    // F(1, 2) upper tail in closed form: 1 - sqrt(F / (F + 2)) (t distribution with 2 df,
+    // textbook identity recalled from memory; scipy.stats.f.sf(16.2, 1, 2) = 0.056543...).
+    CHECK(rel_diff(s.f_p[1], 1 - std::sqrt(16.2 / 18.2)) <= 1e-12);
+    CHECK(pare::criterion_defined(s, pare::Criterion::kF, 1));
+
+    CHECK(s.flags[2] == pare::kScoreFewValues);
+    CHECK(s.chi2_df[2] == 0);
+    CHECK(s.chi2[2] == 0.0);
+    CHECK(s.mi[2] == 0.0);
+    for (auto c : {pare::Criterion::kMi, pare::Criterion::kChi2, pare::Criterion::kF})
+      CHECK_FALSE(pare::criterion_defined(s, c, 2));
+    CHECK(pare::criterion_defined(s, pare::Criterion::kVariance, 2));
+  }
 }
 
 TEST_CASE("score_features with an infinite value: rank-based scores only",

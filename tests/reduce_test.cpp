@@ -174,7 +174,7 @@ void require_input_error(FeatureTable t, const ReduceOptions& o, const std::stri
 
 }  // namespace
 
-TEST_CASE("reduce: the missing filter keeps a rate equal to --max-missing", "[reduce]") {
+TEST_CASE("reduce: the missing filter keeps a rate equal to --drop-missing-above", "[reduce]") {
   // 10 samples: f0 misses 2 (rate 0.2), f1 misses 3 (0.3), f2 none, f3 all. 2/10 and 3/10 are the
   // doubles nearest 0.2 and 0.3 (correctly rounded division), so the boundary is exact.
   const std::vector<float> full{1, 2, 3, 4, 5, 6, 7, 8, 9, 10};
@@ -202,7 +202,7 @@ TEST_CASE("reduce: the missing filter keeps a rate equal to --max-missing", "[re
   }
   {
     ReduceOptions o = quiet_options();
-    o.max_missing = 0.3;
+    o.drop_missing_above = 0.3;
     FeatureTable t = make();
     const Reduction r = pare::reduce(t, o);
     REQUIRE(decision(r, 1).kept);
@@ -210,7 +210,7 @@ TEST_CASE("reduce: the missing filter keeps a rate equal to --max-missing", "[re
   }
   {
     ReduceOptions o = quiet_options();
-    o.max_missing = 0;  // complete features only
+    o.drop_missing_above = 0;  // complete features only
     FeatureTable t = make();
     const Reduction r = pare::reduce(t, o);
     REQUIRE(r.kept == std::vector<std::int64_t>{2});
@@ -246,7 +246,7 @@ TEST_CASE("reduce: fill values by mean, median and zero, in the raw and the log2
     for (const bool log2 : {false, true}) {
       INFO(pare::impute_name(c.impute) << (log2 ? ", --log2" : ""));
       ReduceOptions o = quiet_options();
-      o.max_missing = 0.5;
+      o.drop_missing_above = 0.5;
       o.impute = c.impute;
       o.log2 = log2;
       FeatureTable t = make_table({f0, f1, f2});
@@ -624,7 +624,7 @@ TEST_CASE("reduce: every feature filtered out is an input error", "[reduce]") {
   o.min_variance = 1e6;
   require_input_error(make_table({{1, 2, 3}, {4, 5, 7}}), o, "every feature was filtered out");
   ReduceOptions m = quiet_options();
-  m.max_missing = 0.1;
+  m.drop_missing_above = 0.1;
   require_input_error(make_table({{1, kGap, 3}, {kGap, 5, 7}}), m,
                       "every feature was filtered out");
 }
@@ -636,18 +636,18 @@ TEST_CASE("reduce: the reduced matrix text in both layouts", "[reduce]") {
   const std::vector<std::int64_t> cols{2, 0};
   const std::vector<std::string> names{"g3", "g,1"};
   const std::string rows_samples = pare::reduced_matrix_text(t, cols, names);
+  // Ids and numbers only, in both layouts (the labels go to samples.tsv).
   REQUIRE(rows_samples ==
-          "sample,g3,\"g,1\",group\n"
-          "s1,3,1.5,A\n"
-          "s2,4,0.1,B\n"
-          "s3,5,-2,A\n");
+          "sample,g3,\"g,1\"\n"
+          "s1,3,1.5\n"
+          "s2,4,0.1\n"
+          "s3,5,-2\n");
   t.layout = pare::Layout::kRowsAreFeatures;
   t.delimiter = '\t';
   t.id_name = "feature";
   const std::string rows_features = pare::reduced_matrix_text(t, {0, 1}, {"g,1", "g2"});
   REQUIRE(rows_features ==
           "feature\ts1\ts2\ts3\n"
-          "group\tA\tB\tA\n"
           "g,1\t1.5\t0.1\t-2\n"
           "g2\t7\tNA\t1e-05\n");
 }

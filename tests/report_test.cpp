@@ -1,21 +1,30 @@
 // report.html (pare/report.h): a self-contained page (no script, nothing fetched, printable),
 // every name escaped, the funnel equal to the steps' counts, the top-30 chart equal to
 // ranking.tsv, histogram counts that add up, and a bounded size at 100,000 features and 10,000
-// samples. The strict HTML parse and the rendering in Chromium are in
+// samples; the score curve equal to selection-log.tsv's scores in ranking order with the --fdr and
+// --keep cuts where the log puts them, the p-value histogram's counts, the strip plots' values
+// and class quartiles, and the sample plots coloured by a sheet column (--mark-by). The strict
+// HTML parse, numpy's histogram and quantiles on a real run, and the rendering in Chromium are in
 // tests/reference/report_reference.py.
 #include "pare/report.h"
 
-#include <cmath>    // std::isnan
-#include <cstdint>  // std::int64_t
-#include <limits>   // std::numeric_limits
-#include <random>   // std::mt19937_64
-#include <regex>    // std::regex, std::sregex_iterator
-#include <sstream>  // std::istringstream
-#include <string>   // std::string
-#include <vector>   // std::vector
+#include <algorithm>  // std::sort, std::stable_sort
+#include <charconv>   // std::to_chars
+#include <cmath>      // std::isnan
+#include <cstdint>    // std::int64_t
+#include <limits>     // std::numeric_limits
+#include <map>        // std::map
+#include <random>     // std::mt19937_64
+#include <regex>      // std::regex, std::sregex_iterator
+#include <set>        // std::set
+#include <sstream>    // std::istringstream
+#include <string>     // std::string
+#include <tuple>      // std::tuple
+#include <vector>     // std::vector
 
 #include <catch2/catch.hpp>
 
+#include "pare/projection.h"
 #include "pare/reduce.h"
 
 namespace {
@@ -73,13 +82,16 @@ struct Run {
   std::string html;
 };
 
-Run reduce_and_report(std::vector<std::string> names = {}) {
+Run reduce_and_report(std::vector<std::string> names = {}, pare::ReduceOptions options = {},
+                      bool labelled = true) {
   Run r;
   r.table = small_table(std::move(names));
+  if (!labelled) r.table.labels.clear();
   const pare::FeatureTable input = r.table;
   pare::ScreenOptions so;
   const pare::SampleScreen screen = pare::screen_samples(input.values, so);
-  r.options.keep = 30;
+  r.options = options;
+  if (r.options.keep == 0) r.options.keep = 30;
   r.reduction = pare::reduce(r.table, r.options);
   r.report.command = "reduce";
   r.report.title = "pare reduce: small.csv";
@@ -267,4 +279,519 @@ TEST_CASE("report: 100,000 features and 10,000 samples stay legible and small", 
           4);  // dot and ring, twice
   REQUIRE(occurrences(html, "<title>sample_4 \xC2\xB7 ") == 2);
   REQUIRE(occurrences(html, "<title>sample_5 \xC2\xB7 ") == 0);
+}
+
+namespace {
+
+// Lines of a TSV text, split at tabs.
+std::vector<std::vector<std::string>> tsv_rows(const std::string& text) {
+  std::vector<std::vector<std::string>> rows;
+  std::istringstream in(text);
+  for (std::string line; std::getline(in, line);) {
+    std::vector<std::string> f;
+    std::istringstream cells(line);
+    for (std::string cell; std::getline(cells, cell, '\t');) f.push_back(cell);
+    rows.push_back(std::move(f));
+  }
+  return rows;
+}
+
+std::size_t column_of(const std::vector<std::string>& header, const std::string& name) {
+  for (std::size_t k = 0; k < header.size(); ++k)
+    if (header[k] == name) return k;
+  FAIL("no column " << name);
+  return 0;
+}
+
+// The value of attribute `name` in the first element of `html` that starts with `start`.
+std::string attribute(const std::string& html, const std::string& start, const std::string& name) {
+  const std::size_t at = html.find(start);
+  if (at == std::string::npos) return "";
+  const std::size_t end = html.find('>', at);
+  const std::string element = html.substr(at, end - at);
+  const std::size_t a = element.find(" " + name + "=\"");
+  if (a == std::string::npos) return "";
+  const std::size_t from = a + name.size() + 3;
+  return element.substr(from, element.find('"', from) - from);
+}
+
+// The text from `start` to the next `end` (exclusive), or "".
+std::string between(const std::string& html, const std::string& start, const std::string& end) {
+  const std::size_t a = html.find(start);
+  if (a == std::string::npos) return "";
+  return html.substr(a, html.find(end, a) - a);
+}
+
+// The expected curve from selection-log.tsv: every feature with a score in `column`, by the
+// score descending, ties in input order (as the ranking orders them); (input index, score text,
+// q text).
+struct Ranked {
+  std::int64_t index;
+  std::string score, q, status;
+  double value;
+};
+std::vector<Ranked> ranked_from_log(const std::string& log, const std::string& column,
+                                    const std::string& q_column) {
+  const auto rows = tsv_rows(log);
+  const std::size_t c = column_of(rows[0], column), idx = column_of(rows[0], "index"),
+                    st = column_of(rows[0], "status");
+  const std::size_t qc = q_column.empty() ? 0 : column_of(rows[0], q_column);
+  std::vector<Ranked> out;
+  for (std::size_t k = 1; k < rows.size(); ++k) {
+    const auto& f = rows[k];
+    if (f[c] == "NA") continue;
+    out.push_back(
+        {std::stoll(f[idx]), f[c], q_column.empty() ? "" : f[qc], f[st], std::stod(f[c])});
+  }
+  std::stable_sort(out.begin(), out.end(),
+                   [](const Ranked& a, const Ranked& b) { return a.value > b.value; });
+  return out;
+}
+
+std::vector<std::pair<std::int64_t, std::string>> curve_points(const std::string& html) {
+  std::vector<std::pair<std::int64_t, std::string>> out;
+  std::istringstream in(attribute(html, "<g class=\"score-curve\"", "data-points"));
+  for (std::string point; in >> point;) {
+    const std::size_t colon = point.find(':');
+    out.emplace_back(std::stoll(point.substr(0, colon)), point.substr(colon + 1));
+  }
+  return out;
+}
+
+}  // namespace
+
+TEST_CASE("report: the score curve is every scored feature's score by rank, with the cuts",
+          "[report]") {
+  pare::ReduceOptions o;
+  o.keep = 12;
+  o.fdr = 0.05;
+  const Run r = reduce_and_report({}, o);
+  // Reference: selection-log.tsv, the scores of every feature, ordered here by mi descending.
+  const auto expected =
+      ranked_from_log(pare::selection_log_tsv(r.table, r.reduction), "mi", "chi2_q");
+  REQUIRE(expected.size() == 70);  // 80 minus 6 mostly missing minus 4 constant
+  REQUIRE(attribute(r.html, "<g class=\"score-curve\"", "data-count") == "70");
+  REQUIRE(attribute(r.html, "<g class=\"score-curve\"", "data-column") == "mi");
+  const auto points = curve_points(r.html);
+  // 70 ranks, more than a pixel apart even on the log axis: every one is a vertex.
+  REQUIRE(points.size() == 70);
+  for (const auto& [rank, value] : points) {
+    INFO("rank " << rank);
+    REQUIRE(value == expected[static_cast<std::size_t>(rank - 1)].score);
+  }
+  // --fdr: the last rank whose chi2_q is at most 0.05; --keep: where the 12th kept feature sits.
+  std::int64_t fdr_rank = 0, passed = 0, keep_rank = 0, kept = 0;
+  for (std::size_t k = 0; k < expected.size(); ++k) {
+    if (std::stod(expected[k].q) <= 0.05) {
+      fdr_rank = static_cast<std::int64_t>(k + 1);
+      ++passed;
+    }
+    if (expected[k].status == "kept") {
+      keep_rank = static_cast<std::int64_t>(k + 1);
+      ++kept;
+    }
+  }
+  REQUIRE(kept == 12);
+  REQUIRE(keep_rank > 12);  // near-copies between them were pruned: the cut is not at 12
+  REQUIRE(fdr_rank < 70);
+  REQUIRE(attribute(r.html, "<g class=\"score-curve\"", "data-fdr-rank") ==
+          std::to_string(fdr_rank));
+  REQUIRE(attribute(r.html, "<g class=\"score-curve\"", "data-fdr-passed") ==
+          std::to_string(passed));
+  REQUIRE(attribute(r.html, "<g class=\"score-curve\"", "data-keep-rank") ==
+          std::to_string(keep_rank));
+  REQUIRE(r.html.find("--keep 12: the 12th kept at rank " + std::to_string(keep_rank)) !=
+          std::string::npos);
+  REQUIRE(r.html.find("--fdr 0.05: last q \xE2\x89\xA4 0.05 at rank " + std::to_string(fdr_rank)) !=
+          std::string::npos);
+}
+
+TEST_CASE("report: the p-value histogram counts the ranking test's p of every scored feature",
+          "[report]") {
+  const Run r = reduce_and_report();
+  // Reference: selection-log.tsv's chi2_p (the test mi is filtered with), binned by hand into
+  // [k/20, (k+1)/20), 1 in the last bin (numpy.histogram's rule for 20 bins on [0, 1]).
+  const auto rows = tsv_rows(pare::selection_log_tsv(r.table, r.reduction));
+  const std::size_t pc = column_of(rows[0], "chi2_p");
+  std::vector<std::int64_t> expected(20, 0);
+  std::int64_t scored = 0;
+  for (std::size_t k = 1; k < rows.size(); ++k) {
+    if (rows[k][pc] == "NA") continue;
+    const double p = std::stod(rows[k][pc]);
+    // No p-value within rounding of an inner edge, so the two ways of binning agree.
+    REQUIRE((p == 0 || p == 1 || std::abs(p * 20 - std::round(p * 20)) > 1e-9));
+    expected[std::min<std::size_t>(19, static_cast<std::size_t>(std::floor(p * 20)))]++;
+    ++scored;
+  }
+  REQUIRE(scored == 70);
+  const std::string figure = between(r.html, "<h3 id=\"p-values\">", "</figure>");
+  REQUIRE(!figure.empty());
+  const std::regex bin(
+      R"re(<g class="bin" data-from="([^"]*)" data-to="([^"]*)" data-count="(\d+)">)re");
+  std::vector<std::int64_t> shown(20, 0);
+  std::int64_t total = 0;
+  for (auto it = std::sregex_iterator(figure.begin(), figure.end(), bin);
+       it != std::sregex_iterator(); ++it) {
+    const double from = std::stod((*it)[1]);
+    const auto k = static_cast<std::size_t>(std::llround(from * 20));
+    REQUIRE(k < 20);
+    shown[k] = std::stoll((*it)[3]);
+    total += shown[k];
+  }
+  REQUIRE(total == 70);
+  REQUIRE(shown == expected);
+  REQUIRE(expected[0] >= 20);  // the informative features: a spike at the left, so the check bites
+  REQUIRE(figure.find("expected with no signal: 3.5 per bar") != std::string::npos);
+}
+
+TEST_CASE("report: parts without data are left out; without labels the curve is of variance",
+          "[report]") {
+  pare::ReportData d;
+  d.command = "scan";
+  d.title = "t";
+  const std::string bare = pare::report_html(d);
+  for (const char* absent : {"score-curve", "id=\"p-values\"", "top-features", "class=\"strip\"",
+                             "class=\"caution\"", "section id=\"ranking\""}) {
+    INFO(absent);
+    REQUIRE(bare.find(absent) == std::string::npos);
+  }
+  // Unlabelled: ranked by variance; a curve, no p-values, and no word of label-chosen features.
+  const Run u = reduce_and_report({}, {}, false);
+  REQUIRE(attribute(u.html, "<g class=\"score-curve\"", "data-column") == "variance");
+  // Reference: selection-log.tsv's variance of the features past the missing and variance
+  // filters, largest first.
+  std::vector<std::string> expected;
+  for (const auto& e :
+       ranked_from_log(pare::selection_log_tsv(u.table, u.reduction), "variance", "")) {
+    const std::string& step = u.reduction.decisions[static_cast<std::size_t>(e.index - 1)].step;
+    if (step != "missing" && step != "variance") expected.push_back(e.score);
+  }
+  REQUIRE(expected.size() == 70);
+  REQUIRE(attribute(u.html, "<g class=\"score-curve\"", "data-count") == "70");
+  const auto points = curve_points(u.html);
+  REQUIRE(points.size() == 70);
+  for (const auto& [rank, value] : points)
+    REQUIRE(value == expected[static_cast<std::size_t>(rank - 1)]);
+  REQUIRE(u.html.find("id=\"p-values\"") == std::string::npos);
+  REQUIRE(!u.report.chosen_with_labels);
+  // No ranking at all: no curve.
+  pare::ReduceOptions none;
+  none.relevance = false;
+  const Run n = reduce_and_report({}, none);
+  REQUIRE(n.html.find("score-curve") == std::string::npos);
+  REQUIRE(n.html.find("No ranking ran") != std::string::npos);
+}
+
+TEST_CASE("report: strip plots of the top kept features hold the table's values by class",
+          "[report]") {
+  Run r = reduce_and_report();
+  const std::vector<std::int64_t>& kept = r.reduction.kept;
+  pare::add_top_features(r.report, r.table, kept, "as in reduced.csv");
+  const std::string html = pare::report_html(r.report);
+  REQUIRE(html.find("<section id=\"top-features\">") != std::string::npos);
+  REQUIRE(html.find("quartile) and the black line is the median. As in reduced.csv.</p>") !=
+          std::string::npos);
+  const std::regex dot(
+      R"re(<circle cx="([^"]*)" cy="[^"]*" r="[^"]*" fill="[^"]*" fill-opacity="0.7" data-value="([^"]*)"><title>([^ ]+) )re");
+  std::vector<std::map<std::string, std::string>> offsets;
+  for (std::size_t f = 0; f < 7; ++f) {
+    const std::string start = "<g class=\"strip\" data-rank=\"" + std::to_string(f + 1) + "\"";
+    if (f == 6) {
+      REQUIRE(html.find(start) == std::string::npos);  // at most 6
+      break;
+    }
+    const std::string strip = between(html, start, "</svg>");
+    REQUIRE(!strip.empty());
+    const auto j = static_cast<Eigen::Index>(kept[f]);
+    REQUIRE(attribute(strip, "<g class=\"strip\"", "data-feature") ==
+            r.table.feature_names[static_cast<std::size_t>(j)]);
+    // Every sample's dot carries the table's float as the output files write it.
+    std::map<std::string, std::string> cx;
+    for (auto it = std::sregex_iterator(strip.begin(), strip.end(), dot);
+         it != std::sregex_iterator(); ++it) {
+      const std::string id = (*it)[3];
+      const auto i = static_cast<Eigen::Index>(std::stoll(id.substr(1)) - 1);
+      // Reference: std::to_chars, the shortest text that reads back as the same float.
+      char buffer[32];
+      const auto end = std::to_chars(buffer, buffer + sizeof buffer, r.table.values(i, j)).ptr;
+      REQUIRE((*it)[2] == std::string(buffer, end));
+      cx[id] = (*it)[1];
+    }
+    REQUIRE(cx.size() == 60);
+    offsets.push_back(cx);
+    // Each class's median and quartiles (numpy.quantile's default, linear between order
+    // statistics) of the same values, computed here.
+    for (const char* cls : {"dry", "wet"}) {
+      std::vector<double> v;
+      for (Eigen::Index i = 0; i < 60; ++i)
+        if (r.table.labels[static_cast<std::size_t>(i)] == cls) v.push_back(r.table.values(i, j));
+      std::sort(v.begin(), v.end());
+      const auto q = [&](double p) {
+        const double h = p * static_cast<double>(v.size() - 1);
+        const auto lo = static_cast<std::size_t>(h);
+        return v[lo] + (h - static_cast<double>(lo)) * (v[std::min(lo + 1, v.size() - 1)] - v[lo]);
+      };
+      const std::string group = between(strip, std::string("data-class=\"") + cls + "\"", ">");
+      INFO(group);
+      REQUIRE(group.find(std::string("data-n=\"") + (cls[0] == 'd' ? "20" : "40") + "\"") !=
+              std::string::npos);
+      for (const auto& [name, p] : {std::pair<const char*, double>{"data-q1", 0.25},
+                                    {"data-median", 0.5},
+                                    {"data-q3", 0.75}}) {
+        const double shown = std::stod(attribute("<g " + group + ">", "<g", name));
+        // Tolerance: the same interpolation in double on float inputs; only the order of two
+        // roundings may differ.
+        REQUIRE(std::abs(shown - q(p)) <= 1e-12 * (1 + std::abs(q(p))));
+      }
+    }
+  }
+  // The jitter is a fixed offset per sample: the same in every strip, not the same for all.
+  for (std::size_t f = 1; f < offsets.size(); ++f) REQUIRE(offsets[f] == offsets[0]);
+  std::set<std::string> distinct;
+  for (const auto& [id, x] : offsets[0]) distinct.insert(x);
+  REQUIRE(distinct.size() > 30);
+  // Deterministic: the same page again.
+  Run again = reduce_and_report();
+  pare::add_top_features(again.report, again.table, again.reduction.kept, "as in reduced.csv");
+  for (auto* d : {&r.report, &again.report})
+    for (auto& st : d->steps) st.seconds = 0;
+  REQUIRE(pare::report_html(r.report) == pare::report_html(again.report));
+  // A column that is not in the table is a caller's mistake.
+  const std::vector<std::int64_t> bad{80};
+  REQUIRE_THROWS_AS(pare::add_top_features(r.report, r.table, bad, ""), std::out_of_range);
+}
+
+TEST_CASE("report: strip plot quartiles, samples without a label, and no labels", "[report]") {
+  // Hand-computed quartiles by linear interpolation between order statistics (Hyndman & Fan
+  // 1996, definition 7; numpy.quantile's default): {1,2,3,4} -> 1.75, 2.5, 3.25;
+  // {10,20,30,40,50} -> 20, 30, 40.
+  pare::FeatureTable t;
+  t.values.resize(10, 1);
+  const float v[] = {3, 1, 4, 2, 50, 10, 40, 20, 30, 99};
+  for (Eigen::Index i = 0; i < 10; ++i) {
+    t.values(i, 0) = v[i];
+    t.sample_ids.push_back(numbered("s", i + 1));
+    t.labels.push_back(i < 4 ? "a" : i < 9 ? "b" : "");
+  }
+  t.feature_names = {"x"};
+  t.label_name = "group";
+  pare::ReportData d;
+  d.command = "reduce";
+  d.title = "t";
+  const std::vector<std::int64_t> col{0};
+  pare::add_top_features(d, t, col, "");
+  const std::string html = pare::report_html(d);
+  const auto group = [&](const char* cls) {
+    return "<g " + between(html, std::string("data-class=\"") + cls + "\"", ">") + ">";
+  };
+  REQUIRE(attribute(group("a"), "<g", "data-q1") == "1.75");
+  REQUIRE(attribute(group("a"), "<g", "data-median") == "2.5");
+  REQUIRE(attribute(group("a"), "<g", "data-q3") == "3.25");
+  REQUIRE(attribute(group("b"), "<g", "data-q1") == "20");
+  REQUIRE(attribute(group("b"), "<g", "data-median") == "30");
+  REQUIRE(attribute(group("b"), "<g", "data-q3") == "40");
+  // The sample without a label is counted, not drawn.
+  REQUIRE(html.find("1 sample without a label is not shown.") != std::string::npos);
+  REQUIRE(html.find("data-value=\"99\"") == std::string::npos);
+  REQUIRE(occurrences(html, "fill-opacity=\"0.7\" data-value=") == 9);
+  // Without labels: one strip of every sample.
+  t.labels.clear();
+  pare::add_top_features(d, t, col, "");
+  const std::string plain = pare::report_html(d);
+  REQUIRE(attribute(plain, "<g class=\"strip-group\"", "data-class") == "all samples");
+  REQUIRE(attribute(plain, "<g class=\"strip-group\"", "data-n") == "10");
+  REQUIRE(occurrences(plain, "fill-opacity=\"0.7\" data-value=") == 10);
+  // Every sample without a label: nothing to draw, no section.
+  t.labels.assign(10, "");
+  pare::add_top_features(d, t, col, "");
+  REQUIRE(pare::report_html(d).find("top-features") == std::string::npos);
+}
+
+namespace {
+
+// The colour of each legend entry of the legend that follows `heading`.
+std::map<std::string, std::string> legend_colours(const std::string& html,
+                                                  const std::string& heading) {
+  std::map<std::string, std::string> out;
+  const std::string list = between(html, heading, "</ul>");
+  const std::regex item(R"re(fill="(#[0-9A-Fa-f]{6})"/></svg> ([^<]*) \((\d+)\)</li>)re");
+  for (auto it = std::sregex_iterator(list.begin(), list.end(), item); it != std::sregex_iterator();
+       ++it)
+    out[(*it)[2]] = (*it)[1];
+  return out;
+}
+
+// (sample id, mark text, fill) of every dot of the scatter plot labelled `aria`.
+std::vector<std::tuple<std::string, std::string, std::string>> marked_dots(
+    const std::string& html, const std::string& aria) {
+  std::vector<std::tuple<std::string, std::string, std::string>> out;
+  const std::string svg = between(html, "aria-label=\"" + aria + "\"", "</svg>");
+  const std::regex dot(
+      R"re(fill="(#[0-9A-Fa-f]{6})" fill-opacity="0.8"><title>([^ ]+) · [^<]*· batch ([^<·]*?)(?: · [^<]*)?</title>)re");
+  for (auto it = std::sregex_iterator(svg.begin(), svg.end(), dot); it != std::sregex_iterator();
+       ++it)
+    out.emplace_back((*it)[2], (*it)[3], (*it)[1]);
+  return out;
+}
+
+}  // namespace
+
+TEST_CASE("report: --mark-by draws the sample plots again, coloured by the sheet column",
+          "[report]") {
+  Run r = reduce_and_report();
+  pare::ReportSamples& si = r.report.sample_info;
+  si.mark_name = "batch";
+  for (std::size_t i = 0; i < si.ids.size(); ++i)
+    si.marks.push_back(i % 10 == 9 ? "" : i % 2 == 0 ? "A" : "B");
+  const std::string html = pare::report_html(r.report);
+  REQUIRE(occurrences(html, "aria-label=\"Samples on PC1 and PC2\"") == 1);
+  REQUIRE(occurrences(html, "aria-label=\"Samples on PC1 and PC2 by batch\"") == 1);
+  REQUIRE(occurrences(html, "aria-label=\"Samples on PC1 and PC3 by batch\"") == 1);
+  const auto legend = legend_colours(html, "<strong>batch:</strong>");
+  REQUIRE(legend.size() == 3);
+  REQUIRE(legend.count("A") == 1);
+  REQUIRE(legend.count("B") == 1);
+  REQUIRE(legend.count("missing") == 1);
+  REQUIRE(html.find("missing (6)</li>") != std::string::npos);
+  REQUIRE(html.find("A (30)</li>") != std::string::npos);  // 0, 2, ..., 58 minus none ending in 9
+  // Every sample's dot: its mark on hover, the legend's colour for that mark.
+  const auto dots = marked_dots(html, "Samples on PC1 and PC2 by batch");
+  REQUIRE(dots.size() == 60);
+  for (const auto& [id, mark, fill] : dots) {
+    const std::size_t i = static_cast<std::size_t>(std::stoll(id.substr(1)) - 1);
+    INFO(id);
+    REQUIRE(mark == (si.marks[i].empty() ? "missing" : si.marks[i]));
+    REQUIRE(fill == legend.at(mark));
+  }
+  REQUIRE(legend.at("A") != legend.at("B"));
+  // No marks: the plots are drawn once.
+  si.marks.clear();
+  REQUIRE(pare::report_html(r.report).find("by batch") == std::string::npos);
+
+  // 12 distinct values: the 7 most frequent coloured, the other 5 one grey "other".
+  for (std::size_t i = 0; i < si.ids.size(); ++i)
+    si.marks.push_back("v" + std::to_string(i < 24 ? i % 4 : 4 + i % 8));  // v0..v3 most frequent
+  const std::string many = pare::report_html(r.report);
+  REQUIRE(many.find("batch has 12 distinct values: the 7 most frequent have a colour each, the "
+                    "other 5 (") != std::string::npos);
+  const auto many_legend = legend_colours(many, "<strong>batch:</strong>");
+  REQUIRE(many_legend.size() == 8);
+  REQUIRE(many_legend.count("other (5 values)") == 1);
+  for (const char* v : {"v0", "v1", "v2", "v3"}) REQUIRE(many_legend.count(v) == 1);
+  std::set<std::string> colours;
+  for (const auto& [name, colour] : many_legend) colours.insert(colour);
+  REQUIRE(colours.size() == 8);
+  for (const auto& [id, mark, fill] : marked_dots(many, "Samples on PC1 and PC2 by batch"))
+    REQUIRE(fill ==
+            (many_legend.count(mark) ? many_legend.at(mark) : many_legend.at("other (5 values)")));
+}
+
+TEST_CASE("report: components of label-chosen features say the separation is expected",
+          "[report]") {
+  Run r = reduce_and_report();
+  REQUIRE(r.report.chosen_with_labels);
+  // Without --components the plots are the screen's PCA of the input: no caution.
+  REQUIRE(r.html.find("class=\"caution\"") == std::string::npos);
+  pare::ProjectionOptions po;
+  po.components = 3;
+  pare::Matrix kept(60, static_cast<Eigen::Index>(r.reduction.kept.size()));
+  for (std::size_t k = 0; k < r.reduction.kept.size(); ++k)
+    kept.col(static_cast<Eigen::Index>(k)) = r.table.values.col(r.reduction.kept[k]);
+  const pare::Projection pr = pare::truncated_pca(kept, po);
+  pare::add_components(r.report, pr, "the 30 kept features");
+  const std::string html = pare::report_html(r.report);
+  REQUIRE(html.find("<p class=\"caution\">These features were selected using the labels (group), "
+                    "so the classes are expected to separate") != std::string::npos);
+  // The same components of an unsupervised reduction: no caution.
+  Run u = reduce_and_report({}, {}, false);
+  pare::add_components(u.report, pr, "kept");
+  REQUIRE(pare::report_html(u.report).find("class=\"caution\"") == std::string::npos);
+}
+
+TEST_CASE("report: add_ranking (pare rank) fills the bars, the curve and the p-values",
+          "[report]") {
+  const pare::FeatureTable t = small_table();
+  const pare::ClassCodes classes = pare::encode_classes(t.labels);
+  std::vector<std::int64_t> all(80);
+  for (std::size_t j = 0; j < all.size(); ++j) all[j] = static_cast<std::int64_t>(j);
+  const pare::FeatureScores s = pare::score_features(t.values, all, classes, {});
+  const std::vector<std::size_t> order = pare::rank_order(s, pare::Criterion::kF);
+  // As pare rank selects: q <= 0.01, then the first 15.
+  std::vector<std::size_t> kept;
+  for (const std::size_t i : order)
+    if (pare::criterion_q(s, pare::Criterion::kF, i) <= 0.01 && kept.size() < 15) kept.push_back(i);
+  REQUIRE(kept.size() == 15);
+  pare::ReportData d;
+  d.command = "rank";
+  d.title = "pare rank: small.csv";
+  pare::add_ranking(d, t, s, order, kept, pare::Criterion::kF, 0.01, 15);
+  const std::string html = pare::report_html(d);
+  // The bars: the kept features, F and f_q as ranking_tsv writes them.
+  const auto tsv = tsv_rows(pare::ranking_tsv(s, kept, t.feature_names, false));
+  const std::size_t fc = column_of(tsv[0], "f"), qc = column_of(tsv[0], "f_q");
+  for (std::size_t k = 0; k < kept.size(); ++k) {
+    const std::string start = "<g class=\"feature\" data-rank=\"" + std::to_string(k + 1) + "\"";
+    REQUIRE(attribute(html, start, "data-name") == tsv[k + 1][1]);
+    REQUIRE(attribute(html, start, "data-value") == tsv[k + 1][fc]);
+    REQUIRE(attribute(html, start, "data-q") == tsv[k + 1][qc]);
+  }
+  REQUIRE(html.find("data-rank=\"16\"") == std::string::npos);
+  // The curve: all 80 features (constant and mostly-missing ones too, as rank scores them).
+  REQUIRE(attribute(html, "<g class=\"score-curve\"", "data-count") == "80");
+  REQUIRE(attribute(html, "<g class=\"score-curve\"", "data-column") == "f");
+  const auto everything = tsv_rows(pare::ranking_tsv(s, order, t.feature_names, false));
+  for (const auto& [rank, value] : curve_points(html))
+    REQUIRE(value == everything[static_cast<std::size_t>(rank)][fc]);
+  REQUIRE(attribute(html, "<g class=\"score-curve\"", "data-keep-rank") == "15");
+  // p-values of the F-test: 80 features in the bins.
+  const std::string figure = between(html, "<h3 id=\"p-values\">", "</figure>");
+  REQUIRE(figure.find("p-values of the one-way ANOVA F-test") != std::string::npos);
+  std::int64_t total = 0;
+  const std::regex bin(R"re(<g class="bin" [^>]*data-count="(\d+)">)re");
+  for (auto it = std::sregex_iterator(figure.begin(), figure.end(), bin);
+       it != std::sregex_iterator(); ++it)
+    total += std::stoll((*it)[1]);
+  REQUIRE(total == 80);
+}
+
+TEST_CASE("report: 10,000 samples: strip plots and marked plots thinned, page bounded",
+          "[report]") {
+  std::mt19937_64 rng(11);
+  std::normal_distribution<double> normal(0.0, 1.0);
+  pare::FeatureTable t;
+  const Eigen::Index n = 10000;
+  t.values.resize(n, 8);
+  for (Eigen::Index i = 0; i < n; ++i) {
+    t.sample_ids.push_back(numbered("sample_", i));
+    t.labels.push_back(i % 3 == 0 ? "a" : "b");
+    for (Eigen::Index j = 0; j < 8; ++j) t.values(i, j) = static_cast<float>(normal(rng));
+  }
+  for (int j = 0; j < 8; ++j) t.feature_names.push_back(numbered("f", j));
+  pare::ReportData d;
+  d.command = "reduce";
+  d.title = "wide";
+  d.components.source = "kept";
+  d.components.ratio = {0.3, 0.2, 0.1};
+  d.components.cumulative = {0.3, 0.5, 0.6};
+  d.components.scores.resize(3);
+  pare::ReportSamples& s = d.sample_info;
+  s.ids = t.sample_ids;
+  s.labels = t.labels;
+  s.mark_name = "site";
+  for (Eigen::Index i = 0; i < n; ++i) {
+    s.marks.push_back(numbered("site", i % 20));
+    for (auto& c : d.components.scores) c.push_back(normal(rng));
+  }
+  const std::vector<std::int64_t> cols{0, 1, 2, 3, 4, 5, 6, 7};
+  pare::add_top_features(d, t, cols, "");
+  const std::string html = pare::report_html(d);
+  INFO(html.size() << " bytes");
+  REQUIRE(html.size() < 2'500'000);
+  // 6 strips of one sample in 17 (589 of 10,000), and four scatter plots of 2,500.
+  REQUIRE(occurrences(html, "<g class=\"strip\" ") == 6);
+  REQUIRE(occurrences(html, "fill-opacity=\"0.7\" data-value=") == 6 * 589);
+  REQUIRE(html.find("One sample in 17 is drawn (589 of 10,000); the boxes use every sample.") !=
+          std::string::npos);
+  REQUIRE(occurrences(html, "2,500 of 10,000 samples drawn (one in 4") == 4);
+  REQUIRE(html.find("site has 20 distinct values") != std::string::npos);
 }

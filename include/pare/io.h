@@ -21,28 +21,48 @@ struct ReadOptions {
   std::vector<std::string> na_tokens = default_na_tokens();
   bool allow_inf = false;                            ///< accept inf/-inf as values
   std::string label_column;                          ///< column (or row, rows=features) of labels
+  bool label_optional = false;                       ///< a label_column the file lacks means no labels
+                                                     ///< (apply: new samples often come unlabelled)
+  /// rows=features: header names of text columns describing each feature (symbol, chromosome):
+  /// not samples; their text goes to FeatureTable::feature_info.
+  std::vector<std::string> feature_info;
+  /// rows=samples: header names of text columns describing each sample (batch, site): not
+  /// features; their text goes to FeatureTable::sample_info.
+  std::vector<std::string> sample_info;
   int threads = 0;                                   ///< 0: OpenMP's default
   MemoryBudget memory;                               ///< past it the matrix goes to a cache file
 };
 
-/// Reads a whole matrix. Throws Error(kInput) with file:line:column on malformed input.
+/// Reads a whole matrix. Throws Error(kInput) with file:line:column on malformed input, and
+/// Error(kUsage) when `feature_info` / `sample_info` do not fit the layout, repeat a name or name
+/// the label. A label that is a missing-value token is read as "" (no label). Duplicate feature
+/// names are made unique (FeatureTable::renamed).
 FeatureTable read_table(const std::string& path, const ReadOptions& options);
 
-/// Sample id -> label, as read from a sample sheet.
+/// Sample id -> label, as read from a sample sheet, and every other column of it.
 struct SampleSheet {
   std::string path;
   std::string column;                   ///< the label column used
   std::vector<std::string> ids;         ///< in file order
-  std::vector<std::string> labels;      ///< one per id
+  std::vector<std::string> labels;      ///< one per id; "" where the sheet has a missing token
   std::vector<std::int64_t> lines;      ///< 1-based line of each id
+  std::vector<std::string> header;      ///< the sheet's column names
+  std::vector<std::vector<std::string>> cells;  ///< one row per id: its fields as written
 };
 
 /// Reads `spec` = `FILE[:COLUMN]`: first column sample ids, COLUMN (default: the second column)
 /// the labels. The delimiter is detected from the header line unless given.
 SampleSheet read_sample_sheet(const std::string& spec, char delimiter = 0);
 
-/// Sets `table.labels` from `sheet`, matched by sample id. Every sample of the table must appear in
-/// the sheet; sheet rows for other samples are ignored.
+/// The values of the sheet's column `column` for `sample_ids`, one per id: "" for a missing-value
+/// token (the default tokens) or an id not in the sheet. Throws Error(kInput) at {sheet.path, 1}
+/// naming the sheet's columns when there is no such column, and at the line of a value that is
+/// not UTF-8 text.
+std::vector<std::string> sheet_column_values(const SampleSheet& sheet, const std::string& column,
+                                             const std::vector<std::string>& sample_ids);
+
+/// Sets `table.labels` from `sheet`, matched by sample id ("" where the sheet has no label). Every
+/// sample of the table must appear in the sheet; sheet rows for other samples are ignored.
 void attach_labels(FeatureTable& table, const SampleSheet& sheet);
 
 /// Reads a file whole, inflating it when it starts with the gzip magic bytes.

@@ -7,6 +7,7 @@
 #include <cstdint>  // std::int64_t
 #include <memory>   // std::shared_ptr
 #include <string>   // std::string
+#include <utility>  // std::pair
 #include <vector>   // std::vector
 
 namespace pare {
@@ -79,12 +80,23 @@ struct FeatureTable {
   Columns values;                          ///< n_samples x n_features, NaN = missing
   std::vector<std::string> feature_names;  ///< one per column of `values`
   std::vector<std::string> sample_ids;     ///< one per row of `values`
-  std::vector<std::string> labels;         ///< one per sample, or empty when unlabelled
+  std::vector<std::string> labels;         ///< one per sample ("" = no label), or empty when unlabelled
   std::string label_name;                  ///< the label column's name, or empty
   std::string id_name;                     ///< the header of the id column, or empty
   std::string source;                      ///< the path it was read from
   char delimiter = ',';                    ///< the delimiter the file used
   Layout layout = Layout::kRowsAreSamples;
+  /// Text columns carried with the features (rows=features --feature-info): the column names, and
+  /// per column one value per feature.
+  std::vector<std::string> feature_info_names;
+  std::vector<std::vector<std::string>> feature_info;  ///< [column][feature]
+  /// Text columns carried with the samples (rows=samples --sample-info): [column][sample].
+  std::vector<std::string> sample_info_names;
+  std::vector<std::vector<std::string>> sample_info;
+  /// Features whose name repeated an earlier one and was made unique by the reader (the first
+  /// keeps the name, later ones become NAME#2, NAME#3, ..., skipping names already in the file):
+  /// (feature index, 0-based in input order; name as written).
+  std::vector<std::pair<std::int64_t, std::string>> renamed;
 
   std::int64_t n_samples() const { return values.rows(); }
   std::int64_t n_features() const { return values.cols(); }

@@ -79,12 +79,14 @@ struct SampleScreen {
 SampleScreen screen_samples(const ConstMatrixRef& m, const ScreenOptions& options,
                             std::span<const int> classes = {});
 
-/// samples.tsv: one line per sample: sample, the label (when there are labels), missing,
-/// missing_rate, screen_pc1..K, distance, outlier (yes/no), dropped (yes/no); NA where the screen
-/// was not done. `dropped` has one entry per sample or is empty (none dropped).
+/// samples.tsv: one line per sample: sample, the label (when there are labels; NA for a sample
+/// without one), the `info` columns (--sample-info: [column][sample], headed by `info_names`),
+/// missing, missing_rate, screen_pc1..K, distance, outlier (yes/no), dropped (yes/no); NA where
+/// the screen was not done. `dropped` has one entry per sample or is empty (none dropped).
 std::string samples_tsv(const SampleScreen& screen, const std::vector<std::string>& sample_ids,
                         const std::vector<std::string>& labels, const std::string& label_name,
-                        const std::vector<char>& dropped);
+                        const std::vector<char>& dropped, const std::vector<std::string>& info_names = {},
+                        const std::vector<std::vector<std::string>>& info = {});
 
 /// The rule, in words for a person, e.g. "distance > 4.42 = sqrt of the chi-square(3) upper
 /// 0.05/240 quantile".

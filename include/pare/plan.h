@@ -11,6 +11,7 @@
 #include "pare/matrix.h"
 #include "pare/projection.h"
 #include "pare/reduce.h"
+#include "pare/samples.h"
 
 namespace pare {
 
@@ -27,6 +28,12 @@ struct RunRecord {
   std::vector<std::string> na_tokens;
   bool allow_inf = false;
   std::uint64_t seed = 1;
+  std::vector<std::string> feature_info;  ///< --feature-info columns
+  std::vector<std::string> sample_info;   ///< --sample-info columns
+  std::int64_t samples_read = 0;          ///< samples in the data file
+  std::string sample_list_path;           ///< --samples FILE, or empty
+  std::string sample_list_sha256;
+  SamplesLeftOut left_out;                ///< samples left out of a supervised run, and why
   std::string sample_screen_json;  ///< the "sample_screen" section as JSON text, or empty
   std::vector<std::pair<std::string, std::string>> more_outputs;  ///< "outputs" entries: role, file
 };
@@ -47,6 +54,7 @@ struct Plan {
   std::string label;
   std::vector<std::string> na_tokens;
   bool allow_inf = false;
+  std::vector<std::string> feature_info, sample_info;  ///< annotation columns of the input
   bool log2 = false;
   bool scale = false;
   std::vector<std::string> names;  ///< kept features in order

@@ -17,7 +17,7 @@ enum FeatureFlag : std::uint8_t {
   kFlagConstant = 2,       ///< every observed value equal
   kFlagNearConstant = 4,   ///< sd below `near_constant_cv` x |mean| (and not constant)
   kFlagMostlyMissing = 8,  ///< missing rate above `mostly_missing`
-  kFlagDuplicateName = 16, ///< another feature has the same name
+  kFlagDuplicateName = 16, ///< the file gave another feature the same name (FeatureTable::renamed)
 };
 
 /// Thresholds of the profile.

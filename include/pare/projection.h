@@ -62,10 +62,8 @@ Eigen::MatrixXd project_rows(const ConstMatrixRef& x, const Eigen::VectorXd& cen
 
 namespace pare {
 
-/// scores.csv: sample id, PC1..PCK, and the label when there is one.
-std::string scores_csv(const Eigen::MatrixXd& scores, const std::vector<std::string>& sample_ids,
-                       const std::vector<std::string>& labels, const std::string& label_name,
-                       const std::string& id_name);
+/// scores.csv: `sample`, PC1..PCK; one line per sample (its id, then its scores).
+std::string scores_csv(const Eigen::MatrixXd& scores, const std::vector<std::string>& sample_ids);
 /// loadings.tsv: feature, PC1..PCK (shortest round-trip numbers, so reading it back is exact).
 std::string loadings_tsv(const Eigen::MatrixXd& loadings, const std::vector<std::string>& names);
 /// Same, handed to `sink` piece by piece (in order).

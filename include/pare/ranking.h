@@ -21,8 +21,9 @@ const char* criterion_name(Criterion c);
 /// How mutual information is estimated.
 enum class MiEstimator {
   kBinned,  ///< plug-in estimate on equal-frequency bins (SPEC §4), nats
-  kKnn,     ///< nearest-neighbour estimator for a continuous feature against a discrete label
-            ///< (Ross 2014, PLoS ONE 9(2): e87357), nats
+  kKnn,     ///< nearest-neighbour estimator for a feature against a discrete label (Ross 2014,
+            ///< PLoS ONE 9(2): e87357) with the tie rule of Gao, Kannan, Oh & Viswanath (NeurIPS
+            ///< 2017) for discrete-continuous mixtures, nats; no added noise
 };
 
 struct ScoreOptions {
@@ -35,8 +36,8 @@ struct ScoreOptions {
 
 /// Flags of a feature's scores (bits).
 enum ScoreFlag : std::uint8_t {
-  kScoreFewValues = 1,  ///< some class has fewer than 2 observed values: binned and F scores 0,
-                        ///< p-values 1 (the counts chi-square needs only one value per class)
+  kScoreFewValues = 1,  ///< F is undefined: fewer than two classes observed, or no more observed
+                        ///< values than classes: F 0, p 1 (MI and chi-square are still computed)
   kScoreConstant = 2,   ///< zero variance over the observed values: scores 0, p-values 1
   kScoreSeparates = 4,  ///< zero variance inside every class but not overall: F is infinite
 };
@@ -51,6 +52,9 @@ struct FeatureScores {
   std::vector<double> counts, counts_p, counts_q, counts_bonferroni;  ///< when counts_chi2
   std::vector<double> variance, missing_rate;
   std::vector<std::uint8_t> flags;
+  /// Per feature, bit (1 << Criterion) set when that criterion's score could be computed; read it
+  /// through criterion_defined.
+  std::vector<std::uint8_t> defined;
   std::size_t size() const { return feature.size(); }
 };
 
@@ -70,8 +74,10 @@ double chi2_upper_tail(double statistic, double df);
 /// Upper tail of the F distribution (Boost.Math).
 double f_upper_tail(double statistic, double df1, double df2);
 
-/// The nearest-neighbour MI estimate (nats) of continuous `x` against class codes `y`
-/// (0..classes-1), as CHECKS.md §5 states it; points alone in their class are left out.
+/// The nearest-neighbour MI estimate (nats) of `x` against class codes `y` (0..classes-1), k >= 1:
+/// on data without ties the Ross (2014) estimator exactly as CHECKS.md §5 states it; tied values
+/// and tied distances are counted as Gao et al. (2017) count them
+/// (notebooks-free-docs/numerics.md). Points alone in their class are left out.
 double knn_mutual_information(std::span<const double> x, std::span<const int> y, int classes, int k);
 
 /// Benjamini–Hochberg step-up adjusted p-values (q-values), in the order of `p`.
@@ -96,9 +102,20 @@ std::vector<std::size_t> rank_order(const FeatureScores& scores, Criterion crite
 double criterion_score(const FeatureScores& s, Criterion c, std::size_t i);
 double criterion_q(const FeatureScores& s, Criterion c, std::size_t i);
 
-/// ranking.tsv for the positions `order` (rank = position in `order` + 1).
+/// Whether feature i (a position in `s`) could be scored for `c`: false for a constant feature
+/// (every criterion but variance), for f when F is undefined (kScoreFewValues) or the feature holds
+/// an infinite value, for mi and chi2 when its bin x class table has fewer than two non-empty rows
+/// or columns (the kNN MI: fewer than two classes with two observed values, or an infinite value),
+/// for chi2-counts when it was not computed; always true for variance.
+bool criterion_defined(const FeatureScores& s, Criterion c, std::size_t i);
+
+/// ranking.tsv for the positions `order` (rank = position in `order` + 1). `info_names` /
+/// `info` (FeatureTable::feature_info_names / feature_info, [column][feature]) are written as
+/// columns right after `feature`.
 std::string ranking_tsv(const FeatureScores& scores, std::span<const std::size_t> order,
-                        const std::vector<std::string>& feature_names, bool with_counts);
+                        const std::vector<std::string>& feature_names, bool with_counts,
+                        const std::vector<std::string>& info_names = {},
+                        const std::vector<std::vector<std::string>>& info = {});
 
 /// The flags as text, comma-separated (empty when none).
 std::string score_flag_names(std::uint8_t flags);

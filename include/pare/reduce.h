@@ -23,7 +23,7 @@ const char* impute_name(Impute i);
 
 struct ReduceOptions {
   bool missing_filter = true;
-  double max_missing = 0.2;          ///< drop features whose missing rate is above this
+  double drop_missing_above = 0.2;   ///< drop features whose missing rate is above this
   Impute impute = Impute::kMean;
   bool log2 = false;                 ///< log2(x + 1); negative input is an error
   bool scale = false;                ///< z-score the kept features (used by PCA and the output)
@@ -41,6 +41,19 @@ struct ReduceOptions {
   int threads = 0;
   std::int64_t memory_budget = 0;    ///< bytes the pruning's kept set may use (0 = no limit)
 };
+
+/// Checks the option values (ranges, combinations) without any data, so a mistake shows before a
+/// long read. Throws Error(kUsage) naming the option.
+void check_reduce_options(const ReduceOptions& options);
+
+/// Replaces every observed value of `table` by log2(x + 1) (transform_value), as reduce --log2 does
+/// for the features it keeps. Throws Error(kInput) naming the first feature (in file order) with a
+/// negative value.
+void log2_transform(FeatureTable& table, int threads = 0);
+
+/// Throws Error(kInput) when not one feature of `scores` has a defined score for `criterion`
+/// (criterion_defined): such a ranking would only be the input order.
+void require_some_scored(const FeatureScores& scores, Criterion criterion, const std::string& source);
 
 /// What a step did: features in and out, and its wall time.
 struct StepRecord {
@@ -88,8 +101,11 @@ std::string selection_log_tsv(const FeatureTable& table, const Reduction& r);
 /// ranking.tsv of the kept features in final order.
 std::string reduction_ranking_tsv(const FeatureTable& table, const Reduction& r);
 
-/// The kept columns of `table` as delimited text in the table's layout and delimiter, sample ids
-/// and labels kept.
+/// The reduced matrix's file name for a delimiter: reduced.tsv for tab, reduced.csv otherwise.
+const char* reduced_file_name(char delimiter);
+
+/// The kept columns of `table` as delimited text in the table's layout and delimiter: ids and
+/// numbers only (the header's first field is the id column's name; no label column or line).
 std::string reduced_matrix_text(const FeatureTable& table, const std::vector<std::int64_t>& columns,
                                 const std::vector<std::string>& names);
 

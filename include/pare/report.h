@@ -6,6 +6,7 @@
 
 #include <cstdint>  // std::int64_t
 #include <limits>   // std::numeric_limits
+#include <span>     // std::span
 #include <string>   // std::string
 #include <utility>  // std::pair
 #include <vector>   // std::vector
@@ -49,6 +50,8 @@ struct ReportHistogram {
   std::vector<double> values;
   std::vector<char> dropped;  ///< per value: removed by the step (empty: none)
   std::vector<ReportCut> cuts;
+  double level = 0;         ///< a dashed horizontal line at this count (0: none)
+  std::string level_label;  ///< e.g. "expected with no signal"
   std::string dropped_label = "dropped by this filter";
   std::string kept_label = "passed";
   std::string caption;
@@ -75,6 +78,38 @@ struct ReportRanking {
   std::string caption;
 };
 
+/// The ranking criterion's score against rank, over every ranked feature (kept or not), with the
+/// cuts --fdr and --keep make, so a user can choose K.
+struct ReportScoreCurve {
+  std::string column;                    ///< the score's ranking.tsv / selection-log.tsv column
+  std::string q_column;                  ///< the q-value column --fdr filters on, or empty
+  std::string axis;                      ///< y axis label, e.g. "mutual information ... (nats)"
+  std::vector<double> values;            ///< score of every ranked feature, in ranking order
+  std::vector<std::int64_t> kept_ranks;  ///< ranks (1-based positions in `values`) of the kept
+  double fdr = 1;                        ///< --fdr Q (1: no cut)
+  std::int64_t fdr_passed = 0;           ///< ranked features with q <= Q
+  std::int64_t fdr_rank = 0;             ///< rank of the last of them (0: none)
+  std::int64_t keep = 0;                 ///< --keep K (0: no cut)
+  std::int64_t keep_rank = 0;            ///< rank of the K-th kept feature (the last when fewer)
+};
+
+/// One of the leading features, sample by sample.
+struct ReportStrip {
+  std::string name;
+  std::int64_t column = 0;    ///< its index in the table
+  std::vector<float> values;  ///< one per sample of ReportTopFeatures::ids (NaN: not shown)
+};
+
+/// Strip plots of the leading kept features, by class.
+struct ReportTopFeatures {
+  std::vector<std::string> ids;
+  std::vector<std::string> labels;  ///< one per id ("" = no label: not shown), or empty
+  std::string label_name;
+  std::string values_note;  ///< what the values are, a phrase shown as a sentence, e.g.
+                            ///< "values as in reduced.csv (filled, log2(x + 1))"
+  std::vector<ReportStrip> strips;
+};
+
 /// Redundancy: how many dropped features each kept feature stood in for.
 struct ReportRedundancy {
   double max_corr = 0.9;
@@ -91,13 +126,16 @@ struct ReportComponents {
   std::vector<std::vector<double>> scores;  ///< per component, one score per sample analysed
   std::vector<std::size_t> sample_of;  ///< per score row: its index in ReportSamples (empty: same)
   std::string note;                    ///< e.g. which samples are not on the plots
+  bool of_kept = false;  ///< computed on the kept features (add_components), not the screen's
 };
 
 /// The samples: ids, classes, the screen's distances and flags.
 struct ReportSamples {
   std::vector<std::string> ids;
-  std::vector<std::string> labels;  ///< empty: unlabelled
+  std::vector<std::string> labels;  ///< empty: unlabelled; "" = this sample has no label
   std::string label_name;
+  std::string mark_name;           ///< --mark-by COLUMN: the sheet column the plots are also
+  std::vector<std::string> marks;  ///< coloured by, one value per id ("" = missing); empty: none
   std::vector<double> missing_rate;
   bool screened = false;
   std::string rule;           ///< screen_rule() text
@@ -134,7 +172,11 @@ struct ReportData {
   std::vector<ReportStep> steps;
   std::vector<ReportHistogram> histograms;
   ReportRanking ranking;
-  std::string ranking_note;  ///< shown instead of the chart when it has no bars
+  std::string ranking_note;      ///< shown instead of the chart when it has no bars
+  ReportScoreCurve score_curve;  ///< empty values: not drawn
+  ReportHistogram p_values;      ///< the ranking test's p-values (empty values: not drawn)
+  ReportTopFeatures top_features;
+  bool chosen_with_labels = false;  ///< the kept features were ranked against the labels
   ReportRedundancy redundancy;
   bool has_redundancy = false;
   ReportComponents components;
@@ -149,10 +191,31 @@ std::string report_html(const ReportData& data);
 /// always), and the plot says so.
 inline constexpr std::size_t kReportMaxPoints = 2500;
 
-/// Fills the funnel, the missing-rate and variance histograms, the top 30 and the redundancy
-/// groups from a reduction of `table` (whose names and labels are those the reduction saw).
+/// Fills the funnel, the missing-rate and variance histograms, the top 30, the score curve, the
+/// p-value histogram (supervised) and the redundancy groups from a reduction of `table` (whose
+/// names and labels are those the reduction saw).
 void add_reduction(ReportData& data, const FeatureTable& table, const Reduction& reduction,
                    const ReduceOptions& options, bool selection);
+
+/// Fills the top 30 bars, the score curve and the p-value histogram of a ranking: `order_all` is
+/// every position of `scores` in ranking order (rank_order), `kept` the positions kept, in
+/// ranking.tsv order; `fdr` (1: none) and `keep` (0: none) the cuts asked for. add_reduction calls
+/// it for a supervised reduction.
+void add_ranking(ReportData& data, const FeatureTable& table, const FeatureScores& scores,
+                 std::span<const std::size_t> order_all, std::span<const std::size_t> kept,
+                 Criterion criterion, double fdr, std::int64_t keep);
+
+/// Strip plots of the features `columns` (indices into table.values; the first 6 are used), one
+/// dot per sample, grouped by table.labels (samples with label "" left out and counted; one strip
+/// each without labels). The values are copied as they are now, so call it while table.values
+/// holds what reduced.csv holds; `values_note` says what that is.
+void add_top_features(ReportData& data, const FeatureTable& table,
+                      std::span<const std::int64_t> columns, const std::string& values_note);
+
+/// Most features drawn as strip plots, and most dots in each (past it every k-th sample, and the
+/// plot says so; the boxes use every sample).
+inline constexpr std::size_t kReportTopFeatures = 6;
+inline constexpr std::size_t kReportMaxStripPoints = 600;
 
 /// Fills the components part from a projection.
 void add_components(ReportData& data, const Projection& projection, const std::string& source);

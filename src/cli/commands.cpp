@@ -30,12 +30,12 @@ constexpr const char* kUsage =
     "usage: pare COMMAND [options]\n"
     "\n"
     "commands:\n"
-    "  scan DATA   profile a matrix: missingness, variance, flagged features, class balance\n"
-    "  rank DATA   score every feature against the class label and rank them\n"
-    "  reduce DATA run the whole reduction; write the reduced matrix, a log and a plan\n"
-    "  project DATA  truncated PCA / SVD of every feature\n"
-    "  apply PLAN DATA  replay a saved reduction (and projection) on new samples\n"
-    "  demo        generate the greenhouse drought-trial demo data and scan it\n"
+    "  scan DATA         profile a matrix: missingness, variance, flagged features, class balance\n"
+    "  rank DATA         score every feature against the class label and rank them\n"
+    "  reduce DATA       run the whole reduction; write the reduced matrix, a log and a plan\n"
+    "  project DATA      truncated PCA / SVD of every feature\n"
+    "  apply PLAN DATA   replay a saved reduction (and projection) on new samples\n"
+    "  demo              write an invented drought-trial data set, then scan and reduce it\n"
     "\n"
     "'pare COMMAND --help' lists a command's options; 'pare --version' prints the version.\n";
 
@@ -64,13 +64,23 @@ void print_scan_summary(std::ostream& out, const FeatureTable& t, const Profile&
       << percent(p.options.mostly_missing) << "), " << thousands(p.n_all_missing)
       << " all missing, " << thousands(p.n_duplicate_name) << " with a duplicate name\n";
   if (!p.classes.classes.empty()) {
+    // A sample without a label has the label "" (left out of supervised steps; counted apart).
+    std::int64_t unlabelled = 0, lo = 0, hi = 0, named = 0;
     out << "  classes    " << (t.label_name.empty() ? "label" : t.label_name) << ":";
-    for (std::size_t k = 0; k < p.classes.classes.size(); ++k)
-      out << (k == 0 ? " " : ", ") << p.classes.classes[k] << " " << thousands(p.classes.counts[k]);
-    const auto [lo, hi] = std::minmax_element(p.classes.counts.begin(), p.classes.counts.end());
-    out << " (majority:minority " << fixed(static_cast<double>(*hi) / static_cast<double>(*lo), 1)
-        << ":1)";
-    if (p.classes.classes.size() < 2) out << " - only one class: supervised steps need two";
+    for (std::size_t k = 0; k < p.classes.classes.size(); ++k) {
+      const std::int64_t count = p.classes.counts[k];
+      if (p.classes.classes[k].empty()) {
+        unlabelled = count;
+        continue;
+      }
+      out << (named++ == 0 ? " " : ", ") << p.classes.classes[k] << " " << thousands(count);
+      lo = lo == 0 ? count : std::min(lo, count);
+      hi = std::max(hi, count);
+    }
+    if (lo > 0)
+      out << " (majority:minority " << fixed(static_cast<double>(hi) / static_cast<double>(lo), 1) << ":1)";
+    if (unlabelled > 0) out << "; " << thousands(unlabelled) << " without a label";
+    if (named < 2) out << " - fewer than two classes: supervised steps need two";
     out << "\n";
   } else {
     out << "  classes    no labels given (--label COLUMN or --labels SHEET.csv)\n";
@@ -86,7 +96,8 @@ int scan_and_report(const InputOptions& input, const CommonOptions& common, bool
   // Hash the input (for the report's run record) while it is parsed.
   auto data_hash = std::async(std::launch::async, [&] { return internal::sha256_file(input.data); });
   const auto start = std::chrono::steady_clock::now();
-  const FeatureTable table = load_table(input, common);
+  const LoadedData loaded = load_data(input, common, false);
+  const FeatureTable& table = loaded.table;
   const double read_seconds = seconds_since(start);
   ProfileOptions options;
   options.threads = common.threads;
@@ -113,17 +124,19 @@ int scan_and_report(const InputOptions& input, const CommonOptions& common, bool
                           " all missing; scan removes nothing.");
   add_profile(report, table, profile);
   add_screen(report, screen, table.sample_ids, table.labels, table.label_name, {});
+  if (!loaded.marks.empty()) {
+    report.sample_info.mark_name = input.mark_by;
+    report.sample_info.marks = loaded.marks;
+  }
   ReportRecord& record = report.record;
   record.version = PARE_VERSION;
   record.command_line = command_line;
   record.inputs.push_back({"data", input.data, data_hash.get()});
   if (!input.labels.empty()) {
-    std::string sheet = input.labels;
-    std::error_code ec;
-    if (const auto colon = sheet.rfind(':'); !std::filesystem::exists(sheet, ec) && colon != std::string::npos && colon > 0)
-      sheet.resize(colon);
+    const std::string sheet = sheet_path_of(input.labels);
     record.inputs.push_back({"sample sheet (" + table.label_name + ")", sheet, internal::sha256_file(sheet)});
   }
+  if (!input.samples.empty()) record.inputs.push_back({"sample list", input.samples, loaded.sample_list_sha256});
   const ReadOptions read = read_options_from(input, common);
   std::string na;
   for (std::size_t i = 0; i < read.na_tokens.size(); ++i) na += (i ? "," : "") + read.na_tokens[i];
@@ -146,7 +159,8 @@ int scan_and_report(const InputOptions& input, const CommonOptions& common, bool
   OutputFile profile_file(path), samples_file(join_path(common.out, "samples.tsv")),
       report_file(join_path(common.out, "report.html"));
   profile_file.write(profile_tsv(table, profile));
-  samples_file.write(samples_tsv(screen, table.sample_ids, table.labels, table.label_name, {}));
+  samples_file.write(
+      samples_tsv(screen, table.sample_ids, table.labels, table.label_name, {}, table.sample_info_names, table.sample_info));
   report_file.write(report_html(report));
   profile_file.commit();
   samples_file.commit();
@@ -168,12 +182,14 @@ int command_scan(const std::vector<std::string>& args, std::ostream& out) {
       "pare scan DATA [options]\n\n"
       "Profiles a matrix and writes profile.tsv (one line per feature: n, missing, missing_rate,\n"
       "mean, variance, sd, min, max, flags), samples.tsv (per sample: missing rate, outlier distance\n"
-      "and flag) and report.html (plots; open it in a browser).\n\noptions");
-  desc.add_options()("data", po::value(&input.data)->required(), "the data file (CSV/TSV, may be gzip)")
-      ("log2", po::bool_switch(&log2), "screen samples for outliers on log2(x + 1), as reduce --log2 does");
+      "and flag) and report.html (plots; open it in a browser)",
+      100, 50);
+  desc.add_options()("log2", po::bool_switch(&log2), "screen samples for outliers on log2(x + 1), as reduce --log2 does");
   add_input_options(desc, input);
+  add_sample_options(desc, input, false);
   add_common_options(desc, common, ".");
-  if (!parse_command_line(args, desc, positionals({"data"}), out)) return 0;
+  if (!parse_command_line(args, desc, {{"data", &input.data}}, out)) return 0;
+  check_input_options(input, common);
   std::vector<std::string> command_line{"pare", "scan"};
   command_line.insert(command_line.end(), args.begin(), args.end());
   return scan_and_report(input, common, log2, command_line, out);
@@ -183,9 +199,12 @@ int command_demo(const std::vector<std::string>& args, std::ostream& out) {
   CommonOptions common;
   po::options_description desc(
       "pare demo [options]\n\n"
-      "Generates the greenhouse drought-trial scenario (240 seedlings, 20,000 leaf transcripts,\n"
-      "planted structure recorded in greenhouse-truth.tsv), scans it, reduces it to 200 features\n"
-      "and reports how much of the planted structure was recovered.\n\noptions");
+      "Writes an invented greenhouse drought trial (240 seedlings, 20,000 leaf transcripts, two\n"
+      "batches; the planted role of every transcript in greenhouse-truth.tsv), then runs pare on it\n"
+      "as a user would: scan, then reduce (--log2 --max-corr 0.9 --keep 200 --components 3\n"
+      "--mark-by batch) into DIR/reduce, and reports how much of the planted structure was\n"
+      "recovered. Open DIR/reduce/report.html afterwards",
+      100, 50);
   add_common_options(desc, common, "pare-demo");
   if (!parse_command_line(args, desc, {}, out)) return 0;
   const DemoFiles files = write_demo(common.out, common.seed);
@@ -214,54 +233,117 @@ int command_rank(const std::vector<std::string>& args, std::ostream& out) {
   std::string rank_by = "mi", estimator = "binned";
   double fdr = 1.0;
   std::int64_t keep = 0;
+  bool log2 = false;
   ScoreOptions score;
   po::options_description desc(
       "pare rank DATA (--label COLUMN | --labels SHEET[:COLUMN]) [options]\n\n"
       "Scores every feature against the class label (binned mutual information, chi-square test,\n"
-      "one-way ANOVA F, Benjamini-Hochberg q-values) and writes ranking.tsv, best first.\n\noptions");
-  desc.add_options()("data", po::value(&input.data)->required(), "the data file (CSV/TSV, may be gzip)")
-      ("rank-by", po::value(&rank_by)->default_value("mi"), "mi, chi2, chi2-counts, f or variance")
-      ("fdr", po::value(&fdr), "keep features whose q-value for the ranking test is at most Q")
-      ("keep", po::value(&keep)->default_value(0), "keep the first K features (0 = all)")
-      ("bins", po::value(&score.bins)->default_value(10), "equal-frequency bins for mi and chi2")
-      ("mi-estimator", po::value(&estimator)->default_value("binned"), "binned or knn")
-      ("neighbors", po::value(&score.neighbors)->default_value(3), "k of the knn estimator");
+      "one-way ANOVA F, Benjamini-Hochberg q-values) and writes ranking.tsv, best first, and\n"
+      "report.html (plots; open it in a browser)",
+      100, 50);
+  desc.add_options()
+      ("log2", po::bool_switch(&log2), "score log2(x + 1) of the values, as reduce --log2 does")
+      ("rank-by", po::value(&rank_by)->default_value("mi")->value_name("CRITERION"),
+       "mi, chi2, chi2-counts, f or variance")
+      ("fdr", po::value(&fdr)->value_name("Q"), "keep features whose q-value for the ranking test is at most Q")
+      ("keep", po::value(&keep)->default_value(0)->value_name("K"), "keep the first K features (0 = all)")
+      ("bins", po::value(&score.bins)->default_value(10)->value_name("B"), "equal-frequency bins for mi and chi2")
+      ("mi-estimator", po::value(&estimator)->default_value("binned")->value_name("E"), "binned or knn")
+      ("neighbors", po::value(&score.neighbors)->default_value(3)->value_name("k"), "k of the knn estimator");
   add_input_options(desc, input);
+  add_sample_options(desc, input, true);
   add_common_options(desc, common, ".");
-  if (!parse_command_line(args, desc, positionals({"data"}), out)) return 0;
+  if (!parse_command_line(args, desc, {{"data", &input.data}}, out)) return 0;
+  // Every option is checked before the data is read (a large file takes minutes).
   const Criterion criterion = parse_criterion(rank_by);
   if (estimator == "knn") score.mi = MiEstimator::kKnn;
   else if (estimator != "binned") throw_usage_error("--mi-estimator " + estimator + " is not binned or knn");
   if (!(fdr > 0 && fdr <= 1)) throw_usage_error("--fdr must be in (0, 1]");
   if (keep < 0) throw_usage_error("--keep must be 0 (all) or more");
+  if (score.bins < 2) throw_usage_error("--bins must be 2 or more");
+  if (score.neighbors < 1) throw_usage_error("--neighbors must be 1 or more");
   if (input.label.empty() && input.labels.empty())
     throw_usage_error("rank needs class labels", "give --label COLUMN or --labels SHEET.csv[:COLUMN]");
+  check_input_options(input, common);
   score.counts_chi2 = criterion == Criterion::kChi2Counts;
   score.threads = common.threads;
 
-  const FeatureTable table = load_table(input, common);
+  auto data_hash = std::async(std::launch::async, [&] { return internal::sha256_file(input.data); });
+  const auto start = std::chrono::steady_clock::now();
+  LoadedData loaded = load_data(input, common, true);
+  FeatureTable& table = loaded.table;
   require_two_classes(table, input);
+  if (log2) log2_transform(table, common.threads);
+  const double read_seconds = seconds_since(start);
+  const auto start_scoring = std::chrono::steady_clock::now();
   const ClassCodes classes = encode_classes(table.labels);
   std::vector<std::int64_t> all(static_cast<std::size_t>(table.n_features()));
   for (std::size_t j = 0; j < all.size(); ++j) all[j] = static_cast<std::int64_t>(j);
   const FeatureScores scores = score_features(table.values, all, classes, score);
+  require_some_scored(scores, criterion, table.source);
+  const std::vector<std::size_t> ranked = rank_order(scores, criterion);
   std::vector<std::size_t> order;
-  for (std::size_t i : rank_order(scores, criterion)) {
+  std::int64_t passing = 0;  // features with q <= fdr
+  for (std::size_t i : ranked) {
     if (criterion != Criterion::kVariance && criterion_q(scores, criterion, i) > fdr) continue;
-    if (keep > 0 && static_cast<std::int64_t>(order.size()) >= keep) break;
+    ++passing;
+    if (keep > 0 && static_cast<std::int64_t>(order.size()) >= keep) continue;
     order.push_back(i);
   }
+  const double scoring_seconds = seconds_since(start_scoring);
   if (order.empty())
     throw Error(ErrorKind::kInput, table.source + ": every feature was filtered out: no q-value is at most " +
                                        short_number(fdr) + " (raise --fdr)");
+  const std::string transform = log2 ? "log2(x + 1)" : "none";
+
+  ReportData report;
+  report.command = "rank";
+  report.title = "pare rank: " + std::filesystem::path(input.data).filename().string();
+  report.samples = table.n_samples();
+  report.features = table.n_features();
+  report.glance.push_back("Scored " + thousands(table.n_features()) + " features against " + table.label_name +
+                          " (" + std::to_string(classes.classes.size()) + " classes, " + thousands(table.n_samples()) +
+                          " samples) on " + (log2 ? "log2(x + 1) of the values" : "the values as read") +
+                          "; ranked by " + criterion_name(criterion) + ".");
+  add_ranking(report, table, scores, ranked, order, criterion, fdr, keep);
+  {
+    std::vector<std::int64_t> top;
+    for (std::size_t r = 0; r < order.size() && r < 6; ++r) top.push_back(scores.feature[order[r]]);
+    add_top_features(report, table, top, log2 ? "log2(x + 1) of the observed values" : "observed values");
+  }
+  ReportRecord& record = report.record;
+  record.version = PARE_VERSION;
+  record.command_line = {"pare", "rank"};
+  record.command_line.insert(record.command_line.end(), args.begin(), args.end());
+  record.inputs.push_back({"data", input.data, data_hash.get()});
+  if (!input.labels.empty())
+    record.inputs.push_back({"sample sheet (" + table.label_name + ")", sheet_path_of(input.labels),
+                             internal::sha256_file(sheet_path_of(input.labels))});
+  if (!input.samples.empty()) record.inputs.push_back({"sample list", input.samples, loaded.sample_list_sha256});
+  record.parameters = {{"transform", transform},
+                       {"rank_by", criterion_name(criterion)},
+                       {"fdr", short_number(fdr)},
+                       {"keep", std::to_string(keep)},
+                       {"bins", std::to_string(score.bins)},
+                       {"mi_estimator", estimator},
+                       {"neighbors", std::to_string(score.neighbors)},
+                       {"min_class_size", std::to_string(input.min_class_size)}};
+  record.timings = {{"read", read_seconds}, {"scoring", scoring_seconds}};
+  record.outputs = {"ranking.tsv", "report.html"};
+
   ensure_directory(common.out);
   const std::string path = join_path(common.out, "ranking.tsv");
-  write_file_atomically(path, ranking_tsv(scores, order, table.feature_names, score.counts_chi2));
+  OutputFile ranking_file(path), report_file(join_path(common.out, "report.html"));
+  ranking_file.write(ranking_tsv(scores, order, table.feature_names, score.counts_chi2, table.feature_info_names, table.feature_info));
+  report_file.write(report_html(report));
+  ranking_file.commit();
+  report_file.commit();
   if (common.quiet) return 0;
 
   out << "pare rank: " << table.source << " - " << thousands(table.n_features()) << " features, "
       << thousands(table.n_samples()) << " samples, " << classes.classes.size() << " classes, ranked by "
-      << criterion_name(criterion) << "\n";
+      << criterion_name(criterion) << ", transform " << transform << "\n";
+  print_left_out(out, loaded.left_out, loaded.samples_read, table.n_samples(), input.samples);
   std::vector<std::vector<std::string>> rows;
   rows.push_back({"rank", "feature", "mi", "chi2", "chi2_q", "f", "f_q"});
   if (score.counts_chi2) rows.front().insert(rows.front().end(), {"chi2_counts", "counts_q"});
@@ -277,12 +359,20 @@ int command_rank(const std::vector<std::string>& args, std::ostream& out) {
     rows.push_back(std::move(row));
   }
   print_table(out, rows, 2);
-  std::int64_t flagged = 0;
-  for (auto f : scores.flags) flagged += (f & (kScoreFewValues | kScoreConstant)) != 0;
+  std::int64_t constant = 0, undefined = 0;
+  for (std::size_t i = 0; i < scores.size(); ++i) {
+    if (scores.flags[i] & kScoreConstant) ++constant;
+    else if (!criterion_defined(scores, criterion, i)) ++undefined;
+  }
   out << "  kept " << thousands(static_cast<std::int64_t>(order.size())) << " of " << thousands(table.n_features());
-  if (fdr < 1) out << " (q <= " << short_number(fdr) << ")";
-  out << "; " << thousands(flagged) << " constant or too sparse to score (scores 0, p 1)\n";
-  out << "  wrote " << path << "\n";
+  if (fdr < 1) out << " (" << thousands(passing) << " with q <= " << short_number(fdr) << ")";
+  out << "; " << thousands(constant) << " constant (scores 0, p 1)";
+  if (undefined > 0) out << ", " << thousands(undefined) << " without a defined " << criterion_name(criterion) << " score";
+  out << "\n";
+  if (keep > 0 && static_cast<std::int64_t>(order.size()) < keep)
+    out << "  note: --keep " << keep << " asked for more than the " << thousands(static_cast<std::int64_t>(order.size()))
+        << " features that pass" << (fdr < 1 ? " --fdr " + short_number(fdr) : std::string()) << "\n";
+  out << "  wrote " << path << ", " << join_path(common.out, "report.html") << "\n";
   return 0;
 }
 
@@ -304,6 +394,7 @@ int run(const std::vector<std::string>& args, std::ostream& out, std::ostream& e
       out << kUsage;
       return 0;
     }
+    set_warning_stream(&err);
     if (command == "scan") return command_scan(rest, out);
     if (command == "rank") return command_rank(rest, out);
     if (command == "reduce") return command_reduce(rest, out);

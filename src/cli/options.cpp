@@ -1,9 +1,11 @@
 #include "cli/options.h"
 
+#include <algorithm>   // std::find
 #include <cctype>      // std::toupper
 #include <filesystem>  // std::filesystem::is_directory
 #include <string>      // std::stod
 
+#include "internal/sha256.h"
 #include "pare/error.h"
 
 namespace pare::cli {
@@ -12,10 +14,10 @@ void add_common_options(po::options_description& desc, CommonOptions& common,
                         const std::string& default_out) {
   common.out = default_out;
   desc.add_options()
-      ("out", po::value(&common.out)->default_value(default_out), "folder for the output files")
-      ("threads", po::value(&common.threads)->default_value(0),
+      ("out", po::value(&common.out)->default_value(default_out)->value_name("DIR"), "folder for the output files")
+      ("threads", po::value(&common.threads)->default_value(0)->value_name("N"),
        "worker threads (0 = all cores); results do not depend on it")
-      ("seed", po::value(&common.seed)->default_value(1), "seed for anything random")
+      ("seed", po::value(&common.seed)->default_value(1)->value_name("N"), "seed for anything random")
       ("quiet", po::bool_switch(&common.quiet), "print nothing but errors")
       ("raw-names", po::bool_switch()->notifier([](bool raw) { set_formula_guard(!raw); }),
        "write names exactly, even one a spreadsheet would run as a formula (by default a name "
@@ -25,23 +27,42 @@ void add_common_options(po::options_description& desc, CommonOptions& common,
 
 void add_input_options(po::options_description& desc, InputOptions& input) {
   desc.add_options()
-      ("layout", po::value(&input.layout)->default_value("rows=samples"),
+      ("layout", po::value(&input.layout)->default_value("rows=samples")->value_name("LAYOUT"),
        "rows=samples (a sample per line) or rows=features (a feature per line)")
-      ("delimiter", po::value(&input.delimiter),
+      ("delimiter", po::value(&input.delimiter)->value_name("D"),
        "field separator: comma, tab or semicolon (default: detected from the header)")
-      ("label", po::value(&input.label),
+      ("label", po::value(&input.label)->value_name("COLUMN"),
        "column (rows=samples) or line (rows=features) holding the class labels")
-      ("labels", po::value(&input.labels),
-       "sample sheet FILE[:COLUMN]: sample ids, then labels (default: its second column)")
+      ("labels", po::value(&input.labels)->value_name("SHEET[:COLUMN]"),
+       "sample sheet: sample ids, then labels in COLUMN (default: its second column); samples "
+       "whose label is empty or NA are left out of supervised steps")
       ("na",
-       po::value(&input.na)->notifier([&input](const std::string&) { input.na_given = true; }),
+       po::value(&input.na)->value_name("TOKENS")->notifier([&input](const std::string&) { input.na_given = true; }),
        "comma-separated missing-value tokens (default: empty,NA,NaN,nan,null,?)")
       ("allow-inf", po::bool_switch(&input.allow_inf), "accept inf and -inf as values")
-      ("memory", po::value(&input.memory),
+      ("memory", po::value(&input.memory)->value_name("SIZE"),
        "memory budget, e.g. 4G or 500M: a larger matrix is kept in a cache file on disk and "
        "worked through in column blocks (results are identical)")
-      ("cache-dir", po::value(&input.cache_dir),
+      ("cache-dir", po::value(&input.cache_dir)->value_name("DIR"),
        "folder for that cache file (default: the output folder if it exists, else $TMPDIR)");
+}
+
+void add_sample_options(po::options_description& desc, InputOptions& input, bool supervised) {
+  desc.add_options()
+      ("samples", po::value(&input.samples)->value_name("FILE"),
+       "use only these samples: one sample id per line, no header, # lines ignored")
+      ("feature-info", po::value(&input.feature_info)->value_name("COLUMNS"),
+       "rows=features: comma-separated header names of text columns describing the features "
+       "(symbol, chromosome), carried into ranking.tsv and selection-log.tsv")
+      ("sample-info", po::value(&input.sample_info)->value_name("COLUMNS"),
+       "rows=samples: comma-separated header names of text columns describing the samples "
+       "(batch, site), carried into samples.tsv, never scored")
+      ("mark-by", po::value(&input.mark_by)->value_name("COLUMN"),
+       "colour the report's sample plots by this column of the sample sheet (or --sample-info "
+       "column) as well as by the label, e.g. batch");
+  if (supervised)
+    desc.add_options()("min-class-size", po::value(&input.min_class_size)->default_value(0)->value_name("N"),
+                       "leave out the samples of classes with fewer than N samples (0 = keep every class)");
 }
 
 std::int64_t parse_size(const std::string& text, const char* option) {
@@ -90,11 +111,22 @@ std::string safe_message(const po::error& e, const std::vector<std::string>& arg
 }  // namespace
 
 bool parse_command_line(const std::vector<std::string>& args, const po::options_description& desc,
-                        const po::positional_options_description& positional, std::ostream& out,
-                        po::variables_map* values) {
+                        const Positionals& positional, std::ostream& out, po::variables_map* values) {
+  // The positional arguments are options of their own, hidden from --help (the usage line names
+  // them), each required.
+  po::options_description all, hidden;
+  po::positional_options_description order;
+  for (const auto& [name, target] : positional) {
+    hidden.add_options()(name, po::value(target)->required(), "");
+    order.add(name, 1);
+  }
+  all.add(desc).add(hidden);
   po::variables_map vm;
   try {
-    po::store(po::command_line_parser(args).options(desc).positional(positional).run(), vm);
+    // Long options are never abbreviated: Boost would otherwise take --max-cor for --max-corr,
+    // and a later option sharing the prefix would silently change what a script means.
+    const int style = po::command_line_style::default_style & ~po::command_line_style::allow_guessing;
+    po::store(po::command_line_parser(args).options(all).positional(order).style(style).run(), vm);
     if (vm.count("help")) {
       out << desc;
       return false;
@@ -106,16 +138,12 @@ bool parse_command_line(const std::vector<std::string>& args, const po::options_
     if (name == "--data") throw_usage_error("the data file is missing", "give it as the first argument; see --help");
     if (name == "--plan") throw_usage_error("the plan file is missing", "pare apply PLAN.json NEWDATA; see --help");
     throw_usage_error(safe_message(e, args), "see --help");
+  } catch (const po::too_many_positional_options_error&) {
+    throw_usage_error("too many file arguments", "options start with --; see --help");
   } catch (const po::error& e) {
     throw_usage_error(safe_message(e, args), "see --help");
   }
   return true;
-}
-
-po::positional_options_description positionals(std::initializer_list<const char*> names) {
-  po::positional_options_description positional;
-  for (const char* name : names) positional.add(name, 1);
-  return positional;
 }
 
 namespace {
@@ -143,6 +171,13 @@ std::vector<std::string> parse_na(const std::string& text) {
   return tokens;
 }
 
+std::vector<std::string> split_names(const std::string& text) {
+  std::vector<std::string> names;
+  if (text.empty()) return names;
+  for (auto& name : parse_na(text)) names.push_back(std::move(name));
+  return names;
+}
+
 }  // namespace
 
 ReadOptions read_options_from(const InputOptions& input, const CommonOptions& common) {
@@ -162,6 +197,15 @@ ReadOptions read_options_from(const InputOptions& input, const CommonOptions& co
   if (!input.label.empty() && !input.labels.empty())
     throw_usage_error("give --label or --labels, not both");
   r.label_column = input.label;
+  r.label_optional = input.label_optional;
+  r.feature_info = split_names(input.feature_info);
+  r.sample_info = split_names(input.sample_info);
+  if (!r.feature_info.empty() && r.layout != Layout::kRowsAreFeatures)
+    throw_usage_error("--feature-info is for --layout rows=features (text columns beside each feature's values)",
+                      "with rows=samples, text columns describe samples: --sample-info COLUMNS");
+  if (!r.sample_info.empty() && r.layout != Layout::kRowsAreSamples)
+    throw_usage_error("--sample-info is for --layout rows=samples (text columns beside each sample's values)",
+                      "with rows=features, per-sample facts go in a sample sheet (--labels SHEET, --mark-by COLUMN)");
   if (!input.memory.empty()) {
     r.memory.bytes = parse_size(input.memory, "--memory");
     r.memory.cache_dir = input.cache_dir;
@@ -175,28 +219,116 @@ ReadOptions read_options_from(const InputOptions& input, const CommonOptions& co
   return r;
 }
 
+void check_input_options(const InputOptions& input, const CommonOptions& common) {
+  const ReadOptions read = read_options_from(input, common);
+  if (input.min_class_size < 0) throw_usage_error("--min-class-size must be 0 (keep every class) or more");
+  if (!input.mark_by.empty() && input.labels.empty() &&
+      std::find(read.sample_info.begin(), read.sample_info.end(), input.mark_by) == read.sample_info.end())
+    throw_usage_error("--mark-by " + input.mark_by + " needs a sample sheet with that column (--labels SHEET) or, "
+                      "with rows=samples, --sample-info " + input.mark_by);
+}
+
+std::string sheet_path_of(const std::string& spec) {
+  std::error_code ec;
+  if (std::filesystem::exists(spec, ec)) return spec;
+  const auto colon = spec.rfind(':');
+  return colon == std::string::npos || colon == 0 ? spec : spec.substr(0, colon);
+}
+
+namespace {
+std::ostream* warning_stream = nullptr;
+}
+
+void set_warning_stream(std::ostream* err) { warning_stream = err; }
+
+void warn(const CommonOptions& common, const std::string& what) {
+  if (!common.quiet && warning_stream != nullptr) *warning_stream << "pare: warning: " << what << "\n";
+}
+
 void require_two_classes(const FeatureTable& table, const InputOptions& input) {
   const ClassCodes classes = encode_classes(table.labels);
   if (classes.classes.size() >= 2) return;
-  std::string source = input.data;
-  if (!input.labels.empty()) {
-    const auto colon = input.labels.rfind(':');
-    source = colon == std::string::npos || colon == 0 ? input.labels : input.labels.substr(0, colon);
-  }
+  const std::string source = input.labels.empty() ? input.data : sheet_path_of(input.labels);
   throw_input_error({source}, "the labels (" + (table.label_name.empty() ? std::string("label") : table.label_name) +
-                                  ") have one class, " + (classes.classes.empty() ? std::string("none") : classes.classes[0]) +
-                                  "; scoring against a label needs at least two",
+                                  ") have " + (classes.classes.empty() ? std::string("no class") : "one class, " + classes.classes[0]) +
+                                  " among the samples used; scoring against a label needs at least two",
                     "check the label column, or leave out the labels to rank by variance");
 }
 
-FeatureTable load_table(const InputOptions& input, const CommonOptions& common) {
+namespace {
+
+// Reads the data (and the sheet, first: its mistakes show before a long read) and keeps the
+// samples of --samples. The sheet is returned for --mark-by.
+FeatureTable read_and_restrict(const InputOptions& input, const CommonOptions& common, SampleSheet& sheet,
+                               LoadedData* loaded) {
+  check_input_options(input, common);
   const ReadOptions options = read_options_from(input, common);
-  // The sheet is small: read it first so its mistakes show before a long read of the data.
-  SampleSheet sheet;
-  if (!input.labels.empty()) sheet = read_sample_sheet(input.labels);
+  SampleList list;
+  if (!input.samples.empty()) list = read_sample_list(input.samples);
+  if (!input.labels.empty()) {
+    sheet = read_sample_sheet(input.labels);
+    // A --mark-by column that is not a --sample-info column must be in the sheet: say so now.
+    if (!input.mark_by.empty() &&
+        std::find(options.sample_info.begin(), options.sample_info.end(), input.mark_by) == options.sample_info.end())
+      (void)sheet_column_values(sheet, input.mark_by, {});
+  }
   FeatureTable table = read_table(input.data, options);
+  if (loaded) loaded->samples_read = table.n_samples();
+  if (!input.samples.empty()) restrict_to_list(table, list, options.memory);
   if (!input.labels.empty()) attach_labels(table, sheet);
   return table;
+}
+
+}  // namespace
+
+FeatureTable load_table(const InputOptions& input, const CommonOptions& common) {
+  SampleSheet sheet;
+  return read_and_restrict(input, common, sheet, nullptr);
+}
+
+LoadedData load_data(const InputOptions& input, const CommonOptions& common, bool supervised) {
+  LoadedData loaded;
+  SampleSheet sheet;
+  loaded.table = read_and_restrict(input, common, sheet, &loaded);
+  if (!input.samples.empty()) loaded.sample_list_sha256 = internal::sha256_file(input.samples);
+  FeatureTable& table = loaded.table;
+  if (supervised && table.has_labels()) {
+    const ReadOptions read = read_options_from(input, common);
+    loaded.left_out = leave_out_samples(table, input.min_class_size, read.memory);
+    const SamplesLeftOut& out = loaded.left_out;
+    if (!out.unlabelled.empty())
+      warn(common, std::to_string(out.unlabelled.size()) + " sample" + (out.unlabelled.size() == 1 ? "" : "s") +
+                       " without a label left out (" + out.unlabelled.front() +
+                       (out.unlabelled.size() > 1 ? ", ..." : "") + "; plan.json lists them)");
+    if (!out.small_class.empty()) {
+      std::string classes;
+      for (const auto& c : out.small_classes) classes += (classes.empty() ? "" : ", ") + c;
+      warn(common, std::to_string(out.small_class.size()) + " samples of classes under --min-class-size " +
+                       std::to_string(input.min_class_size) + " left out: " + classes);
+    }
+    if (!table.has_labels() || table.n_samples() == 0)
+      throw_input_error({input.labels.empty() ? input.data : sheet_path_of(input.labels)},
+                        "no sample is left with a label", "check the label column and --min-class-size");
+    const auto rare = rare_classes(table, 3);
+    if (!rare.empty()) {
+      std::string names;
+      for (std::size_t k = 0; k < rare.size() && k < 10; ++k)
+        names += (k ? ", " : "") + rare[k].first + " (" + std::to_string(rare[k].second) + ")";
+      if (rare.size() > 10) names += ", ...";
+      warn(common, "class" + std::string(rare.size() == 1 ? " " : "es ") + names + " ha" +
+                       (rare.size() == 1 ? "s" : "ve") + " fewer than 3 samples: scores are computed, but say little "
+                       "about such a class (--min-class-size 3 leaves them out)");
+    }
+  }
+  if (!input.mark_by.empty()) {
+    const ReadOptions read = read_options_from(input, common);
+    const auto info = std::find(table.sample_info_names.begin(), table.sample_info_names.end(), input.mark_by);
+    if (info != table.sample_info_names.end())
+      loaded.marks = table.sample_info[static_cast<std::size_t>(info - table.sample_info_names.begin())];
+    else
+      loaded.marks = sheet_column_values(sheet, input.mark_by, table.sample_ids);
+  }
+  return loaded;
 }
 
 }  // namespace pare::cli

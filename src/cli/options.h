@@ -4,12 +4,13 @@
 #include <boost/program_options.hpp>
 
 #include <cstdint>           // std::int64_t, std::uint64_t
-#include <initializer_list>  // std::initializer_list
 #include <ostream>           // std::ostream
 #include <string>   // std::string
+#include <utility>  // std::pair
 #include <vector>   // std::vector
 
 #include "pare/io.h"
+#include "pare/samples.h"
 
 namespace pare::cli {
 
@@ -35,6 +36,22 @@ struct InputOptions {
   bool allow_inf = false;
   std::string memory;     ///< --memory SIZE, empty for no budget
   std::string cache_dir;  ///< --cache-dir
+  std::string samples;    ///< --samples FILE: only these sample ids
+  std::string feature_info;  ///< --feature-info COLUMNS (comma-separated)
+  std::string sample_info;   ///< --sample-info COLUMNS (comma-separated)
+  std::string mark_by;       ///< --mark-by COLUMN (report colours)
+  std::int64_t min_class_size = 0;  ///< --min-class-size N (supervised commands)
+  bool label_optional = false;      ///< a --label the file lacks means no labels (apply)
+};
+
+/// A data file as loaded for a command: the table restricted to the chosen samples, and what was
+/// left out on the way.
+struct LoadedData {
+  FeatureTable table;
+  std::int64_t samples_read = 0;      ///< samples in the file
+  std::string sample_list_sha256;     ///< of --samples FILE, when given
+  SamplesLeftOut left_out;            ///< unlabelled / small classes (supervised commands)
+  std::vector<std::string> marks;     ///< --mark-by values, one per sample of `table` (or empty)
 };
 
 /// Parses a size such as 500M, 2G, 1.5GiB or 800000000 (bytes; K, M, G, T are powers of 1024).
@@ -44,15 +61,15 @@ void add_common_options(po::options_description& desc, CommonOptions& common,
                         const std::string& default_out);
 void add_input_options(po::options_description& desc, InputOptions& input);
 
-/// Parses `args` (the words after the command name). On --help prints the help to `out` and
+/// The positional arguments of a command, in order: name (for messages) and where its value goes.
+using Positionals = std::vector<std::pair<const char*, std::string*>>;
+
+/// Parses `args` (the words after the command name) against `desc` and the positional arguments,
+/// each required. Long options must be written in full. On --help prints `desc` to `out` and
 /// returns false. Throws Error(kUsage) on an unknown option or a bad value. `values`, when given,
 /// receives the parsed map (to tell given options from defaults).
 bool parse_command_line(const std::vector<std::string>& args, const po::options_description& desc,
-                        const po::positional_options_description& positional, std::ostream& out,
-                        po::variables_map* values = nullptr);
-
-/// The positional arguments `names`, one each, in order (e.g. {"data"} or {"plan", "data"}).
-po::positional_options_description positionals(std::initializer_list<const char*> names);
+                        const Positionals& positional, std::ostream& out, po::variables_map* values = nullptr);
 
 /// Checks and converts the shared options: --threads >= 1 when given, --layout, --delimiter, --na,
 /// and that --label and --labels are not both given.
@@ -61,7 +78,26 @@ ReadOptions read_options_from(const InputOptions& input, const CommonOptions& co
 /// Throws Error(kInput), naming the file the labels came from, when they hold fewer than 2 classes.
 void require_two_classes(const FeatureTable& table, const InputOptions& input);
 
-/// Reads the data file and attaches labels from --labels when given.
+/// Reads the data file, attaches labels from --labels when given and keeps the --samples.
 FeatureTable load_table(const InputOptions& input, const CommonOptions& common);
+
+/// load_table, then for a supervised command (`supervised`) leaves out the samples without a label
+/// and those of classes under --min-class-size, and warns (on the warning stream, unless quiet)
+/// about classes of fewer than 3 samples; collects the --mark-by values.
+LoadedData load_data(const InputOptions& input, const CommonOptions& common, bool supervised);
+
+/// Checks the options of InputOptions that need no file: layout, delimiter, --na, --threads,
+/// --memory, --min-class-size, and which options go together. Called before any data is read.
+void check_input_options(const InputOptions& input, const CommonOptions& common);
+
+/// The path of a sample sheet given as FILE[:COLUMN].
+std::string sheet_path_of(const std::string& spec);
+
+/// Where warnings go ("pare: warning: ..." lines); set by run() to its error stream.
+void set_warning_stream(std::ostream* err);
+void warn(const CommonOptions& common, const std::string& what);
+
+/// Adds a --samples / --feature-info / --sample-info / --mark-by / --min-class-size option.
+void add_sample_options(po::options_description& desc, InputOptions& input, bool supervised);
 
 }  // namespace pare::cli

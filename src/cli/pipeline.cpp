@@ -4,6 +4,7 @@
 #include <chrono>      // std::chrono::steady_clock
 #include <filesystem>  // std::filesystem::equivalent
 #include <future>      // std::async
+#include <map>         // std::map
 #include <memory>      // std::unique_ptr
 
 #include <nlohmann/json.hpp>
@@ -59,13 +60,6 @@ class OutputSet {
   std::vector<std::unique_ptr<OutputFile>> files_;
 };
 
-std::string sheet_path_of(const std::string& spec) {
-  std::error_code ec;
-  if (std::filesystem::exists(spec, ec)) return spec;
-  const auto colon = spec.rfind(':');
-  return colon == std::string::npos || colon == 0 ? spec : spec.substr(0, colon);
-}
-
 void print_steps(std::ostream& out, const Reduction& r, bool selection) {
   std::vector<std::vector<std::string>> rows{{"step", "in", "out", "seconds"}};
   for (const auto& s : r.steps) {
@@ -84,36 +78,12 @@ struct ReduceRun {
   SampleScreen screen;                                   // of every input sample
   std::vector<std::string> input_ids, input_labels;      // before --drop-outliers
   std::vector<char> dropped;                             // per input sample, or empty
+  std::vector<std::string> marks;                        // --mark-by, per input sample
+  std::vector<std::string> sample_info_names;            // --sample-info, per input sample
+  std::vector<std::vector<std::string>> sample_info;
+  SamplesLeftOut left_out;                               // unlabelled, small classes
+  std::int64_t samples_read = 0;                         // samples in the file
 };
-
-// Removes the rows `drop` (ascending) from `table` before anything is computed on it.
-void drop_samples(FeatureTable& table, const std::vector<std::int64_t>& drop, const MemoryBudget& budget) {
-  std::vector<Eigen::Index> keep;
-  std::size_t next = 0;
-  for (Eigen::Index i = 0; i < table.n_samples(); ++i) {
-    if (next < drop.size() && drop[next] == i) ++next;
-    else keep.push_back(i);
-  }
-  Columns values;
-  values.allocate(static_cast<Eigen::Index>(keep.size()), table.n_features(), budget);
-  for (Eigen::Index j = 0; j < table.n_features(); ++j) {
-    const float* src = table.values.col(j).data();
-    float* dst = values.col(j).data();
-    for (std::size_t k = 0; k < keep.size(); ++k) dst[k] = src[keep[k]];
-    if (table.values.on_disk()) {
-      internal::release_column_span(table.values, j, j);
-      internal::release_column_span(values, j, j);
-    }
-  }
-  table.values = std::move(values);
-  std::vector<std::string> ids, labels;
-  for (const Eigen::Index i : keep) {
-    ids.push_back(table.sample_ids[static_cast<std::size_t>(i)]);
-    if (table.has_labels()) labels.push_back(table.labels[static_cast<std::size_t>(i)]);
-  }
-  table.sample_ids = std::move(ids);
-  table.labels = std::move(labels);
-}
 
 // The plan's record of the sample screen, as JSON text: its rule and which samples it flagged and
 // dropped.
@@ -140,7 +110,7 @@ struct ProjectSettings {
 
 void add_projection_options(po::options_description& desc, ProjectionOptions& o, bool& no_center,
                             bool required) {
-  auto components = po::value(&o.components);
+  auto components = po::value(&o.components)->value_name("K");
   if (required) components->required();
   else components->default_value(0);
   // `project` has no numbered pipeline steps and needs K >= 1.
@@ -150,9 +120,9 @@ void add_projection_options(po::options_description& desc, ProjectionOptions& o,
        (step + (required ? "number of components K (1 to min(samples, features))"
                          : "truncated PCA: number of components K (0 = none)")).c_str())
       ("no-center", po::bool_switch(&no_center), (step + "do not centre: plain truncated SVD").c_str())
-      ("tolerance", po::value(&o.tolerance)->default_value(1e-7, "1e-07"),
+      ("tolerance", po::value(&o.tolerance)->default_value(1e-7, "1e-07")->value_name("T"),
        (step + "convergence: Ritz residuals <= this x the largest eigenvalue").c_str())
-      ("max-iterations", po::value(&o.max_iterations)->default_value(60),
+      ("max-iterations", po::value(&o.max_iterations)->default_value(60)->value_name("N"),
        (step + "Krylov blocks before giving up").c_str());
 }
 
@@ -165,7 +135,12 @@ ReduceRun reduce_and_write(const InputOptions& input, const CommonOptions& commo
   const std::string sheet = input.labels.empty() ? std::string() : sheet_path_of(input.labels);
   const auto start = std::chrono::steady_clock::now();
   ReduceRun run;
-  run.table = load_table(input, common);
+  const bool supervised = options.relevance && (!input.label.empty() || !input.labels.empty());
+  LoadedData loaded = load_data(input, common, supervised);
+  run.table = std::move(loaded.table);
+  run.marks = std::move(loaded.marks);
+  run.left_out = loaded.left_out;
+  run.samples_read = loaded.samples_read;
   const double read_seconds = seconds_since(start);
   // The sample screen sees the input as the reduction will (log2 included), before any sample
   // is dropped.
@@ -178,11 +153,18 @@ ReduceRun reduce_and_write(const InputOptions& input, const CommonOptions& commo
   run.screen = screen_samples(run.table.values, screen_options, encode_classes(run.table.labels).codes);
   run.input_ids = run.table.sample_ids;
   run.input_labels = run.table.labels;
+  run.sample_info_names = run.table.sample_info_names;
+  run.sample_info = run.table.sample_info;
   if (project.drop_outliers) {
     run.dropped = run.screen.robust.flagged;
     run.dropped.resize(run.input_ids.size(), 0);
     const std::vector<std::int64_t> flagged = run.screen.flagged();
-    if (!flagged.empty()) drop_samples(run.table, flagged, read_options_from(input, common).memory);
+    if (!flagged.empty()) {
+      std::vector<std::int64_t> rows;
+      for (std::size_t i = 0; i < run.dropped.size(); ++i)
+        if (!run.dropped[i]) rows.push_back(static_cast<std::int64_t>(i));
+      keep_samples(run.table, rows, read_options_from(input, common).memory);
+    }
   }
   const double screen_seconds = seconds_since(start_screen);
   if (run.table.has_labels() && options.relevance) require_two_classes(run.table, input);
@@ -205,6 +187,14 @@ ReduceRun reduce_and_write(const InputOptions& input, const CommonOptions& commo
   record.na_tokens = read.na_tokens;
   record.allow_inf = read.allow_inf;
   record.seed = common.seed;
+  record.feature_info = read.feature_info;
+  record.sample_info = read.sample_info;
+  record.samples_read = run.samples_read;
+  if (!input.samples.empty()) {
+    record.sample_list_path = input.samples;
+    record.sample_list_sha256 = loaded.sample_list_sha256;
+  }
+  record.left_out = run.left_out;
 
   ReduceOptions reduce_options = options;
   reduce_options.memory_budget = read.memory.bytes;
@@ -217,7 +207,17 @@ ReduceRun reduce_and_write(const InputOptions& input, const CommonOptions& commo
 
   std::vector<std::string> inputs{input.data};
   if (!sheet.empty()) inputs.push_back(sheet);
+  if (!input.samples.empty()) inputs.push_back(input.samples);
   OutputSet files(common.out, inputs);
+  // The report's strip plots show the leading kept features' values as reduced.csv holds them,
+  // taken now: the PCA below may use the table's matrix as its workspace.
+  ReportData report;
+  if (project.selection_outputs) {
+    std::vector<std::int64_t> top(r.kept.begin(), r.kept.begin() + std::min<std::ptrdiff_t>(6, std::ssize(r.kept)));
+    add_top_features(report, run.table, top,
+                     std::string("values as in ") + reduced_file_name(run.table.delimiter) + " (filled" +
+                         (options.log2 ? ", log2(x + 1)" : "") + (options.scale ? ", z-scored" : "") + ")");
+  }
   // ranking.tsv and the selection log are text built from names and scores alone, one thread
   // each: they are built alongside reduced.csv and the PCA, which leave a core idle part of the
   // time, and written after them. Under --memory they are built and written one at a time first,
@@ -232,7 +232,7 @@ ReduceRun reduce_and_write(const InputOptions& input, const CommonOptions& commo
       ranking_text = std::async(std::launch::async, [&] { return reduction_ranking_tsv(run.table, r); });
       log_text = std::async(std::launch::async, [&] { return selection_log_tsv(run.table, r); });
     }
-    OutputFile& reduced = files.open("reduced.csv");
+    OutputFile& reduced = files.open(reduced_file_name(run.table.delimiter));
     reduced.write_direct();
     write_reduced_matrix(run.table, r.kept, names, [&](std::string_view piece) { reduced.write(piece); });
   }
@@ -303,8 +303,7 @@ ReduceRun reduce_and_write(const InputOptions& input, const CommonOptions& commo
       }
     }
     const Projection& pr = *run.projection;
-    files.add("scores.csv", scores_csv(pr.scores, run.table.sample_ids, run.table.labels, run.table.label_name,
-                                       run.table.id_name));
+    files.add("scores.csv", scores_csv(pr.scores, run.table.sample_ids));
     // loadings.tsv is written and hashed piece by piece (p x K numbers need not be in memory as text).
     OutputFile& loadings = files.open("loadings.tsv");
     internal::Sha256 loadings_hash;
@@ -330,9 +329,9 @@ ReduceRun reduce_and_write(const InputOptions& input, const CommonOptions& commo
   const nlohmann::json plan_document = internal::plan_document(run.table, r, options, record, plan_projection);
   const std::string plan = internal::plan_text(plan_document);
   files.add("plan.json", plan);
-  files.add("samples.tsv", samples_tsv(run.screen, run.input_ids, run.input_labels, run.table.label_name, run.dropped));
+  files.add("samples.tsv", samples_tsv(run.screen, run.input_ids, run.input_labels, run.table.label_name, run.dropped,
+                                       run.sample_info_names, run.sample_info));
   {
-    ReportData report;
     report.command = project.selection_outputs ? "reduce" : "project";
     report.title = "pare " + report.command + ": " + std::filesystem::path(input.data).filename().string();
     report.samples = static_cast<std::int64_t>(run.input_ids.size());
@@ -354,6 +353,10 @@ ReduceRun reduce_and_write(const InputOptions& input, const CommonOptions& commo
       }
     }
     add_screen(report, run.screen, run.input_ids, run.input_labels, run.table.label_name, run.dropped);
+    if (!run.marks.empty()) {
+      report.sample_info.mark_name = input.mark_by;
+      report.sample_info.marks = run.marks;
+    }
     files.add("report.html", report_html(report));
   }
   files.commit();
@@ -366,7 +369,13 @@ ReduceRun reduce_and_write(const InputOptions& input, const CommonOptions& commo
       out << " -> " << thousands(static_cast<std::int64_t>(r.kept.size())) << " kept, ranked by "
           << criterion_name(r.criterion);
     out << "\n";
+    print_left_out(out, run.left_out, run.samples_read, static_cast<std::int64_t>(run.input_ids.size()), input.samples);
     print_steps(out, r, project.selection_outputs);
+    if (project.selection_outputs && options.keep > 0 && static_cast<std::int64_t>(r.kept.size()) < options.keep)
+      out << "  note: kept " << thousands(static_cast<std::int64_t>(r.kept.size())) << ", fewer than --keep "
+          << options.keep << ": only so many features "
+          << (r.supervised && options.fdr < 1 ? "passed --fdr " + short_number(options.fdr) + " and " : std::string())
+          << "survived the filters and pruning\n";
     if (project.selection_outputs) {
       out << "  top:";
       for (std::size_t k = 0; k < names.size() && k < 10; ++k) out << (k ? ", " : " ") << names[k];
@@ -384,7 +393,7 @@ ReduceRun reduce_and_write(const InputOptions& input, const CommonOptions& commo
     }
     print_sample_screen(out, run.screen, run.input_ids, run.dropped);
     out << "  wrote " << files.path("plan.json");
-    if (project.selection_outputs) out << ", ranking.tsv, selection-log.tsv, reduced.csv";
+    if (project.selection_outputs) out << ", ranking.tsv, selection-log.tsv, " << reduced_file_name(run.table.delimiter);
     if (run.projection) out << ", scores.csv, loadings.tsv, explained.tsv";
     out << ", samples.tsv, report.html\n";
   }
@@ -394,24 +403,29 @@ ReduceRun reduce_and_write(const InputOptions& input, const CommonOptions& commo
 void add_reduce_options(po::options_description& desc, ReduceOptions& o, std::string& impute, std::string& rank_by,
                         std::string& estimator, bool& no_missing, bool& no_variance, bool& no_prune) {
   desc.add_options()
-      ("max-missing", po::value(&o.max_missing)->default_value(0.2, "0.2"), "1. drop features missing more than this fraction")
-      ("no-missing-filter", po::bool_switch(&no_missing), "   skip step 1")
-      ("impute", po::value(&impute)->default_value("mean"), "2. fill gaps with the feature's mean, median or zero")
+      ("drop-missing-above", po::value(&o.drop_missing_above)->default_value(0.2, "0.2")->value_name("FRACTION"),
+       "1. drop features missing in more than this fraction of the samples")
+      ("no-missing-filter", po::bool_switch(&no_missing), "1. skip step 1")
+      ("impute", po::value(&impute)->default_value("mean")->value_name("HOW"),
+       "2. fill gaps with the feature's mean, median or zero")
       ("log2", po::bool_switch(&o.log2), "3. transform values to log2(x + 1)")
       ("scale", po::bool_switch(&o.scale), "3. z-score the kept features in the output")
-      ("min-variance", po::value(&o.min_variance)->default_value(1e-8, "1e-08"), "4. drop features with variance below this")
-      ("drop-low-variance", po::value(&o.drop_low_variance)->default_value(0.0, "0"),
+      ("min-variance", po::value(&o.min_variance)->default_value(1e-8, "1e-08")->value_name("V"),
+       "4. drop features with variance below V")
+      ("drop-low-variance", po::value(&o.drop_low_variance)->default_value(0.0, "0")->value_name("FRACTION"),
        "4. also drop this lowest fraction by variance")
-      ("no-variance-filter", po::bool_switch(&no_variance), "   skip step 4")
-      ("rank-by", po::value(&rank_by)->default_value("mi"), "5. mi, chi2, chi2-counts, f or variance")
-      ("fdr", po::value(&o.fdr)->default_value(1.0, "1"), "5. keep features with q <= Q for the ranking test")
-      ("bins", po::value(&o.score.bins)->default_value(10), "5. equal-frequency bins for mi and chi2")
-      ("mi-estimator", po::value(&estimator)->default_value("binned"), "5. binned or knn")
-      ("neighbors", po::value(&o.score.neighbors)->default_value(3), "5. k of the knn estimator")
-      ("max-corr", po::value(&o.max_corr)->default_value(0.9, "0.9"),
-       "6. drop a feature whose |r| with a kept one is above this")
-      ("no-prune", po::bool_switch(&no_prune), "   skip step 6")
-      ("keep", po::value(&o.keep)->default_value(0), "7. keep the first K survivors (0 = all)");
+      ("no-variance-filter", po::bool_switch(&no_variance), "4. skip step 4")
+      ("rank-by", po::value(&rank_by)->default_value("mi")->value_name("CRITERION"),
+       "5. mi, chi2, chi2-counts, f or variance")
+      ("fdr", po::value(&o.fdr)->default_value(1.0, "1")->value_name("Q"),
+       "5. keep features with q <= Q for the ranking test")
+      ("bins", po::value(&o.score.bins)->default_value(10)->value_name("B"), "5. equal-frequency bins for mi and chi2")
+      ("mi-estimator", po::value(&estimator)->default_value("binned")->value_name("E"), "5. binned or knn")
+      ("neighbors", po::value(&o.score.neighbors)->default_value(3)->value_name("k"), "5. k of the knn estimator")
+      ("max-corr", po::value(&o.max_corr)->default_value(0.9, "0.9")->value_name("R"),
+       "6. drop a feature whose |r| with a kept one is above R")
+      ("no-prune", po::bool_switch(&no_prune), "6. skip step 6")
+      ("keep", po::value(&o.keep)->default_value(0)->value_name("K"), "7. keep the first K survivors (0 = all)");
 }
 
 void finish_reduce_options(ReduceOptions& o, const std::string& impute, const std::string& rank_by,
@@ -425,6 +439,14 @@ void finish_reduce_options(ReduceOptions& o, const std::string& impute, const st
   o.variance_filter = !no_variance;
   o.prune = !no_prune;
   o.threads = common.threads;
+  check_reduce_options(o);
+}
+
+void check_projection_options(const ProjectionOptions& o, bool required) {
+  if (o.components < (required ? 1 : 0))
+    throw_usage_error(required ? "--components must be 1 or more" : "--components must be 0 (none) or more");
+  if (!(o.tolerance > 0 && o.tolerance < 1)) throw_usage_error("--tolerance must be above 0 and below 1");
+  if (o.max_iterations < 1) throw_usage_error("--max-iterations must be 1 or more");
 }
 
 }  // namespace
@@ -437,11 +459,12 @@ int command_reduce(const std::vector<std::string>& args, std::ostream& out) {
   bool no_missing = false, no_variance = false, no_prune = false;
   po::options_description desc(
       "pare reduce DATA [--label COLUMN | --labels SHEET[:COLUMN]] --out DIR [options]\n\n"
-      "Runs the reduction pipeline (steps 1-7 below, in order) and writes ranking.tsv,\n"
-      "selection-log.tsv (one line per input feature: kept or dropped, by which step, why),\n"
-      "reduced.csv, plan.json (replayable with pare apply), samples.tsv (per sample: missing rate,\n"
-      "outlier distance and flag) and report.html (plots; open it in a browser).\n\noptions");
-  desc.add_options()("data", po::value(&input.data)->required(), "the data file (CSV/TSV, may be gzip)");
+      "Runs the reduction pipeline (steps 1-8 below, in order) and writes ranking.tsv,\n"
+      "selection-log.tsv (one line per input feature: kept or dropped, by which step, why), the\n"
+      "reduced matrix (reduced.csv, or reduced.tsv for tab-separated input), plan.json (replayable\n"
+      "with pare apply), samples.tsv (per sample: label, missing rate, outlier distance and flag)\n"
+      "and report.html (plots; open it in a browser)",
+      100, 50);
   ProjectSettings project;
   bool no_center = false;
   add_reduce_options(desc, options, impute, rank_by, estimator, no_missing, no_variance, no_prune);
@@ -449,12 +472,15 @@ int command_reduce(const std::vector<std::string>& args, std::ostream& out) {
   desc.add_options()("drop-outliers", po::bool_switch(&project.drop_outliers),
                      "remove the samples flagged as outliers (samples.tsv) before step 1");
   add_input_options(desc, input);
+  add_sample_options(desc, input, true);
   add_common_options(desc, common, "pare-reduce");
-  if (!parse_command_line(args, desc, positionals({"data"}), out)) return 0;
+  if (!parse_command_line(args, desc, {{"data", &input.data}}, out)) return 0;
+  // Every option is checked before the data is read (a large file takes minutes).
   finish_reduce_options(options, impute, rank_by, estimator, no_missing, no_variance, no_prune, common);
   project.options.center = !no_center;
   project.options.scale = options.scale;
-  if (project.options.components < 0) throw_usage_error("--components must be 0 (none) or more");
+  check_projection_options(project.options, false);
+  check_input_options(input, common);
   std::vector<std::string> command_line{"pare", "reduce"};
   command_line.insert(command_line.end(), args.begin(), args.end());
   reduce_and_write(input, common, options, project, command_line, out);
@@ -466,34 +492,64 @@ int command_project(const std::vector<std::string>& args, std::ostream& out) {
   InputOptions input;
   ProjectSettings project;
   project.selection_outputs = false;
-  bool no_center = false;
+  bool no_center = false, log2 = false;
   po::options_description desc(
       "pare project DATA --components K --out DIR [options]\n\n"
       "Truncated PCA (centred; --scale for correlation PCA) or truncated SVD (--no-center) of every\n"
       "feature, no selection. Gaps are filled with the feature's mean first. Writes scores.csv,\n"
       "loadings.tsv, explained.tsv, plan.json (pare apply projects new samples with it),\n"
-      "samples.tsv and report.html.\n\noptions");
-  desc.add_options()("data", po::value(&input.data)->required(), "the data file (CSV/TSV, may be gzip)")
+      "samples.tsv and report.html",
+      100, 50);
+  desc.add_options()("log2", po::bool_switch(&log2), "analyse log2(x + 1) of the values, as reduce --log2 does")
       ("scale", po::bool_switch(&project.options.scale), "divide each centred feature by its sd");
   add_projection_options(desc, project.options, no_center, true);
   desc.add_options()("drop-outliers", po::bool_switch(&project.drop_outliers),
                      "remove the samples flagged as outliers (samples.tsv) before the PCA");
   add_input_options(desc, input);
+  add_sample_options(desc, input, false);
   add_common_options(desc, common, "pare-project");
-  if (!parse_command_line(args, desc, positionals({"data"}), out)) return 0;
+  if (!parse_command_line(args, desc, {{"data", &input.data}}, out)) return 0;
   project.options.center = !no_center;
-  if (project.options.components < 1) throw_usage_error("--components must be 1 or more");
+  check_projection_options(project.options, true);
+  check_input_options(input, common);
   ReduceOptions options;  // every selection step off: all features, input order, mean-filled
   options.missing_filter = false;
   options.variance_filter = false;
   options.relevance = false;
   options.prune = false;
+  options.log2 = log2;
   options.threads = common.threads;
   std::vector<std::string> command_line{"pare", "project"};
   command_line.insert(command_line.end(), args.begin(), args.end());
   reduce_and_write(input, common, options, project, command_line, out);
   return 0;
 }
+
+namespace {
+
+std::string join_names(const std::vector<std::string>& names) {
+  std::string out;
+  for (const auto& n : names) out += (out.empty() ? "" : ",") + n;
+  return out;
+}
+
+// samples.tsv of an apply run: the new samples' ids, labels and --sample-info columns (apply
+// screens nothing, so only what was read).
+std::string applied_samples_tsv(const FeatureTable& t) {
+  std::string out = "sample";
+  if (t.has_labels()) out += '\t' + (t.label_name.empty() ? std::string("label") : t.label_name);
+  for (const auto& name : t.sample_info_names) out += '\t' + name;
+  out += '\n';
+  for (std::size_t i = 0; i < t.sample_ids.size(); ++i) {
+    out += t.sample_ids[i];
+    if (t.has_labels()) out += '\t' + (t.labels[i].empty() ? std::string("NA") : t.labels[i]);
+    for (const auto& column : t.sample_info) out += '\t' + column[i];
+    out += '\n';
+  }
+  return out;
+}
+
+}  // namespace
 
 int command_apply(const std::vector<std::string>& args, std::ostream& out) {
   CommonOptions common;
@@ -503,28 +559,37 @@ int command_apply(const std::vector<std::string>& args, std::ostream& out) {
   po::options_description desc(
       "pare apply PLAN.json NEWDATA --out DIR [options]\n\n"
       "Replays a saved reduction on new samples: selects the plan's features by name, fills gaps with\n"
-      "the training values, applies the same transform, and writes reduced.csv and apply-log.tsv.\n"
-      "Reading options default to those recorded in the plan.\n\noptions");
-  desc.add_options()("plan", po::value(&plan_path)->required(), "plan.json written by pare reduce")
-      ("data", po::value(&input.data)->required(), "the new data file")
-      ("allow-missing-features", po::bool_switch(&allow_missing),
-       "fill features the new data lacks with their training values instead of stopping");
+      "the training values, applies the same transform, and writes the reduced matrix (reduced.csv,\n"
+      "or reduced.tsv for tab-separated input), apply-log.tsv and, with a projection in the plan,\n"
+      "scores.csv. Reading options default to those recorded in the plan",
+      100, 50);
+  desc.add_options()("allow-missing-features", po::bool_switch(&allow_missing),
+                     "fill features the new data lacks with their training values instead of stopping "
+                     "(refused when more than half of the plan's features are absent)");
   add_input_options(desc, input);
+  add_sample_options(desc, input, false);
   add_common_options(desc, common, "pare-apply");
   po::variables_map values;
-  if (!parse_command_line(args, desc, positionals({"plan", "data"}), out, &values)) return 0;
+  if (!parse_command_line(args, desc, {{"plan", &plan_path}, {"data", &input.data}}, out, &values)) return 0;
+  check_input_options(input, common);
   const Plan plan = load_plan(plan_path);
   // Reading options the command line did not set come from the plan.
   const auto given = [&](const char* name) { return values.count(name) > 0 && !values[name].defaulted(); };
   if (!given("layout")) input.layout = plan.layout;
   if (!given("delimiter")) input.delimiter = std::string(1, plan.delimiter) == "\t" ? "tab" : std::string(1, plan.delimiter);
-  if (!given("label") && !given("labels")) input.label = plan.label;
+  // The plan's label column is read when the new data has it; new samples often have none.
+  if (!given("label") && !given("labels")) {
+    input.label = plan.label;
+    input.label_optional = true;
+  }
   if (!given("na")) {
     input.na.clear();
     for (std::size_t i = 0; i < plan.na_tokens.size(); ++i) input.na += (i ? "," : "") + plan.na_tokens[i];
     input.na_given = true;
   }
   if (!given("allow-inf")) input.allow_inf = plan.allow_inf;
+  if (!given("feature-info") && input.layout == plan.layout) input.feature_info = join_names(plan.feature_info);
+  if (!given("sample-info") && input.layout == plan.layout) input.sample_info = join_names(plan.sample_info);
 
   const FeatureTable data = load_table(input, common);
   ApplyReport report;
@@ -536,16 +601,21 @@ int command_apply(const std::vector<std::string>& args, std::ostream& out) {
     log += plan.names[i] + '\t' + (absent ? "absent: filled with the training value" : "present") + '\t' +
            std::to_string(report.filled[i]) + '\n';
   }
-  OutputSet files(common.out, {input.data, plan_path});
-  files.add("reduced.csv", reduced_matrix_text(reduced, [&] {
+  std::vector<std::string> inputs{input.data, plan_path};
+  if (!input.samples.empty()) inputs.push_back(input.samples);
+  OutputSet files(common.out, inputs);
+  const std::string reduced_name = reduced_file_name(reduced.delimiter);
+  files.add(reduced_name, reduced_matrix_text(reduced, [&] {
               std::vector<std::int64_t> all(plan.names.size());
               for (std::size_t i = 0; i < all.size(); ++i) all[i] = static_cast<std::int64_t>(i);
               return all;
             }(), plan.names));
   files.add("apply-log.tsv", log);
+  const bool per_sample = reduced.has_labels() || !reduced.sample_info.empty();
+  if (per_sample) files.add("samples.tsv", applied_samples_tsv(reduced));
   if (plan.components > 0)
-    files.add("scores.csv", scores_csv(project_rows(reduced.values, plan.pca_center, plan.pca_scale, plan.loadings),
-                                       reduced.sample_ids, reduced.labels, reduced.label_name, reduced.id_name));
+    files.add("scores.csv",
+              scores_csv(project_rows(reduced.values, plan.pca_center, plan.pca_scale, plan.loadings), reduced.sample_ids));
   files.commit();
   if (!common.quiet) {
     std::int64_t filled = 0;
@@ -556,12 +626,50 @@ int command_apply(const std::vector<std::string>& args, std::ostream& out) {
     out << "  filled " << thousands(filled) << " missing cells with training values";
     if (!report.absent.empty())
       out << "; " << report.absent.size() << " features absent from the data, filled entirely (see apply-log.tsv)";
-    out << "\n  wrote " << files.path("reduced.csv") << ", apply-log.tsv";
+    out << "\n  wrote " << files.path(reduced_name) << ", apply-log.tsv";
+    if (per_sample) out << ", samples.tsv";
     if (plan.components > 0) out << ", scores.csv (" << plan.components << " components)";
     out << "\n";
   }
   return 0;
 }
+
+namespace {
+
+// The share of each component's variance that lies between the groups of `groups` (one per row of
+// `scores`; eta squared = between-group sum of squares / total sum of squares): near 0, the
+// grouping does not show on the component; near 1, the component is the grouping.
+std::vector<double> between_group_share(const Eigen::MatrixXd& scores, const std::vector<std::string>& groups) {
+  std::vector<double> share;
+  if (static_cast<Eigen::Index>(groups.size()) != scores.rows() || scores.rows() < 2) return share;
+  std::map<std::string, std::pair<double, std::int64_t>> sums;
+  for (Eigen::Index c = 0; c < scores.cols(); ++c) {
+    sums.clear();
+    const double mean = scores.col(c).mean();
+    double total = 0;
+    for (Eigen::Index i = 0; i < scores.rows(); ++i) {
+      auto& [sum, count] = sums[groups[static_cast<std::size_t>(i)]];
+      sum += scores(i, c);
+      ++count;
+      total += (scores(i, c) - mean) * (scores(i, c) - mean);
+    }
+    double between = 0;
+    for (const auto& [name, sc] : sums) {
+      const double d = sc.first / static_cast<double>(sc.second) - mean;
+      between += static_cast<double>(sc.second) * d * d;
+    }
+    share.push_back(total > 0 ? between / total : 0.0);
+  }
+  return share;
+}
+
+std::string shares_text(const std::vector<double>& share) {
+  std::string out;
+  for (std::size_t c = 0; c < share.size(); ++c) out += (c ? ", PC" : "PC") + std::to_string(c + 1) + " " + fixed(share[c], 2);
+  return out;
+}
+
+}  // namespace
 
 int demo_reduce(const std::string& data, const std::string& samples, const std::string& truth,
                 const CommonOptions& common, std::ostream& out) {
@@ -569,6 +677,7 @@ int demo_reduce(const std::string& data, const std::string& samples, const std::
   input.data = data;
   input.layout = "rows=features";
   input.labels = samples + ":condition";
+  input.mark_by = "batch";
   ReduceOptions options;
   // Transcript abundances are log-normal; analysing them on the log scale is common practice, and
   // it keeps a few mean-imputed cells in a long right tail from weakening correlations.
@@ -580,7 +689,7 @@ int demo_reduce(const std::string& data, const std::string& samples, const std::
   reduce_common.out = join_path(common.out, "reduce");
   const std::vector<std::string> command_line{"pare", "reduce", data, "--layout", "rows=features", "--labels",
                                               input.labels, "--log2", "--max-corr", "0.9", "--keep", "200", "--components", "3",
-                                              "--out", reduce_common.out};
+                                              "--mark-by", "batch", "--out", reduce_common.out};
   if (!common.quiet) out << "\n";
   ProjectSettings project;
   project.options.components = 3;
@@ -598,9 +707,34 @@ int demo_reduce(const std::string& data, const std::string& samples, const std::
         << d.copies_named_twin << " naming their original or a module-mate)\n";
     out << "  (near-)constant by variance    " << d.near_constant_variance << " of " << d.near_constant << "\n";
     out << "  mostly-missing by missing      " << d.mostly_missing_missing << " of " << d.mostly_missing << "\n";
+    // The planted batch shift: how much of each component lies between the two batches.
+    if (run.screen.done)
+      out << "  batch shift, share of variance between batches: " << shares_text(between_group_share(run.screen.scores, run.marks))
+          << " on the screen's PCA of all transcripts";
+    if (run.projection)
+      out << "; " << shares_text(between_group_share(run.projection->scores, run.marks)) << " on the 200 kept";
+    out << "\n  (colour by batch in the report: reduce --mark-by batch)\n";
     out << "\nreport: " << join_path(reduce_common.out, "report.html") << " (open it in a browser)\n";
   }
   return 0;
+}
+
+void print_left_out(std::ostream& out, const SamplesLeftOut& left, std::int64_t samples_read, std::int64_t samples_used,
+                    const std::string& sample_list) {
+  if (left.empty() && samples_used == samples_read) return;
+  out << "  samples: " << thousands(samples_used) << " of " << thousands(samples_read) << " used";
+  std::string why;
+  const auto listed = samples_used + static_cast<std::int64_t>(left.unlabelled.size() + left.small_class.size());
+  if (!sample_list.empty()) why += thousands(listed) + " listed in " + sample_list;
+  if (!left.unlabelled.empty())
+    why += (why.empty() ? "" : "; ") + thousands(static_cast<std::int64_t>(left.unlabelled.size())) + " without a label left out";
+  if (!left.small_class.empty()) {
+    why += (why.empty() ? "" : "; ") + thousands(static_cast<std::int64_t>(left.small_class.size())) +
+           " in classes under --min-class-size " + std::to_string(left.min_class_size) + " left out (";
+    for (std::size_t k = 0; k < left.small_classes.size(); ++k) why += (k ? ", " : "") + left.small_classes[k];
+    why += ")";
+  }
+  out << (why.empty() ? "" : " (" + why + "; plan.json lists the ids left out)") << "\n";
 }
 
 void print_sample_screen(std::ostream& out, const SampleScreen& screen, const std::vector<std::string>& ids,

@@ -18,6 +18,11 @@ int command_project(const std::vector<std::string>& args, std::ostream& out);
 void print_sample_screen(std::ostream& out, const SampleScreen& screen, const std::vector<std::string>& ids,
                          const std::vector<char>& dropped, const std::string& label = "  samples: ");
 
+/// Prints one line on the samples used, when some were left out: how many of the file's, and why
+/// (--samples, missing labels, --min-class-size).
+void print_left_out(std::ostream& out, const SamplesLeftOut& left, std::int64_t samples_read, std::int64_t samples_used,
+                    const std::string& sample_list);
+
 /// Reduces the demo data into common.out/reduce and reports recovery of the planted truth.
 int demo_reduce(const std::string& data, const std::string& samples, const std::string& truth,
                 const CommonOptions& common, std::ostream& out);

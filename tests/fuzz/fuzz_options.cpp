@@ -48,6 +48,18 @@ extern "C" int LLVMFuzzerTestOneInput(const std::uint8_t* data, std::size_t size
   std::ostringstream out, err;
   const int code = pare::cli::run(args, out, err);
   if (code < 0 || code > 4) __builtin_trap();  // exit codes are those of SPEC §6
-  if (code != 0 && err.str().find('\n') != err.str().size() - 1) __builtin_trap();  // one error line
+  // A failed run ends with exactly one error line; warnings ("pare: warning: ...") may precede it.
+  if (code != 0) {
+    const std::string text = err.str();
+    const std::size_t last = text.rfind('\n', text.size() >= 2 ? text.size() - 2 : 0);
+    const std::string_view final_line = std::string_view(text).substr(last == std::string::npos ? 0 : last + 1);
+    if (text.empty() || text.back() != '\n' || !final_line.starts_with("pare: error: ")) __builtin_trap();
+    for (std::size_t at = 0; at < text.size();) {
+      const std::size_t end = text.find('\n', at);
+      const std::string_view line = std::string_view(text).substr(at, end - at);
+      if (at != (last == std::string::npos ? 0 : last + 1) && !line.starts_with("pare: warning: ")) __builtin_trap();
+      at = end + 1;
+    }
+  }
   return 0;
 }

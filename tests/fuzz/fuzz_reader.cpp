@@ -1,5 +1,5 @@
 // libFuzzer target: the delimited reader (plain text and gzip, both layouts, with and without a
-// label column and a memory budget). Any input must end in a table or a pare::Error, never a
+// label column, text columns and a memory budget). Any input must end in a table or a pare::Error, never a
 // crash, a hang or a sanitizer report.
 #include <cstddef>  // std::size_t
 #include <cstdint>  // std::uint8_t
@@ -24,11 +24,20 @@ extern "C" int LLVMFuzzerTestOneInput(const std::uint8_t* data, std::size_t size
   }
   if (flags & 16) options.delimiter = '\t';
   options.threads = flags & 32 ? 2 : 1;
+  if (flags & 64) {  // text columns: annotation per feature, or per sample
+    if (flags & 1) options.feature_info = {"symbol", "chrom"};
+    else options.sample_info = {"batch"};
+  }
   try {
     const pare::FeatureTable t = pare::read_table(file.path(), options);
     if (t.feature_names.size() != static_cast<std::size_t>(t.n_features()) ||
         t.sample_ids.size() != static_cast<std::size_t>(t.n_samples()))
       __builtin_trap();  // the table must be consistent
+    for (const auto& column : t.feature_info)
+      if (column.size() != t.feature_names.size()) __builtin_trap();
+    for (const auto& column : t.sample_info)
+      if (column.size() != t.sample_ids.size()) __builtin_trap();
+    if (!t.labels.empty() && t.labels.size() != t.sample_ids.size()) __builtin_trap();
   } catch (const pare::Error&) {
   }
   return 0;

@@ -386,8 +386,8 @@ def main():
         for case in PROJECT_CASES:
             project_case(checks, pare, tmp, case)
         reduce_apply_checks(checks, pare, tmp)
-    print(f"{checks.passed} passed, {checks.failed} failed ({time.monotonic() - started:.1f} s)")
-    return 1 if checks.failed else 0
+    checks.summary(f" ({time.monotonic() - started:.1f} s)")
+    return checks.exit_code()
 
 
 if __name__ == "__main__":

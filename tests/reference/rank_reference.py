@@ -19,9 +19,14 @@ References (each named again beside its check):
   chi2_counts    sklearn.feature_selection.chi2 (+ the digits values of CHECKS.md section 6)
   q-values       an own Benjamini-Hochberg step-up, first checked against CHECKS.md section 3
   bonferroni     min(1, m p) on the reference p-values
-  knn MI         sklearn.feature_selection.mutual_info_classif on tie-free data (CHECKS.md 5)
+  knn MI         sklearn.feature_selection.mutual_info_classif on tie-free data (CHECKS.md 5);
+                 on data with ties (digits) an own direct implementation of the tie rule
+                 (Gao et al. 2017, notebooks-free-docs/numerics.md), first checked against two
+                 examples derived by hand
   variance       numpy.var(ddof=1); missing_rate: numpy count of NaN
 Runs with missing cells compare against the same references on each feature's observed cells.
+Classes of any size are scored (SPEC section 9): wine with a one-sample class and a 10-class digits
+subset with a one-sample class are compared like the rest; F is taken over the observed classes.
 
 Prints one line per check, the largest relative deviation seen per reference, then
 `N passed, M failed`; exits 1 on any failure. A missing dataset file is a failure when CI=true
@@ -243,7 +248,12 @@ def reference_scores(d, bins, counts=False, knn=None):
         # than two values are observed (its documented convention, ColumnStats n < 2)
         out["variance"][j] = np.var(v, ddof=1) if nj >= 2 else 0.0
         class_n = np.bincount(c, minlength=k_classes)
-        few = bool((class_n < 2).any())
+        observed = [g for g in range(k_classes) if class_n[g] > 0]
+        # SPEC section 9: classes of any size are scored. F over the classes with an observed
+        # value, defined when there are two of them and more observed values than classes
+        # (df2 > 0); otherwise F 0, p 1, flagged few_values. MI and chi-square need only two
+        # distinct values.
+        few = not (len(observed) >= 2 and nj > len(observed))
         const = nj == 0 or v.min() == v.max()
         flags = []
         if few:
@@ -255,40 +265,48 @@ def reference_scores(d, bins, counts=False, knn=None):
             # total (CHECKS.md section 6), on this feature's observed rows
             s, sp = feature_selection.chi2(v.reshape(-1, 1), c)
             out["counts"][j], out["counts_p"][j] = s[0], sp[0]
-        if few or const:
-            # pare's rule for a degenerate feature: scores 0, p-values 1 (flagged)
+        if const:
+            # pare's rule for a constant feature: scores 0, p-values 1 (flagged)
             out["degenerate"][j] = True
             out["flags"][j] = ",".join(flags)
             continue
         b = spec_bins(v, bins)
         # sklearn.metrics.mutual_info_score(labels, bins): plug-in MI in nats on the same table
         out["mi"][j] = metrics.mutual_info_score(c, b)
-        # bin x class table on the non-empty bins only (bins may exceed n)
+        # bin x class table on the non-empty bins and classes only (bins may exceed n)
         used, row = np.unique(b, return_inverse=True)
         table = np.zeros((len(used), k_classes))
         np.add.at(table, (row, c), 1)
         table = table[:, table.sum(axis=0) > 0]
-        # scipy.stats.chi2_contingency, no continuity correction, empty rows/columns dropped
-        chi2, chi2_p, dof, _ = stats.chi2_contingency(table, correction=False)
-        out["chi2"][j], out["chi2_p"][j], out["chi2_df"][j] = chi2, chi2_p, dof
-        groups = [v[c == g] for g in range(k_classes)]
-        with warnings.catch_warnings():
-            # f_oneway warns (and returns inf) when the classes separate exactly
-            warnings.simplefilter("ignore")
-            f, fp = stats.f_oneway(*groups)  # scipy.stats.f_oneway
-            # sklearn f_classif sums uncentred squares, so on a feature with a small F and
-            # |mean| >> sd it loses digits (2e-9 relative seen on "mean fractal dimension");
-            # f_oneway centres first. Both stay well inside REL.
-            fs, fsp = feature_selection.f_classif(v.reshape(-1, 1), c)
-        out["f"][j], out["f_p"][j] = f, fp
-        out["f_sk"][j], out["f_sk_p"][j] = fs[0], fsp[0]
-        if math.isinf(f):
-            flags.append("separates_classes")
+        if min(table.shape) >= 2:
+            # scipy.stats.chi2_contingency, no continuity correction, empty rows/columns dropped
+            chi2, chi2_p, dof, _ = stats.chi2_contingency(table, correction=False)
+            out["chi2"][j], out["chi2_p"][j], out["chi2_df"][j] = chi2, chi2_p, dof
+        # else one non-empty row or column: df 0, chi-square 0, p 1 (the defaults)
+        if not few:
+            groups = [v[c == g] for g in observed]
+            with warnings.catch_warnings():
+                # f_oneway warns (and returns inf) when the classes separate exactly
+                warnings.simplefilter("ignore")
+                f, fp = stats.f_oneway(*groups)  # scipy.stats.f_oneway
+                # sklearn f_classif sums uncentred squares, so on a feature with a small F and
+                # |mean| >> sd it loses digits (2e-9 relative seen on "mean fractal dimension");
+                # f_oneway centres first. Both stay well inside REL.
+                fs, fsp = feature_selection.f_classif(v.reshape(-1, 1), c)
+            out["f"][j], out["f_p"][j] = f, fp
+            out["f_sk"][j], out["f_sk_p"][j] = fs[0], fsp[0]
+            if math.isinf(f):
+                flags.append("separates_classes")
         out["flags"][j] = ",".join(flags)
         if knn is not None:
             k, seed = knn
-            out["knn"][j] = feature_selection.mutual_info_classif(
-                v.reshape(-1, 1), c, discrete_features=False, n_neighbors=k, random_state=seed)[0]
+            if seed is None:
+                # own direct implementation of pare's tie rule (tie_knn_mi below)
+                out["knn"][j] = tie_knn_mi(v, c, k)
+            else:
+                out["knn"][j] = feature_selection.mutual_info_classif(
+                    v.reshape(-1, 1), c, discrete_features=False, n_neighbors=k,
+                    random_state=seed)[0]
     # q-values and Bonferroni over all features (degenerate ones enter with p = 1, as in pare)
     for key in ["chi2", "f", "counts"]:
         out[key + "_q"] = bh_step_up(out[key + "_p"])
@@ -358,12 +376,13 @@ def check_structure(checks, tag, table, d, counts):
     return ok
 
 
-def check_scores(checks, tag, table, d, ref, counts=False, knn=False):
+def check_scores(checks, tag, table, d, ref, counts=False, knn=None):
     names = d.feature_names
     col = lambda c: by_feature(table, d, c)  # noqa: E731
-    if knn:
-        compare(checks, tag, "mi", "sklearn.feature_selection.mutual_info_classif", col("mi"),
-                ref["knn"], names)
+    if knn is not None:
+        reference = ("own direct tie-rule kNN MI (tie_knn_mi)" if knn[1] is None
+                     else "sklearn.feature_selection.mutual_info_classif")
+        compare(checks, tag, "mi", reference, col("mi"), ref["knn"], names)
     else:
         compare(checks, tag, "mi", "sklearn.metrics.mutual_info_score", col("mi"), ref["mi"], names)
     compare(checks, tag, "chi2", "scipy.stats.chi2_contingency", col("chi2"), ref["chi2"], names)
@@ -442,11 +461,56 @@ def full_check(checks, pare, tmp, tag, d, args, bins=10, criterion="mi", knn=Non
     if not check_structure(checks, tag, table, d, counts):
         return table, None
     ref = reference_scores(d, bins, counts=counts, knn=knn)
-    check_scores(checks, tag, table, d, ref, counts=counts, knn=knn is not None)
+    check_scores(checks, tag, table, d, ref, counts=counts, knn=knn)
     ref_key = {"mi": "knn" if knn else "mi", "chi2": "chi2", "f": "f", "variance": "variance",
                "chi2-counts": "counts"}[criterion]
     check_order(checks, tag, table, d, ref, criterion, ref_key)
     return table, ref
+
+
+# ---- kNN with ties: own direct implementation ------------------------------------------------
+
+def tie_knn_mi(v, c, k):
+    """pare's kNN MI written out directly from its definition (notebooks-free-docs/numerics.md):
+    the Ross (2014) estimator with tied values and distances counted as Gao, Kannan, Oh &
+    Viswanath (NeurIPS 2017) count them. Points alone in their class are left out. For each point
+    rho = distance to its k_i-th nearest same-class point, k_i = min(k, N_c - 1); the ball is
+    |x - x_i| < rho, or x = x_i when rho = 0; kk and m = points of its class and of any class in
+    the ball, the point itself included; MI = psi(N) + <psi(kk)> - <psi(N_c)> - <psi(m)>,
+    clipped at 0. O(n^2): the full distance matrix, no sorting tricks, so it shares no code path
+    with pare's outward walk and binary searches."""
+    from scipy.special import digamma
+
+    sizes = np.bincount(c)
+    keep = sizes[c] >= 2
+    v, c = v[keep], c[keep]
+    n = len(v)
+    if n == 0:
+        return 0.0
+    dist = np.abs(v[:, None] - v[None, :])
+    same = c[:, None] == c[None, :]
+    n_c = same.sum(axis=1)
+    k_i = np.minimum(k, n_c - 1)
+    # sorted same-class distances: position 0 is a distance 0 (the point itself or a tie)
+    ordered = np.sort(np.where(same, dist, np.inf), axis=1)
+    rho = ordered[np.arange(n), k_i]
+    inside = np.where(rho[:, None] > 0, dist < rho[:, None], dist == 0)
+    kk = (inside & same).sum(axis=1)
+    m = inside.sum(axis=1)
+    mi = digamma(n) + np.mean(digamma(kk)) - np.mean(digamma(n_c)) - np.mean(digamma(m))
+    return max(0.0, float(mi))
+
+
+def check_tie_knn_examples(checks):
+    # The two worked examples of tests/ranking_test.cpp, derived there by hand as fractions of
+    # harmonic numbers: the own implementation must reproduce them before it serves as reference.
+    a = tie_knn_mi(np.array([0, 0, 0, 0, 1, 1, 1, 1, 1, 1, 1, 1, 2, 2, 2, 2], dtype=float),
+                   np.array([0] * 8 + [1] * 8), 3)
+    b = tie_knn_mi(np.array([0, 2, 4, 10, 12, 14], dtype=float), np.array([0, 0, 0, 1, 1, 1]), 2)
+    # scipy's digamma against exact fractions: 1e-13 absolute
+    checks.check("own tie-rule kNN MI reproduces the hand-derived 2224/6435 and 47/60",
+                 abs(a - 2224 / 6435) <= 1e-13 and abs(b - 47 / 60) <= 1e-13,
+                 f"{a!r}, {b!r}")
 
 
 # ---- kNN: tie-free data ----------------------------------------------------------------------
@@ -681,6 +745,38 @@ def main():
             full_check(checks, pare, tmp, tag, d, ["--mi-estimator", "knn", "--neighbors", str(k)],
                        knn=(k, 0))
 
+        # --- classes of any size (SPEC section 9): a one-sample class, every score computed ------
+        if data["wine"] is not None:
+            w = data["wine"]
+            labels = list(w.labels)
+            labels[0] = "solo"  # sample 1 (class_0) becomes a class of its own: 58/71/48/1
+            d = Data("wine-solo", w.x, w.feature_names, labels, w.label_name)
+            full_check(checks, pare, tmp, "wine-solo", d, [])
+            full_check(checks, pare, tmp, "wine-solo-f", d, ["--rank-by", "f"], criterion="f",
+                       file_path=os.path.join(tmp, "wine-solo.csv"))
+        if data["digits"] is not None:
+            g = data["digits"]
+            first9 = g.labels[:300].index("9")
+            rows = [i for i in range(300) if g.labels[i] != "9" or i == first9]
+            # 10 classes, digit 9 with a single sample (the issue's case: a 10-class sheet)
+            d = Data("digits-one-nine", g.x[rows], g.feature_names, [g.labels[i] for i in rows],
+                     g.label_name)
+            checks.check("digits-one-nine: 10 classes, the smallest of 1 sample",
+                         len(d.classes) == 10 and min(np.bincount(d.y)) == 1,
+                         f"{len(rows)} samples, class sizes {list(np.bincount(d.y))}")
+            full_check(checks, pare, tmp, "digits-one-nine", d, [])
+            full_check(checks, pare, tmp, "digits-one-nine-chi2", d, ["--rank-by", "chi2"],
+                       criterion="chi2", file_path=os.path.join(tmp, "digits-one-nine.csv"))
+
+        # --- kNN MI with ties: digits pixels are integers 0..16 (heavy ties at distance 0 and 1) --
+        check_tie_knn_examples(checks)
+        if data["digits"] is not None:
+            d = data["digits"]
+            for k in (3, 1, 5):
+                full_check(checks, pare, tmp, f"digits-knn{k}-ties", d,
+                           ["--mi-estimator", "knn", "--neighbors", str(k)], knn=(k, None),
+                           file_path=os.path.join(tmp, "digits-chi2-counts.csv"))
+
         # --- missing cells: each feature on its observed cells -----------------------------------
         if data["breast_cancer"] is not None:
             d = with_gaps(data["breast_cancer"], "breast_cancer-gaps", 21)
@@ -712,8 +808,12 @@ def main():
         if data["wine"] is not None:
             d = with_gaps(data["wine"], "wine-gaps", 23, rate=0.1)
             y0 = np.where(d.y == 0)[0]
-            d.x[y0[1:], 0] = np.nan  # class_0 keeps one observed value: few_values
+            d.x[y0[1:], 0] = np.nan  # class_0 keeps one observed value: scored (SPEC 9)
             d.x[:, 1] = np.where(np.isnan(d.x[:, 1]), np.nan, 2.5)  # constant with gaps
+            d.x[d.y != 0, 2] = np.nan  # one class observed: F undefined, chi-square df 0
+            keep3 = [int(np.where(d.y == g)[0][0]) for g in range(3)]
+            d.x[[i for i in range(d.x.shape[0]) if i not in keep3], 3] = np.nan
+            d.x[keep3, 3] = [1.5, 2.5, 3.5]  # one value per class: n = classes, F undefined
             full_check(checks, pare, tmp, "wine-gaps-bins7-chi2", d,
                        ["--bins", "7", "--rank-by", "chi2"], bins=7, criterion="chi2")
         if data["digits"] is not None:

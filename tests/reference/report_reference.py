@@ -13,6 +13,14 @@ References, each named again beside its check:
   top 30         ranking.tsv's first 30 rows: feature, the ranking criterion's column and its q-value
                  column, both as data attributes (exact) and as the printed text (%.3g)
   redundancy     selection-log.tsv: how many redundancy rows name each kept feature
+  score curve    selection-log.tsv: every scored feature's mi, sorted here (largest first, ties in
+                 input order); the --fdr cut at the last of them with chi2_q <= Q, the --keep cut
+                 at the last ranking.tsv feature; for `pare rank`, ranking.tsv's mi column
+  p-values       numpy.histogram(chi2_p of every scored feature, bins=20, range=(0, 1))
+  strip plots    reduced.csv's values of the first 6 ranking.tsv features, sample by sample; each
+                 class's quartiles with numpy.quantile (its default, linear interpolation)
+  --mark-by      the sample sheet's batch column: every dot's hover text and colour (the legend's
+                 colour for that value; "missing" for an empty cell)
   sample screen  numpy: the features chosen (missing <= 20%, variance > 0, most variable first),
                  mean-filled, standardised (ddof 1), numpy.linalg.svd scores (compared up to sign);
                  class medians, the robust sd (max of 1.4826 MAD and the 80th percentile /
@@ -27,9 +35,12 @@ block, near-copies of informative features, constant and mostly-missing features
 planted outlier samples. Values are float32-rounded and written as the shortest decimal of that
 float32's float64 value, so pare parses exactly the values the reference sees.
 
-Prints one line per check, then `N passed, M failed`; exits 1 on any failure. Missing html5lib,
-chromium or PIL is a failure when CI=true (scripts/install-deps.sh installs them), otherwise that
-part is skipped with a message.
+Prints one line per check, then `N passed, M failed, K skipped`; exits 1 on any failure. Missing
+html5lib, chromium or PIL is a failure when CI=true (scripts/install-deps.sh installs them),
+otherwise that part is skipped (exit 77, reported by ctest as skipped).
+
+Parts the command line gains when it is wired to the library (issue 15 item 14) are switched on by
+the WIRED_* constants below; while off, their checks print OFF and count for nothing.
 """
 
 import csv
@@ -47,10 +58,14 @@ import xml.etree.ElementTree as ET
 
 import numpy as np
 
-IN_CI = os.environ.get("CI", "").lower() == "true"
 SVG_NS = "{http://www.w3.org/2000/svg}"
 
 from reference_common import Checks  # noqa: E402  (this folder is on sys.path)
+
+# Switch on when the command line does it (then every check of that part must pass):
+WIRED_TOP_FEATURES = True  # reduce puts strip plots of the first 6 kept features in report.html
+WIRED_MARK_BY = True       # reduce --labels SHEET:COLUMN --mark-by batch
+WIRED_RANK_REPORT = True   # pare rank writes report.html
 
 N, P = 90, 500
 PLANTED = ["s0012", "s0061"]
@@ -78,7 +93,20 @@ def make_data(path):
         for i in range(N):
             cells = ["" if math.isnan(v) else repr(float(v)) for v in x[i]]
             f.write(",".join([ids[i]] + cells + [y[i]]) + "\n")
-    return x, ids, names, y
+    # The same values without the label column, and a sample sheet with the labels and a batch
+    # column (three values and two empty cells) for --mark-by.
+    base = os.path.splitext(path)[0]
+    with open(base + "-values.csv", "w", newline="") as f:
+        f.write(",".join(["sample"] + names) + "\n")
+        for i in range(N):
+            cells = ["" if math.isnan(v) else repr(float(v)) for v in x[i]]
+            f.write(",".join([ids[i]] + cells) + "\n")
+    batch = ["" if i in (5, 40) else "run" + "ABC"[i % 3 if i < 30 else (i // 7) % 3] for i in range(N)]
+    with open(base + "-sheet.csv", "w", newline="") as f:
+        f.write("sample,group,batch\n")
+        for i in range(N):
+            f.write(f"{ids[i]},{y[i]},{batch[i]}\n")
+    return x, ids, names, y, batch
 
 
 def run(cmd, checks, name):
@@ -100,10 +128,7 @@ def strict_parse(checks, html_path, label):
     try:
         import html5lib
     except ImportError:
-        if IN_CI:
-            checks.check(f"{label}: html5lib available (CI=true)", False, "install python3-html5lib")
-        else:
-            print(f"SKIP {label}: strict parse (html5lib missing; install python3-html5lib; a failure under CI=true)")
+        checks.skip(f"{label}: strict parse", "html5lib missing (install python3-html5lib)")
         return None
     with open(html_path, "rb") as f:
         raw = f.read()
@@ -150,7 +175,83 @@ def number(text):
     return int(text.replace(",", ""))
 
 
+def figure_after(tree, heading_id):
+    """The element right after the <h3 id=heading_id> (its figure), or None."""
+    for parent in tree.iter():
+        children = list(parent)
+        for k, child in enumerate(children):
+            if local(child.tag) == "h3" and child.get("id") == heading_id and k + 1 < len(children):
+                return children[k + 1]
+    return None
+
+
+def curve_points(tree):
+    """(attributes, [(rank, value)]) of the score curve, or (None, [])."""
+    curves = elements(tree, "g", "score-curve")
+    if len(curves) != 1:
+        return None, []
+    points = [(int(a), float(b)) for a, b in (p.split(":") for p in curves[0].get("data-points").split())]
+    return curves[0].attrib, points
+
+
+def p_histogram_checks(checks, tree, p_values, label):
+    """The p-value bars against numpy.histogram of `p_values` (20 bins on [0, 1])."""
+    fig = figure_after(tree, "p-values")
+    if fig is None:
+        checks.check(f"{label}: p-value histogram present", False)
+        return
+    # reference: numpy.histogram, 20 equal bins on [0, 1] (half-open, the last closed)
+    expected, edges = np.histogram(np.asarray(p_values, dtype=float), bins=20, range=(0.0, 1.0))
+    shown = np.zeros(20, dtype=int)
+    for g in (e for e in fig.iter() if local(e.tag) == "g" and e.get("class") == "bin"):
+        k = int(round(float(g.get("data-from")) * 20))
+        shown[k] += int(g.get("data-count"))
+    checks.check(f"{label}: p-value bars = numpy.histogram(p, 20, (0, 1))", shown.tolist() == expected.tolist(),
+                 f"{len(p_values)} p-values, first bar {shown[0]} (numpy {expected[0]})")
+    level = [t for t in fig.iter() if local(t.tag) == "text" and "expected with no signal" in text_of(t)]
+    checks.check(f"{label}: the uniform level is m / 20", len(level) == 1 and
+                 text_of(level[0]) == f"expected with no signal: {'%.3g' % (len(p_values) / 20)} per bar",
+                 text_of(level[0]) if level else "absent")
+
+
 # ---- the reduce run ---------------------------------------------------------------------------
+
+def scored_by_mi(log):
+    """Rows of selection-log.tsv with scores, sorted by mi, largest first, ties in input order (a
+    stable sort of the log, which is in input order)."""
+    h = log[0]
+    mi = h.index("mi")
+    rows = [r for r in log[1:] if r[mi] != "NA"]
+    return h, sorted(rows, key=lambda r: -float(r[mi]))
+
+
+def curve_checks(checks, tree, log, ranking, label, fdr=None, keep=None):
+    """The score curve against selection-log.tsv (and its cuts against the log and ranking.tsv)."""
+    h, ordered = scored_by_mi(log)
+    mi, q, feature = h.index("mi"), h.index("chi2_q"), h.index("feature")
+    attrs, points = curve_points(tree)
+    if attrs is None:
+        checks.check(f"{label}: score curve present", False)
+        return
+    ok = attrs.get("data-count") == str(len(ordered)) and attrs.get("data-column") == "mi" and len(points) > 1
+    ok = ok and all(1 <= r <= len(ordered) and v == float(ordered[r - 1][mi]) for r, v in points)
+    ok = ok and points[0][0] == 1 and points[-1][0] == len(ordered)
+    checks.check(f"{label}: curve = every scored feature's mi by rank (selection-log.tsv, sorted)", ok,
+                 f"{len(points)} of {len(ordered)} ranks drawn")
+    if keep is not None:
+        # reference: the last ranking.tsv feature's place in the order of every scored feature
+        position = {r[feature]: k + 1 for k, r in enumerate(ordered)}
+        expected = position[ranking[-1][1]]
+        checks.check(f"{label}: --keep cut at the rank of the last ranking.tsv feature",
+                     attrs.get("data-keep") == str(keep) and attrs.get("data-keep-rank") == str(expected),
+                     f"rank {expected} for {len(ranking) - 1} kept")
+    if fdr is not None:
+        passing = [k + 1 for k, r in enumerate(ordered) if float(r[q]) <= fdr]
+        checks.check(f"{label}: --fdr cut at the last feature with chi2_q <= {fdr}",
+                     attrs.get("data-fdr-rank") == str(passing[-1] if passing else 0)
+                     and attrs.get("data-fdr-passed") == str(len(passing)),
+                     f"{len(passing)} pass, the last at rank {passing[-1] if passing else 0}")
+
 
 def reduce_checks(checks, pare, tmp, data, x, ids, names):
     out = os.path.join(tmp, "reduce")
@@ -216,7 +317,122 @@ def reduce_checks(checks, pare, tmp, data, x, ids, names):
         rings = [text_of(c[0]).split(" \u00b7 ")[0] for c in svgs[0].iter()
                  if local(c.tag) == "circle" and c.get("fill") == "none"] if svgs else []
         checks.check("PC1 vs PC2: the flagged samples are ringed", sorted(rings) == PLANTED, f"{rings}")
+
+        # The score curve and the p-values (reference: selection-log.tsv, numpy.histogram).
+        curve_checks(checks, tree, log, ranking, "reduce", keep=40)
+        lh, ordered = scored_by_mi(log)
+        p_histogram_checks(checks, tree, [float(r[lh.index("chi2_p")]) for r in ordered], "reduce")
+        caution = elements(tree, "p", "caution")
+        checks.check("PCA of the kept features: says they were selected using the labels",
+                     len(caution) == 1 and "selected using the labels (group)" in text_of(caution[0]))
+        if WIRED_TOP_FEATURES:
+            strip_checks(checks, tree, out, ranking, ids)
+        else:
+            print("OFF strip plots (WIRED_TOP_FEATURES)")
     return out
+
+
+def read_reduced(out):
+    """reduced.csv as {sample id: {feature: cell text}} (rows=samples; any label column ignored)."""
+    with open(os.path.join(out, "reduced.csv"), newline="") as f:
+        rows = list(csv.reader(f))
+    head = rows[0]
+    return {r[0]: dict(zip(head[1:], r[1:])) for r in rows[1:]}
+
+
+def strip_checks(checks, tree, out, ranking, ids):
+    """Strip plots against reduced.csv and numpy.quantile."""
+    strips = elements(tree, "g", "strip")
+    names = [s.get("data-feature") for s in strips]
+    checks.check("strip plots: the first 6 features of ranking.tsv, in order",
+                 names == [r[1] for r in ranking[1:7]], f"{names}")
+    reduced = read_reduced(out)
+    labels = {}
+    with open(os.path.join(out, "samples.tsv"), newline="") as f:
+        for r in list(csv.reader(f, delimiter="\t"))[1:]:
+            labels[r[0]] = r[1]
+    values_ok, quartiles_ok, worst = True, True, 0.0
+    for s in strips:
+        feature = s.get("data-feature")
+        dots = [c for c in s.iter() if local(c.tag) == "circle" and c.get("data-value") is not None]
+        seen = {}
+        for c in dots:
+            sample = text_of(c[0]).split(" \u00b7 ")[0]
+            seen[sample] = c.get("data-value")
+        # reference: reduced.csv's cell of each sample, as text (both are the float's shortest form)
+        values_ok &= sorted(seen) == sorted(ids) and all(
+            float(v) == float(reduced[k][feature]) for k, v in seen.items())
+        for g in (e for e in s.iter() if local(e.tag) == "g" and e.get("class") == "strip-group"):
+            # The cells are float32 values written shortest: read them back as float32, as pare holds them.
+            v = np.array([reduced[k][feature] for k in ids if labels[k] == g.get("data-class")],
+                         dtype=np.float32).astype(np.float64)
+            # reference: numpy.quantile, default method (linear interpolation)
+            for attr, q in (("data-q1", 0.25), ("data-median", 0.5), ("data-q3", 0.75)):
+                ref = float(np.quantile(v, q))
+                dev = abs(float(g.get(attr)) - ref) / max(1.0, abs(ref))
+                worst = max(worst, dev)
+                quartiles_ok &= g.get("data-n") == str(len(v)) and dev < 1e-12
+    checks.check("strip plots: every sample's value = reduced.csv", values_ok and len(strips) == 6)
+    # Tolerance: the same interpolation on the same doubles; only rounding order may differ.
+    checks.check("strip plots: class quartiles and medians = numpy.quantile", quartiles_ok,
+                 f"largest relative difference {worst:.1e}")
+
+
+def mark_checks(checks, pare, tmp, data, ids, batch):
+    """--mark-by batch: the marked scatter's dots carry each sample's batch and its legend colour."""
+    base = os.path.splitext(data)[0]
+    out = os.path.join(tmp, "marked")
+    run([pare, "reduce", base + "-values.csv", "--labels", base + "-sheet.csv:group", "--mark-by", "batch",
+         "--keep", "40", "--components", "3", "--out", out], checks, "reduce --mark-by batch runs")
+    tree = strict_parse(checks, os.path.join(out, "report.html"), "reduce --mark-by report")
+    if tree is None:
+        return
+    svgs = [e for e in tree.iter() if local(e.tag) == "svg" and e.get("aria-label") == "Samples on PC1 and PC2 by batch"]
+    legends = [u for u in elements(tree, "ul", "legend") if text_of(u).startswith("batch:")]
+    colour = {}
+    for li in (legends[0] if legends else []):
+        circles = [c for c in li.iter() if local(c.tag) == "circle"]
+        m = re.fullmatch(r"\s*(.*) \((\d+)\)", text_of(li))
+        if circles and m:
+            colour[m[1]] = (circles[0].get("fill"), int(m[2]))
+    # reference: the sheet's batch column (empty cells are "missing"), counted here
+    expected = {}
+    for b in batch:
+        expected[b or "missing"] = expected.get(b or "missing", 0) + 1
+    checks.check("--mark-by: legend = the sheet's batch values and counts",
+                 {k: n for k, (_, n) in colour.items()} == expected, f"{colour}")
+    dots = [c for c in svgs[0].iter() if local(c.tag) == "circle" and c.get("fill") != "none"] if svgs else []
+    by_id = dict(zip(ids, batch))
+    ok = len(dots) == len(ids)
+    for c in dots:
+        parts = text_of(c[0]).split(" \u00b7 ")
+        value = by_id[parts[0]] or "missing"
+        ok &= f"batch {value}" in parts and colour.get(value, (None,))[0] == c.get("fill")
+    checks.check("--mark-by: every dot has its batch on hover and the legend's colour", ok and bool(svgs),
+                 f"{len(dots)} dots")
+
+
+def rank_report_checks(checks, pare, tmp, data):
+    """pare rank's report: the bars, the curve and the p-values against its ranking.tsv."""
+    out = os.path.join(tmp, "rank")
+    run([pare, "rank", data, "--label", "group", "--out", out], checks, "rank runs")
+    tree = strict_parse(checks, os.path.join(out, "report.html"), "rank report")
+    if tree is None:
+        return
+    ranking = read_tsv(os.path.join(out, "ranking.tsv"))
+    h = ranking[0]
+    mi, q, p = h.index("mi"), h.index("chi2_q"), h.index("chi2_p")
+    bars = elements(tree, "g", "feature")
+    checks.check("rank report: top 30 = ranking.tsv rows 1-30", len(bars) == 30 and all(
+        g.get("data-name") == r[1] and g.get("data-value") == r[mi] and g.get("data-q") == r[q]
+        for g, r in zip(bars, ranking[1:31])))
+    # Without --fdr and --keep ranking.tsv holds every feature in ranking order: the curve is its mi.
+    attrs, points = curve_points(tree)
+    checks.check("rank report: curve = ranking.tsv's mi column by rank",
+                 attrs is not None and attrs.get("data-count") == str(len(ranking) - 1) and
+                 all(v == float(ranking[r][mi]) for r, v in points) and points[-1][0] == len(ranking) - 1,
+                 f"{len(points)} ranks drawn")
+    p_histogram_checks(checks, tree, [float(r[p]) for r in ranking[1:]], "rank report")
 
 
 def robust_distance(scores, groups):
@@ -308,10 +524,7 @@ def png_size(path):
 def render_checks(checks, html, tmp):
     browser = shutil.which("chromium") or shutil.which("chromium-browser")
     if browser is None:
-        if IN_CI:
-            checks.check("chromium available (CI=true)", False, "install Debian's chromium (scripts/install-deps.sh)")
-        else:
-            print("SKIP render: chromium not found (install Debian's chromium; a failure under CI=true)")
+        checks.skip("render", "chromium not found (install Debian's chromium, scripts/install-deps.sh)")
         return
     width, height = 1200, 1600
     png = os.path.join(tmp, "report.png")
@@ -337,10 +550,7 @@ def render_checks(checks, html, tmp):
     try:
         from PIL import Image
     except ImportError:
-        if IN_CI:
-            checks.check("render: PIL available to read the picture (CI=true)", False, "install python3-pil")
-        else:
-            print("SKIP render: pixel checks (PIL missing; install python3-pil; a failure under CI=true)")
+        checks.skip("render: pixel checks", "PIL missing (install python3-pil)")
         return
     pixels = np.asarray(Image.open(png).convert("RGB"), dtype=np.int32)
     # Not blank: enough ink, and the palette's blue (the funnel, the bars, the dots) and
@@ -363,7 +573,7 @@ def main():
     started = time.monotonic()
     with tempfile.TemporaryDirectory(prefix="pare-report-ref-") as tmp:
         data = os.path.join(tmp, "data.csv")
-        x, ids, names, _ = make_data(data)
+        x, ids, names, _, batch = make_data(data)
         out = reduce_checks(checks, pare, tmp, data, x, ids, names)
         screen_checks(checks, out, x, ids)
 
@@ -380,11 +590,32 @@ def main():
         for command, extra in (("scan", ["--label", "group"]), ("project", ["--label", "group", "--components", "3"])):
             d = os.path.join(tmp, command)
             run([pare, command, data] + extra + ["--out", d], checks, f"{command} runs")
-            strict_parse(checks, os.path.join(d, "report.html"), f"{command} report")
+            tree = strict_parse(checks, os.path.join(d, "report.html"), f"{command} report")
+            if tree is not None and command == "project":
+                checks.check("project report: no word of label-chosen features (none were chosen)",
+                             not elements(tree, "p", "caution"))
+
+        # --fdr and --keep together: both cuts on the curve where the log puts them.
+        fdr = os.path.join(tmp, "fdr")
+        run([pare, "reduce", data, "--label", "group", "--fdr", "0.05", "--keep", "25", "--out", fdr],
+            checks, "reduce --fdr 0.05 --keep 25 runs")
+        tree = strict_parse(checks, os.path.join(fdr, "report.html"), "reduce --fdr report")
+        if tree is not None:
+            curve_checks(checks, tree, read_tsv(os.path.join(fdr, "selection-log.tsv")),
+                         read_tsv(os.path.join(fdr, "ranking.tsv")), "reduce --fdr 0.05 --keep 25", fdr=0.05, keep=25)
+
+        if WIRED_MARK_BY:
+            mark_checks(checks, pare, tmp, data, ids, batch)
+        else:
+            print("OFF --mark-by (WIRED_MARK_BY)")
+        if WIRED_RANK_REPORT:
+            rank_report_checks(checks, pare, tmp, data)
+        else:
+            print("OFF rank's report (WIRED_RANK_REPORT)")
 
         render_checks(checks, os.path.join(out, "report.html"), tmp)
-    print(f"{checks.passed} passed, {checks.failed} failed ({time.monotonic() - started:.1f} s)")
-    return 1 if checks.failed else 0
+    checks.summary(f" ({time.monotonic() - started:.1f} s)")
+    return checks.exit_code()
 
 
 if __name__ == "__main__":
