@@ -202,12 +202,17 @@ def score_features(x, features, codes, n_classes, bins, mean, variance):
         gaps = np.isnan(xb)
         per_class = np.stack([(~gaps[codes == c]).sum(axis=0) for c in range(n_classes)])
         constant = np.nanmin(xb, axis=0) == np.nanmax(xb, axis=0)
-        ok = (per_class >= 2).all(axis=0) & ~constant
-        defined[a:b] = ok
+        # As pare (SPEC section 9): MI and chi-square for every non-constant feature; F when
+        # more values are observed than classes. (anova_f uses every class, which is the same
+        # as pare's F over the observed classes when each class has an observed value, as in
+        # the benchmark data; this script does not handle a class absent from a feature.)
+        defined[a:b] = ~constant
+        f_ok = ~constant & ((per_class >= 1).sum(axis=0) >= 2) & (per_class.sum(axis=0) > n_classes)
         tables, _ = bin_class_tables(xb, codes, n_classes, bins)
         mi[a:b], chi2[a:b], chi2_df[a:b], key = mi_and_chi2(tables)
         keys.append(key)
         f[a:b], _, f_df2[a:b] = anova_f(xb.astype(np.float64), gaps, codes, n_classes, mean[cols])
+        f[a:b][~f_ok] = 0.0
     # Features without a defined result score 0 with p 1 (pare's few_values / constant flags).
     mi[~defined] = chi2[~defined] = f[~defined] = 0.0
     # Exact MI ties get one value (that of the first of them), so the stable ranking sort keeps

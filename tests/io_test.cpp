@@ -738,7 +738,7 @@ TEST_CASE("a text cell names its column and the option that takes it", "[io]") {
                "sets the list)");
 }
 
-TEST_CASE("--feature-info and --sample-info: text columns in either layout", "[io]") {
+TEST_CASE("io: --feature-info and --sample-info: text columns in either layout", "[io]") {
   TempDir dir;
   // rows=features, CRLF, quoted names with the delimiter; the annotation columns sit anywhere
   // after the id, the label line has fields under them (ignored).
@@ -808,7 +808,7 @@ TEST_CASE("--feature-info and --sample-info: text columns in either layout", "[i
                  "sample ids)");
 }
 
-TEST_CASE("--feature-info and --sample-info: each mistake gets its own message", "[io]") {
+TEST_CASE("io: --feature-info and --sample-info: each mistake gets its own message", "[io]") {
   TempDir dir;
   // Checked before the file is opened: usage errors, even for a file that does not exist.
   const std::string absent = dir.file("absent.csv");

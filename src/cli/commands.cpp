@@ -182,7 +182,7 @@ int command_scan(const std::vector<std::string>& args, std::ostream& out) {
       "pare scan DATA [options]\n\n"
       "Profiles a matrix and writes profile.tsv (one line per feature: n, missing, missing_rate,\n"
       "mean, variance, sd, min, max, flags), samples.tsv (per sample: missing rate, outlier distance\n"
-      "and flag) and report.html (plots; open it in a browser)",
+      "and flag) and report.html (plots; open it in a browser).\n\nscan",
       100, 50);
   desc.add_options()("log2", po::bool_switch(&log2), "screen samples for outliers on log2(x + 1), as reduce --log2 does");
   add_input_options(desc, input);
@@ -203,7 +203,7 @@ int command_demo(const std::vector<std::string>& args, std::ostream& out) {
       "batches; the planted role of every transcript in greenhouse-truth.tsv), then runs pare on it\n"
       "as a user would: scan, then reduce (--log2 --max-corr 0.9 --keep 200 --components 3\n"
       "--mark-by batch) into DIR/reduce, and reports how much of the planted structure was\n"
-      "recovered. Open DIR/reduce/report.html afterwards",
+      "recovered. Open DIR/reduce/report.html afterwards.\n\noptions",
       100, 50);
   add_common_options(desc, common, "pare-demo");
   if (!parse_command_line(args, desc, {}, out)) return 0;
@@ -239,7 +239,7 @@ int command_rank(const std::vector<std::string>& args, std::ostream& out) {
       "pare rank DATA (--label COLUMN | --labels SHEET[:COLUMN]) [options]\n\n"
       "Scores every feature against the class label (binned mutual information, chi-square test,\n"
       "one-way ANOVA F, Benjamini-Hochberg q-values) and writes ranking.tsv, best first, and\n"
-      "report.html (plots; open it in a browser)",
+      "report.html (plots; open it in a browser).\n\nscoring and ranking",
       100, 50);
   desc.add_options()
       ("log2", po::bool_switch(&log2), "score log2(x + 1) of the values, as reduce --log2 does")

@@ -13,7 +13,8 @@ namespace pare::cli {
 void add_common_options(po::options_description& desc, CommonOptions& common,
                         const std::string& default_out) {
   common.out = default_out;
-  desc.add_options()
+  po::options_description group("general", 100, 50);
+  group.add_options()
       ("out", po::value(&common.out)->default_value(default_out)->value_name("DIR"), "folder for the output files")
       ("threads", po::value(&common.threads)->default_value(0)->value_name("N"),
        "worker threads (0 = all cores); results do not depend on it")
@@ -23,10 +24,12 @@ void add_common_options(po::options_description& desc, CommonOptions& common,
        "write names exactly, even one a spreadsheet would run as a formula (by default a name "
        "starting with = + - @ is written with a leading ', which pare removes when reading)")
       ("help", "show this help");
+  desc.add(group);
 }
 
 void add_input_options(po::options_description& desc, InputOptions& input) {
-  desc.add_options()
+  po::options_description group("reading the data", 100, 50);
+  group.add_options()
       ("layout", po::value(&input.layout)->default_value("rows=samples")->value_name("LAYOUT"),
        "rows=samples (a sample per line) or rows=features (a feature per line)")
       ("delimiter", po::value(&input.delimiter)->value_name("D"),
@@ -45,10 +48,12 @@ void add_input_options(po::options_description& desc, InputOptions& input) {
        "worked through in column blocks (results are identical)")
       ("cache-dir", po::value(&input.cache_dir)->value_name("DIR"),
        "folder for that cache file (default: the output folder if it exists, else $TMPDIR)");
+  desc.add(group);
 }
 
 void add_sample_options(po::options_description& desc, InputOptions& input, bool supervised) {
-  desc.add_options()
+  po::options_description group("samples and annotations", 100, 50);
+  group.add_options()
       ("samples", po::value(&input.samples)->value_name("FILE"),
        "use only these samples: one sample id per line, no header, # lines ignored")
       ("feature-info", po::value(&input.feature_info)->value_name("COLUMNS"),
@@ -61,8 +66,9 @@ void add_sample_options(po::options_description& desc, InputOptions& input, bool
        "colour the report's sample plots by this column of the sample sheet (or --sample-info "
        "column) as well as by the label, e.g. batch");
   if (supervised)
-    desc.add_options()("min-class-size", po::value(&input.min_class_size)->default_value(0)->value_name("N"),
-                       "leave out the samples of classes with fewer than N samples (0 = keep every class)");
+    group.add_options()("min-class-size", po::value(&input.min_class_size)->default_value(0)->value_name("N"),
+                        "leave out the samples of classes with fewer than N samples (0 = keep every class)");
+  desc.add(group);
 }
 
 std::int64_t parse_size(const std::string& text, const char* option) {

@@ -463,7 +463,7 @@ int command_reduce(const std::vector<std::string>& args, std::ostream& out) {
       "selection-log.tsv (one line per input feature: kept or dropped, by which step, why), the\n"
       "reduced matrix (reduced.csv, or reduced.tsv for tab-separated input), plan.json (replayable\n"
       "with pare apply), samples.tsv (per sample: label, missing rate, outlier distance and flag)\n"
-      "and report.html (plots; open it in a browser)",
+      "and report.html (plots; open it in a browser).\n\nthe steps, in order",
       100, 50);
   ProjectSettings project;
   bool no_center = false;
@@ -498,7 +498,7 @@ int command_project(const std::vector<std::string>& args, std::ostream& out) {
       "Truncated PCA (centred; --scale for correlation PCA) or truncated SVD (--no-center) of every\n"
       "feature, no selection. Gaps are filled with the feature's mean first. Writes scores.csv,\n"
       "loadings.tsv, explained.tsv, plan.json (pare apply projects new samples with it),\n"
-      "samples.tsv and report.html",
+      "samples.tsv and report.html.\n\nthe projection",
       100, 50);
   desc.add_options()("log2", po::bool_switch(&log2), "analyse log2(x + 1) of the values, as reduce --log2 does")
       ("scale", po::bool_switch(&project.options.scale), "divide each centred feature by its sd");
@@ -561,7 +561,7 @@ int command_apply(const std::vector<std::string>& args, std::ostream& out) {
       "Replays a saved reduction on new samples: selects the plan's features by name, fills gaps with\n"
       "the training values, applies the same transform, and writes the reduced matrix (reduced.csv,\n"
       "or reduced.tsv for tab-separated input), apply-log.tsv and, with a projection in the plan,\n"
-      "scores.csv. Reading options default to those recorded in the plan",
+      "scores.csv. Reading options default to those recorded in the plan.\n\napply",
       100, 50);
   desc.add_options()("allow-missing-features", po::bool_switch(&allow_missing),
                      "fill features the new data lacks with their training values instead of stopping "

@@ -53,7 +53,6 @@ import time
 import numpy as np
 
 DATA_DIR = "/usr/lib/python3/dist-packages/sklearn/datasets/data"
-IN_CI = os.environ.get("CI", "").lower() == "true"
 
 # ---- tolerances ------------------------------------------------------------------------------
 # A decision is only well defined when the data are not on its threshold: pare and the reference
