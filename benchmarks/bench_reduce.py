@@ -159,9 +159,8 @@ def exact_eigenvalues(reduced_csv, label, k):
     with open(reduced_csv) as f:
         header = f.readline().rstrip("\r\n").split(",")
     dtypes = dict.fromkeys(header[1:], np.float32)
-    dtypes[label] = str
     df = pd.read_csv(reduced_csv, index_col=0, dtype=dtypes, low_memory=False)
-    x = df.drop(columns=[label]).to_numpy(dtype=np.float32)
+    x = df.to_numpy(dtype=np.float32)  # ids and numbers only
     del df
     n = x.shape[0]
     gram = np.zeros((n, n))

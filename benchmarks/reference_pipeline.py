@@ -40,7 +40,7 @@ src/reduce.cpp, src/ranking.cpp, src/prune.cpp and src/projection.cpp:
            features in rank order (centred, float32 as read), signs normalised as SPEC section 4
            says (the loading of largest magnitude positive); scores, loadings, explained variance
  write     ranking.tsv, selection-log.tsv, reduced.csv (kept columns, filled, "%.9g" which reads
-           back as the same float32), scores.csv, loadings.tsv, explained.tsv, kept-features.txt
+           back as the same float32; ids and numbers only), samples.tsv (ids, labels), scores.csv, loadings.tsv, explained.tsv, kept-features.txt
            (the kept names in final order, one a line) and run.json (seconds per step, peak RSS,
            BLAS)
 
@@ -465,8 +465,8 @@ def main():
     lap("pca_fit")
     kept_names = list(names[kept])
     pcs = [f"PC{c + 1}" for c in range(a.components)]
-    sc = pd.DataFrame(pc_scores, index=pd.Index(ids, name=id_name), columns=pcs)
-    sc[a.label] = labels
+    # as pare: scores.csv and reduced.csv hold ids and numbers only; the labels go to samples.tsv
+    sc = pd.DataFrame(pc_scores, index=pd.Index(ids, name="sample"), columns=pcs)
     sc.to_csv(os.path.join(a.out, "scores.csv"))
     pd.DataFrame(loadings, index=pd.Index(kept_names, name="feature"), columns=pcs).to_csv(
         os.path.join(a.out, "loadings.tsv"), sep="\t")
@@ -506,9 +506,10 @@ def main():
     log["missing_rate"] = missing_rate
     log.to_csv(os.path.join(a.out, "selection-log.tsv"), sep="\t", index=False, na_rep="NA",
                float_format="%.17g")
-    write_matrix_csv(os.path.join(a.out, "reduced.csv"),
-                     ",".join([id_name] + kept_names + [a.label]), ids,
-                     np.ascontiguousarray(x[:, kept]), labels)
+    write_matrix_csv(os.path.join(a.out, "reduced.csv"), ",".join([id_name] + kept_names), ids,
+                     np.ascontiguousarray(x[:, kept]))
+    pd.DataFrame({"sample": ids, a.label: labels}).to_csv(os.path.join(a.out, "samples.tsv"), sep="\t",
+                                                         index=False)
     lap("write")
 
     seconds["pca"] = seconds["pca_fit"] + seconds["pca_write"]

@@ -389,10 +389,21 @@ void fail_cell(Failure& f, CellStatus status, std::int64_t line, const char* lin
          "infinite value " + cell_text(begin, end) + " in column " + in_quotes(column_name),
          "pass --allow-inf to accept infinite values, or fix the export");
   } else {
+    // A decimal comma (European spreadsheets, semicolon-separated): digits, one comma, digits.
+    const std::string_view cell(begin, static_cast<std::size_t>(end - begin));
+    const auto comma = cell.find(',');
+    const auto digits = [](std::string_view d) {
+      return !d.empty() && std::all_of(d.begin(), d.end(), [](char c) { return c >= '0' && c <= '9'; });
+    };
+    const std::string_view whole = !cell.empty() && (cell[0] == '-' || cell[0] == '+') ? cell.substr(1) : cell;
+    const auto at = whole.find(',');
+    const bool decimal_comma = comma != std::string_view::npos && digits(whole.substr(0, at)) &&
+                               at != std::string_view::npos && digits(whole.substr(at + 1));
     fail(f, line, column,
          "cannot read " + cell_text(begin, end) + " in column " + in_quotes(column_name) +
              " as a number",
-         "missing values must be one of: " + na.describe() + "; --na sets the list");
+         decimal_comma ? "pare reads a decimal point: export the numbers with '.' as the decimal separator"
+                       : "missing values must be one of: " + na.describe() + "; --na sets the list");
   }
 }
 
@@ -652,7 +663,7 @@ void check_unique_sample_ids(const std::string& path, const std::vector<std::str
 // The header fields of the text columns named by --feature-info (rows=features) or --sample-info
 // (rows=samples), in the order given. The checks that need no file are in check_info_options.
 std::vector<std::int64_t> info_fields(const std::string& path, const Header& h, const std::vector<std::string>& names,
-                                      const char* option) {
+                                      const char* option, bool optional) {
   std::vector<std::int64_t> fields;
   for (const auto& name : names) {
     if (name == h.fields[0])
@@ -660,6 +671,7 @@ std::vector<std::int64_t> info_fields(const std::string& path, const Header& h, 
                         std::string(option) + " names " + in_quotes(name) + ", the id column",
                         "the first column holds the ids; name only text columns after it");
     const auto it = std::find(h.fields.begin() + 1, h.fields.end(), name);
+    if (it == h.fields.end() && optional) continue;  // (a plan's column the new data lacks)
     if (it == h.fields.end())
       throw_input_error({path, 1}, "no column named " + in_quotes(name) + " for " + option,
                         header_names_hint(h.fields));
@@ -721,14 +733,14 @@ FeatureTable read_rows_are_samples(const std::string& path, const internal::Inpu
                                        " for --label",
                         header_names_hint(h.fields));
   }
-  const std::vector<std::int64_t> info = info_fields(path, h, options.sample_info, "--sample-info");
+  const std::vector<std::int64_t> info = info_fields(path, h, options.sample_info, "--sample-info", options.info_optional);
   FeatureTable t;
   t.source = path;
   t.delimiter = delim;
   t.layout = Layout::kRowsAreSamples;
   t.id_name = h.fields[0];
   if (label_field >= 0) t.label_name = options.label_column;
-  t.sample_info_names = options.sample_info;
+  for (const std::int64_t field : info) t.sample_info_names.push_back(h.fields[static_cast<std::size_t>(field)]);
   t.sample_info.resize(info.size());
   // field index -> feature index (-1 for the id and the label column, -2 - c for the text
   // column c of --sample-info)
@@ -904,7 +916,7 @@ FeatureTable read_rows_are_features(const std::string& path, const internal::Inp
   const int threads = internal::thread_count(options.threads);
   const NaTokens na(options.na_tokens);
   const auto n_fields = static_cast<std::int64_t>(h.fields.size());
-  const std::vector<std::int64_t> info = info_fields(path, h, options.feature_info, "--feature-info");
+  const std::vector<std::int64_t> info = info_fields(path, h, options.feature_info, "--feature-info", options.info_optional);
   // field index -> --feature-info column, -1 for a sample (and the id)
   std::vector<std::int64_t> info_of(static_cast<std::size_t>(n_fields), -1);
   for (std::size_t c = 0; c < info.size(); ++c) info_of[static_cast<std::size_t>(info[c])] = static_cast<std::int64_t>(c);
@@ -920,7 +932,7 @@ FeatureTable read_rows_are_features(const std::string& path, const internal::Inp
   t.layout = Layout::kRowsAreFeatures;
   t.id_name = h.fields[0];
   t.label_name = options.label_column;
-  t.feature_info_names = options.feature_info;
+  for (const std::int64_t field : info) t.feature_info_names.push_back(h.fields[static_cast<std::size_t>(field)]);
   t.feature_info.resize(info.size());
   {
     std::vector<std::int64_t> columns;

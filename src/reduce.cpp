@@ -90,7 +90,10 @@ void check_reduce_options(const ReduceOptions& o) {
     throw_usage_error("--max-corr must be above 0 and at most 1", "an |r| limit such as 0.9; --no-prune skips the step");
   if (o.score.bins < 2) throw_usage_error("--bins must be 2 or more");
   if (o.score.neighbors < 1) throw_usage_error("--neighbors must be 1 or more");
-  if (o.threads < 0) throw_usage_error("--threads must be 1 or more (0 = all cores)");
+  if (o.threads < 0) throw_usage_error("--threads must be 0 (all cores) or more");
+  if (o.fdr < 1 && o.rank_by == Criterion::kVariance)
+    throw_usage_error("--fdr needs a criterion with a test, and variance has none",
+                      "rank by mi, chi2, chi2-counts or f, or leave out --fdr");
 }
 
 void log2_transform(FeatureTable& t, int threads) {

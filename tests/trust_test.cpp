@@ -318,3 +318,76 @@ TEST_CASE("trust: help shows placeholders and the steps in order", "[trust]") {
   REQUIRE(reduce.out.find("--labels SHEET[:COLUMN]") != std::string::npos);
   REQUIRE(ok({"--help"}).out.find("then scan and reduce it") != std::string::npos);
 }
+
+TEST_CASE("trust: mistakes a new user makes get a message, not a meaningless result", "[trust]") {
+  const PublicData wine = read_public("wine_data.csv", 1);
+  if (!wine.present) return;
+  TempDir dir;
+  const auto data = dir.write("wine.csv", samples_text(wine, ',', "cultivar"));
+  // --fdr has no test to filter on when ranking by variance, or without labels.
+  REQUIRE(run({"rank", data, "--label", "cultivar", "--rank-by", "variance", "--fdr", "0.05"}).code == 2);
+  REQUIRE(run({"reduce", data, "--rank-by", "variance", "--fdr", "0.05"}).code == 2);
+  REQUIRE(run({"reduce", data, "--fdr", "0.05", "--out", dir.file("x")}).code == 2);
+  REQUIRE(run({"reduce", data, "--seed", "-3"}).code == 2);
+  // More components than the kept features allow: an input error naming both counts.
+  const Run pca = run({"reduce", data, "--label", "cultivar", "--keep", "2", "--components", "5", "--out", dir.file("c")});
+  INFO(pca.err);
+  REQUIRE(pca.code == 3);
+  REQUIRE(pca.err.find("--components 5 asks for more than 2 kept features and 178 samples allow") != std::string::npos);
+  // Class names with a trailing space, and a measurement given as a label, are warned about.
+  std::string spaced = samples_text(wine, ',', "cultivar");
+  for (std::size_t at = spaced.find(",c1\n"); at != std::string::npos; at = spaced.find(",c1\n", at + 1)) {
+    spaced.replace(at, 4, ",c1 \n");
+    break;
+  }
+  const Run ws = ok({"rank", dir.write("spaced.csv", spaced), "--label", "cultivar", "--out", dir.file("ws")});
+  REQUIRE(ws.err.find("class 'c1 ' starts or ends with a space, so it is a class of its own, apart from 'c1'") !=
+          std::string::npos);
+  REQUIRE(ws.out.find("classes: cultivar - c0 59, c1 70, c1  1, c2 48") != std::string::npos);
+  // Proline (column 13, hundreds of distinct values) given as the label.
+  std::string measured = "id";
+  for (int j = 1; j <= 12; ++j) measured += ",f" + std::to_string(j);
+  measured += ",proline\n";
+  for (std::size_t i = 0; i < wine.n(); ++i) {
+    measured += "s" + std::to_string(i + 1);
+    for (const auto& v : wine.values[i]) measured += "," + v;
+    measured += "\n";
+  }
+  const Run m = run({"rank", dir.write("measured.csv", measured), "--label", "proline", "--out", dir.file("m")});
+  INFO(m.err);
+  REQUIRE(m.err.find("distinct numbers among 178 samples: pare scores classes") != std::string::npos);
+  // scan --log2 on negative values: the same error as the other commands.
+  std::string negative = "id,a,b\ns1,1,-2\ns2,2,3\ns3,3,4\n";
+  const Run neg = run({"scan", dir.write("neg.csv", negative), "--log2", "--out", dir.file("n")});
+  REQUIRE(neg.code == 3);
+  REQUIRE(neg.err.find("feature b has negative values (min -2)") != std::string::npos);
+  // A decimal comma in a semicolon file.
+  const Run comma = run({"scan", dir.write("semi.csv", "id;a;b\ns1;1,5;2\ns2;3;4\n"), "--out", dir.file("s")});
+  REQUIRE(comma.code == 3);
+  REQUIRE(comma.err.find("pare reads a decimal point") != std::string::npos);
+}
+
+TEST_CASE("trust: apply detects the new file's delimiter and takes the plan's columns where present", "[trust]") {
+  const PublicData wine = read_public("wine_data.csv", 1);
+  if (!wine.present) return;
+  TempDir dir;
+  // Trained on a TSV export with a batch column; held-out samples arrive as CSV without it.
+  std::string train = "id\tbatch";
+  for (std::size_t j = 0; j < wine.p(); ++j) train += "\tf" + std::to_string(j + 1);
+  train += "\tcultivar\n";
+  for (std::size_t i = 0; i < 120; ++i) {
+    train += "s" + std::to_string(i + 1) + (i % 2 ? "\tA" : "\tB");
+    for (const auto& v : wine.values[i]) train += "\t" + v;
+    train += "\tc" + wine.classes[i] + "\n";
+  }
+  ok({"reduce", dir.write("train.tsv", train), "--label", "cultivar", "--sample-info", "batch", "--keep", "4",
+      "--out", dir.file("fit")});
+  PublicData held = wine;
+  held.values.erase(held.values.begin(), held.values.begin() + 120);
+  held.classes.erase(held.classes.begin(), held.classes.begin() + 120);
+  const Run r = ok({"apply", dir.file("fit/plan.json"), dir.write("held.csv", samples_text(held)), "--out", dir.file("a")});
+  REQUIRE(r.out.find("4 of the plan's 4 features present") != std::string::npos);
+  const auto reduced = table_of(TempDir::read(dir.file("a/reduced.csv")), ',');
+  REQUIRE(reduced.size() == held.n() + 1);
+  REQUIRE(reduced.front().size() == 5);
+}

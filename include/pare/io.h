@@ -21,6 +21,8 @@ struct ReadOptions {
   std::vector<std::string> na_tokens = default_na_tokens();
   bool allow_inf = false;                            ///< accept inf/-inf as values
   std::string label_column;                          ///< column (or row, rows=features) of labels
+  bool info_optional = false;                        ///< feature_info / sample_info names the file
+                                                     ///< lacks are ignored (apply: the plan's columns)
   bool label_optional = false;                       ///< a label_column the file lacks means no labels
                                                      ///< (apply: new samples often come unlabelled)
   /// rows=features: header names of text columns describing each feature (symbol, chromosome):

@@ -104,6 +104,14 @@ int scan_and_report(const InputOptions& input, const CommonOptions& common, bool
   auto lap = std::chrono::steady_clock::now();
   const Profile profile = profile_table(table, options);
   const double profile_seconds = seconds_since(lap);
+  // --log2 on negative values is an error here as in rank, reduce and project (the screen would
+  // otherwise leave such features out without a word).
+  if (log2)
+    for (std::size_t j = 0; j < profile.features.size(); ++j)
+      if (profile.features[j].n > 0 && profile.features[j].min < 0)
+        throw Error(ErrorKind::kInput, table.source + ": feature " + table.feature_names[j] + " has negative values (min " +
+                                           short_number(profile.features[j].min) +
+                                           "), so --log2 cannot apply (leave out --log2, or transform it yourself)");
   lap = std::chrono::steady_clock::now();
   ScreenOptions screen_options;
   screen_options.log2 = log2;
@@ -205,7 +213,7 @@ int command_demo(const std::vector<std::string>& args, std::ostream& out) {
       "--mark-by batch) into DIR/reduce, and reports how much of the planted structure was\n"
       "recovered. Open DIR/reduce/report.html afterwards.\n\noptions",
       100, 50);
-  add_common_options(desc, common, "pare-demo");
+  add_common_options(desc, common, "pare-demo", false);
   if (!parse_command_line(args, desc, {}, out)) return 0;
   const DemoFiles files = write_demo(common.out, common.seed);
   if (!common.quiet)
@@ -217,10 +225,11 @@ int command_demo(const std::vector<std::string>& args, std::ostream& out) {
   input.data = files.data;
   input.layout = "rows=features";
   input.labels = files.samples + ":condition";
+  input.mark_by = "batch";
   // The demo reduces on the log2 scale, so its scan screens samples on that scale too.
   scan_and_report(input, common, true,
-                  {"pare", "scan", files.data, "--layout", "rows=features", "--labels", input.labels, "--log2", "--out",
-                   common.out},
+                  {"pare", "scan", files.data, "--layout", "rows=features", "--labels", input.labels, "--log2",
+                   "--mark-by", "batch", "--out", common.out},
                   out);
   return demo_reduce(files.data, files.samples, files.truth, common, out);
 }
@@ -259,6 +268,9 @@ int command_rank(const std::vector<std::string>& args, std::ostream& out) {
   if (estimator == "knn") score.mi = MiEstimator::kKnn;
   else if (estimator != "binned") throw_usage_error("--mi-estimator " + estimator + " is not binned or knn");
   if (!(fdr > 0 && fdr <= 1)) throw_usage_error("--fdr must be in (0, 1]");
+  if (fdr < 1 && criterion == Criterion::kVariance)
+    throw_usage_error("--fdr needs a criterion with a test, and variance has none",
+                      "rank by mi, chi2, chi2-counts or f, or leave out --fdr");
   if (keep < 0) throw_usage_error("--keep must be 0 (all) or more");
   if (score.bins < 2) throw_usage_error("--bins must be 2 or more");
   if (score.neighbors < 1) throw_usage_error("--neighbors must be 1 or more");
@@ -344,6 +356,7 @@ int command_rank(const std::vector<std::string>& args, std::ostream& out) {
       << thousands(table.n_samples()) << " samples, " << classes.classes.size() << " classes, ranked by "
       << criterion_name(criterion) << ", transform " << transform << "\n";
   print_left_out(out, loaded.left_out, loaded.samples_read, table.n_samples(), input.samples);
+  out << "  classes: " << class_counts_text(table) << "\n";
   std::vector<std::vector<std::string>> rows;
   rows.push_back({"rank", "feature", "mi", "chi2", "chi2_q", "f", "f_q"});
   if (score.counts_chi2) rows.front().insert(rows.front().end(), {"chi2_counts", "counts_q"});

@@ -2,6 +2,7 @@
 
 #include <algorithm>   // std::find
 #include <cctype>      // std::toupper
+#include <cstdlib>     // std::strtod
 #include <filesystem>  // std::filesystem::is_directory
 #include <string>      // std::stod
 
@@ -11,27 +12,32 @@
 namespace pare::cli {
 
 void add_common_options(po::options_description& desc, CommonOptions& common,
-                        const std::string& default_out) {
+                        const std::string& default_out, bool grouped) {
   common.out = default_out;
   po::options_description group("general", 100, 50);
-  group.add_options()
+  po::options_description& to = grouped ? group : desc;
+  to.add_options()
       ("out", po::value(&common.out)->default_value(default_out)->value_name("DIR"), "folder for the output files")
       ("threads", po::value(&common.threads)->default_value(0)->value_name("N"),
        "worker threads (0 = all cores); results do not depend on it")
-      ("seed", po::value(&common.seed)->default_value(1)->value_name("N"), "seed for anything random")
+      ("seed", po::value<std::int64_t>()->default_value(1)->value_name("N")->notifier([&common](std::int64_t seed) {
+         if (seed < 0) throw_usage_error("--seed must be 0 or more");
+         common.seed = static_cast<std::uint64_t>(seed);
+       }),
+       "seed for anything random")
       ("quiet", po::bool_switch(&common.quiet), "print nothing but errors")
       ("raw-names", po::bool_switch()->notifier([](bool raw) { set_formula_guard(!raw); }),
        "write names exactly, even one a spreadsheet would run as a formula (by default a name "
        "starting with = + - @ is written with a leading ', which pare removes when reading)")
       ("help", "show this help");
-  desc.add(group);
+  if (grouped) desc.add(group);
 }
 
 void add_input_options(po::options_description& desc, InputOptions& input) {
   po::options_description group("reading the data", 100, 50);
   group.add_options()
-      ("layout", po::value(&input.layout)->default_value("rows=samples")->value_name("LAYOUT"),
-       "rows=samples (a sample per line) or rows=features (a feature per line)")
+      ("layout", po::value(&input.layout)->value_name("LAYOUT"),
+       "rows=samples (a sample per line; the default) or rows=features (a feature per line)")
       ("delimiter", po::value(&input.delimiter)->value_name("D"),
        "field separator: comma, tab or semicolon (default: detected from the header)")
       ("label", po::value(&input.label)->value_name("COLUMN"),
@@ -188,7 +194,7 @@ std::vector<std::string> split_names(const std::string& text) {
 
 ReadOptions read_options_from(const InputOptions& input, const CommonOptions& common) {
   ReadOptions r;
-  if (common.threads < 0) throw_usage_error("--threads must be 1 or more (0 = all cores)");
+  if (common.threads < 0) throw_usage_error("--threads must be 0 (all cores) or more");
   r.threads = common.threads;
   if (input.layout == "rows=samples" || input.layout == "samples") {
     r.layout = Layout::kRowsAreSamples;
@@ -204,6 +210,7 @@ ReadOptions read_options_from(const InputOptions& input, const CommonOptions& co
     throw_usage_error("give --label or --labels, not both");
   r.label_column = input.label;
   r.label_optional = input.label_optional;
+  r.info_optional = input.info_optional;
   r.feature_info = split_names(input.feature_info);
   r.sample_info = split_names(input.sample_info);
   if (!r.feature_info.empty() && r.layout != Layout::kRowsAreFeatures)
@@ -263,6 +270,37 @@ void require_two_classes(const FeatureTable& table, const InputOptions& input) {
 
 namespace {
 
+// Warns about labels that look like a mistake: classes that differ only by spaces around the
+// name, and labels that look like a continuous measurement (many distinct numbers), which pare
+// would score as that many classes.
+void check_label_shapes(const CommonOptions& common, const FeatureTable& table) {
+  const ClassCodes codes = encode_classes(table.labels);
+  const auto trim = [](const std::string& s) {
+    const auto b = s.find_first_not_of(" \t"), e = s.find_last_not_of(" \t");
+    return b == std::string::npos ? std::string() : s.substr(b, e - b + 1);
+  };
+  for (const auto& name : codes.classes)
+    if (trim(name) != name) {
+      warn(common, "class '" + name + "' starts or ends with a space, so it is a class of its own" +
+                       (std::binary_search(codes.classes.begin(), codes.classes.end(), trim(name))
+                            ? ", apart from '" + trim(name) + "'"
+                            : std::string()) +
+                       " (check the label column)");
+      break;
+    }
+  const auto n = static_cast<std::int64_t>(table.labels.size());
+  const auto k = static_cast<std::int64_t>(codes.classes.size());
+  if (k < 10 || 5 * k < n) return;
+  for (const auto& name : codes.classes) {
+    char* end = nullptr;
+    (void)std::strtod(name.c_str(), &end);
+    if (name.empty() || end != name.c_str() + name.size()) return;
+  }
+  warn(common, "the labels are " + std::to_string(k) + " distinct numbers among " + std::to_string(n) +
+                   " samples: pare scores classes, so a continuous measurement gives a meaningless ranking "
+                   "(group it into a few classes first)");
+}
+
 // Reads the data (and the sheet, first: its mistakes show before a long read) and keeps the
 // samples of --samples. The sheet is returned for --mark-by.
 FeatureTable read_and_restrict(const InputOptions& input, const CommonOptions& common, SampleSheet& sheet,
@@ -315,6 +353,7 @@ LoadedData load_data(const InputOptions& input, const CommonOptions& common, boo
     if (!table.has_labels() || table.n_samples() == 0)
       throw_input_error({input.labels.empty() ? input.data : sheet_path_of(input.labels)},
                         "no sample is left with a label", "check the label column and --min-class-size");
+    check_label_shapes(common, table);
     const auto rare = rare_classes(table, 3);
     if (!rare.empty()) {
       std::string names;

@@ -20,7 +20,7 @@ namespace po = boost::program_options;
 struct CommonOptions {
   std::string out = ".";
   int threads = 0;
-  std::uint64_t seed = 1;
+  std::uint64_t seed = 1;           ///< set through --seed (0 or more)
   bool quiet = false;
 };
 
@@ -42,6 +42,7 @@ struct InputOptions {
   std::string mark_by;       ///< --mark-by COLUMN (report colours)
   std::int64_t min_class_size = 0;  ///< --min-class-size N (supervised commands)
   bool label_optional = false;      ///< a --label the file lacks means no labels (apply)
+  bool info_optional = false;       ///< --feature-info/--sample-info names the file lacks are ignored
 };
 
 /// A data file as loaded for a command: the table restricted to the chosen samples, and what was
@@ -57,8 +58,9 @@ struct LoadedData {
 /// Parses a size such as 500M, 2G, 1.5GiB or 800000000 (bytes; K, M, G, T are powers of 1024).
 std::int64_t parse_size(const std::string& text, const char* option);
 
+/// `grouped`: the options go under a "general" heading (false for a command with no others).
 void add_common_options(po::options_description& desc, CommonOptions& common,
-                        const std::string& default_out);
+                        const std::string& default_out, bool grouped = true);
 void add_input_options(po::options_description& desc, InputOptions& input);
 
 /// The positional arguments of a command, in order: name (for messages) and where its value goes.

@@ -239,6 +239,13 @@ ReduceRun reduce_and_write(const InputOptions& input, const CommonOptions& commo
   PlanProjection plan_projection;
   if (project.options.components > 0) {
     const auto start_pca = std::chrono::steady_clock::now();
+    const auto most = std::min<std::int64_t>(run.table.n_samples(), static_cast<std::int64_t>(r.kept.size()));
+    if (project.options.components > most)
+      throw Error(ErrorKind::kInput,
+                  run.table.source + ": --components " + std::to_string(project.options.components) + " asks for more than " +
+                      std::to_string(r.kept.size()) + " kept feature" + (r.kept.size() == 1 ? "" : "s") + " and " +
+                      std::to_string(run.table.n_samples()) + " samples allow (at most " + std::to_string(most) +
+                      "; ask for fewer, or keep more features)");
     ProjectionOptions po = project.options;
     po.scale = options.scale ? false : project.options.scale;  // --scale already standardised them
     po.seed = common.seed;
@@ -370,6 +377,7 @@ ReduceRun reduce_and_write(const InputOptions& input, const CommonOptions& commo
           << criterion_name(r.criterion);
     out << "\n";
     print_left_out(out, run.left_out, run.samples_read, static_cast<std::int64_t>(run.input_ids.size()), input.samples);
+    if (r.supervised) out << "  classes: " << class_counts_text(run.table) << "\n";
     print_steps(out, r, project.selection_outputs);
     if (project.selection_outputs && options.keep > 0 && static_cast<std::int64_t>(r.kept.size()) < options.keep)
       out << "  note: kept " << thousands(static_cast<std::int64_t>(r.kept.size())) << ", fewer than --keep "
@@ -477,6 +485,9 @@ int command_reduce(const std::vector<std::string>& args, std::ostream& out) {
   if (!parse_command_line(args, desc, {{"data", &input.data}}, out)) return 0;
   // Every option is checked before the data is read (a large file takes minutes).
   finish_reduce_options(options, impute, rank_by, estimator, no_missing, no_variance, no_prune, common);
+  if (options.fdr < 1 && input.label.empty() && input.labels.empty())
+    throw_usage_error("--fdr filters on a test against the labels, and no labels were given",
+                      "give --label COLUMN or --labels SHEET, or leave out --fdr");
   project.options.center = !no_center;
   project.options.scale = options.scale;
   check_projection_options(project.options, false);
@@ -561,7 +572,8 @@ int command_apply(const std::vector<std::string>& args, std::ostream& out) {
       "Replays a saved reduction on new samples: selects the plan's features by name, fills gaps with\n"
       "the training values, applies the same transform, and writes the reduced matrix (reduced.csv,\n"
       "or reduced.tsv for tab-separated input), apply-log.tsv and, with a projection in the plan,\n"
-      "scores.csv. Reading options default to those recorded in the plan.\n\napply",
+      "scores.csv. Reading options default to those recorded in the plan (the delimiter is\n"
+      "detected from the new file).\n\napply",
       100, 50);
   desc.add_options()("allow-missing-features", po::bool_switch(&allow_missing),
                      "fill features the new data lacks with their training values instead of stopping "
@@ -576,7 +588,8 @@ int command_apply(const std::vector<std::string>& args, std::ostream& out) {
   // Reading options the command line did not set come from the plan.
   const auto given = [&](const char* name) { return values.count(name) > 0 && !values[name].defaulted(); };
   if (!given("layout")) input.layout = plan.layout;
-  if (!given("delimiter")) input.delimiter = std::string(1, plan.delimiter) == "\t" ? "tab" : std::string(1, plan.delimiter);
+  // (the delimiter is detected from the new file's header: held-out samples often come as CSV
+  // when the training export was TSV)
   // The plan's label column is read when the new data has it; new samples often have none.
   if (!given("label") && !given("labels")) {
     input.label = plan.label;
@@ -588,8 +601,12 @@ int command_apply(const std::vector<std::string>& args, std::ostream& out) {
     input.na_given = true;
   }
   if (!given("allow-inf")) input.allow_inf = plan.allow_inf;
-  if (!given("feature-info") && input.layout == plan.layout) input.feature_info = join_names(plan.feature_info);
-  if (!given("sample-info") && input.layout == plan.layout) input.sample_info = join_names(plan.sample_info);
+  // The plan's annotation columns are carried when the new data has them.
+  if (!given("feature-info") && !given("sample-info") && input.layout == plan.layout) {
+    input.feature_info = join_names(plan.feature_info);
+    input.sample_info = join_names(plan.sample_info);
+    input.info_optional = true;
+  }
 
   const FeatureTable data = load_table(input, common);
   ApplyReport report;
@@ -620,12 +637,14 @@ int command_apply(const std::vector<std::string>& args, std::ostream& out) {
   if (!common.quiet) {
     std::int64_t filled = 0;
     for (auto f : report.filled) filled += f;
+    const auto present = static_cast<std::int64_t>(plan.names.size() - report.absent.size());
     out << "pare apply: " << data.source << " - " << thousands(data.n_samples()) << " samples, "
-        << thousands(static_cast<std::int64_t>(plan.names.size())) << " features of the plan ("
-        << thousands(report.extra) << " other features ignored)\n";
+        << thousands(present) << " of the plan's " << thousands(static_cast<std::int64_t>(plan.names.size()))
+        << " features present (" << thousands(report.extra) << " other features ignored)\n";
     out << "  filled " << thousands(filled) << " missing cells with training values";
     if (!report.absent.empty())
-      out << "; " << report.absent.size() << " features absent from the data, filled entirely (see apply-log.tsv)";
+      out << "; " << report.absent.size() << (report.absent.size() == 1 ? " feature" : " features")
+          << " absent from the data, filled entirely (see apply-log.tsv)";
     out << "\n  wrote " << files.path(reduced_name) << ", apply-log.tsv";
     if (per_sample) out << ", samples.tsv";
     if (plan.components > 0) out << ", scores.csv (" << plan.components << " components)";
@@ -717,6 +736,15 @@ int demo_reduce(const std::string& data, const std::string& samples, const std::
     out << "\nreport: " << join_path(reduce_common.out, "report.html") << " (open it in a browser)\n";
   }
   return 0;
+}
+
+std::string class_counts_text(const FeatureTable& table) {
+  const ClassCodes codes = encode_classes(table.labels);
+  std::string text = (table.label_name.empty() ? std::string("label") : table.label_name) + " -";
+  for (std::size_t c = 0; c < codes.classes.size() && c < 12; ++c)
+    text += (c ? ", " : " ") + codes.classes[c] + " " + thousands(codes.counts[c]);
+  if (codes.classes.size() > 12) text += ", ... (" + thousands(static_cast<std::int64_t>(codes.classes.size())) + " classes)";
+  return text;
 }
 
 void print_left_out(std::ostream& out, const SamplesLeftOut& left, std::int64_t samples_read, std::int64_t samples_used,

@@ -23,6 +23,9 @@ void print_sample_screen(std::ostream& out, const SampleScreen& screen, const st
 void print_left_out(std::ostream& out, const SamplesLeftOut& left, std::int64_t samples_read, std::int64_t samples_used,
                     const std::string& sample_list);
 
+/// The classes of `table` and their sample counts, e.g. "condition - sensitive 180, tolerant 60".
+std::string class_counts_text(const FeatureTable& table);
+
 /// Reduces the demo data into common.out/reduce and reports recovery of the planted truth.
 int demo_reduce(const std::string& data, const std::string& samples, const std::string& truth,
                 const CommonOptions& common, std::ostream& out);
