@@ -1,7 +1,7 @@
 // report.html, the parts that help choose and judge a selection: the score of every ranked
 // feature against its rank (with the --fdr and --keep cuts), the ranking test's p-values, strip
 // plots of the leading kept features by class, and the samples coloured by a sheet column
-// (--mark-by). The page itself is assembled in src/report.cpp.
+// (--mark-by). The page itself is assembled in src/report_page.cpp.
 #include <algorithm>  // std::sort, std::stable_sort, std::min, std::max
 #include <cmath>      // std::isfinite, std::log10, std::floor, std::ceil, std::pow
 #include <cstdint>    // std::int64_t, std::uint64_t

@@ -1,6 +1,8 @@
-// The drawing helpers of report.html shared by src/report.cpp (the page, the funnel, the filter
-// histograms, the components and samples) and src/report_plots.cpp (the score curve, the p-value
-// histogram, the strip plots of the top features, the samples coloured by a sheet column).
+// The drawing helpers of report.html shared by its sources: src/report_text.cpp (formatting),
+// src/report_charts.cpp (the funnel, the filter histograms, the bars, the components and samples),
+// src/report_page.cpp (the page), src/report_data.cpp (the builders) and src/report_plots.cpp (the
+// score curve, the p-value histogram, the strip plots of the top features, the samples coloured by
+// a sheet column).
 #pragma once
 
 #include <cstddef>      // std::size_t
@@ -53,6 +55,8 @@ std::string shortest(double v);
 std::string shortest(float v);
 /// 10 with a superscript exponent, e.g. 10⁻⁸.
 std::string power_of_ten(int e);
+/// The word as a POSIX shell reads it back: unchanged when safe, else in single quotes.
+std::string shell_quote(const std::string& word);
 
 // ---- axes and shapes
 /// A step of 1, 2 or 5 times a power of ten near range / target.
@@ -81,8 +85,15 @@ void x_axis(std::string& s, const Scale& x, double y, const std::vector<double>&
 void log_count_axis(std::string& s, const Scale& y, double x, int top, double grid_to,
                     const std::string& label, double mid_y);
 
+/// Features into and out of every step, one row per step.
+std::string funnel_svg(const std::vector<ReportStep>& steps);
 /// A histogram with a logarithmic count axis; `caption_extra` receives a note on values left out.
 std::string histogram_svg(const ReportHistogram& h, std::string& caption_extra);
+/// Horizontal bars with names on the left and the value printed at the end; optional q column.
+std::string bars_svg(const std::vector<ReportBar>& bars, const std::string& axis, bool show_q,
+                     const char* cls, const std::string& aria);
+/// The variance ratio of every component, with the cumulative share.
+std::string scree_svg(const ReportComponents& c);
 
 // ---- groups of samples
 /// The groups a scatter or strip plot colours by: names (as the legend shows them), sizes, a

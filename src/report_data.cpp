@@ -1,0 +1,379 @@
+// The builders that fill a ReportData from a run: add_reduction, add_components, add_screen,
+// add_profile and add_plan_record, with the ranking words they and the plots share.
+#include <algorithm>  // std::max, std::min, std::sort, std::stable_sort
+#include <cmath>      // std::isnan
+#include <map>        // std::map
+
+#include "pare/report.h"
+
+#include "internal/plan_document.h"
+#include "internal/report_html.h"
+#include <nlohmann/json.hpp>
+
+namespace pare {
+
+// ---- builders
+// -----------------------------------------------------------------------------------------
+
+namespace internal::html {
+
+const char* criterion_column(Criterion c) {
+  switch (c) {
+    case Criterion::kMi:
+      return "mi";
+    case Criterion::kChi2:
+      return "chi2";
+    case Criterion::kChi2Counts:
+      return "chi2_counts";
+    case Criterion::kF:
+      return "f";
+    case Criterion::kVariance:
+      break;
+  }
+  return "variance";
+}
+
+const char* criterion_q_column(Criterion c) {
+  switch (c) {
+    case Criterion::kMi:
+    case Criterion::kChi2:
+      return "chi2_q";
+    case Criterion::kChi2Counts:
+      return "chi2_counts_q";
+    case Criterion::kF:
+      return "f_q";
+    case Criterion::kVariance:
+      break;
+  }
+  return "";
+}
+
+const char* criterion_axis(Criterion c) {
+  switch (c) {
+    case Criterion::kMi:
+      return "mutual information with the class (nats)";
+    case Criterion::kChi2:
+      return "chi-square statistic of bins \xC3\x97 classes";
+    case Criterion::kChi2Counts:
+      return "counts chi-square statistic";
+    case Criterion::kF:
+      return "one-way ANOVA F statistic";
+    case Criterion::kVariance:
+      break;
+  }
+  return "sample variance";
+}
+
+}  // namespace internal::html
+
+using namespace internal::html;
+
+void add_reduction(ReportData& d, const FeatureTable& t, const Reduction& r, const ReduceOptions& o,
+                   bool selection) {
+  for (const auto& st : r.steps) d.steps.push_back({st.name, st.in, st.out, st.seconds});
+  const std::size_t p = r.decisions.size();
+
+  ReportHistogram miss;
+  miss.id = "missing";
+  miss.title = "Missing rate of every input feature";
+  miss.axis = "missing rate (fraction of samples without a value)";
+  miss.lo = 0;
+  miss.hi = 1;
+  miss.bin_width = 0.02;
+  miss.cut_keeps_equal_above = false;
+  miss.values.reserve(p);
+  for (std::size_t j = 0; j < p; ++j) miss.values.push_back(r.raw_stats[j].missing_rate());
+  std::int64_t miss_dropped = 0;
+  if (selection && o.missing_filter) {
+    miss.dropped.resize(p);
+    for (std::size_t j = 0; j < p; ++j)
+      miss_dropped += miss.dropped[j] = !r.decisions[j].kept && r.decisions[j].step == "missing";
+    miss.cuts.push_back({o.drop_missing_above, "drop missing above " + g(o.drop_missing_above)});
+    miss.caption = "All " + count(static_cast<std::int64_t>(p)) +
+                   " input features. The missing filter drops a feature "
+                   "missing in more than " +
+                   percent(o.drop_missing_above, 0) + " of the samples: " + count(miss_dropped) +
+                   " dropped.";
+  } else {
+    miss.caption = "All " + count(static_cast<std::int64_t>(p)) +
+                   " input features; no missing filter ran (gaps are "
+                   "filled with the feature's " +
+                   impute_name(o.impute) + ").";
+  }
+  d.histograms.push_back(std::move(miss));
+
+  ReportHistogram var;
+  var.id = "variance";
+  var.title = "Variance of the features that reached the variance filter";
+  var.axis = std::string("sample variance, log scale (") +
+             (o.log2 ? "of log2(x + 1) values" : "squared units of the data") + ")";
+  var.log_x = true;
+  var.cut_keeps_equal_above = true;
+  std::vector<std::size_t> reached;
+  for (std::size_t j = 0; j < p; ++j)
+    if (!(r.decisions[j].step == "missing" && !r.decisions[j].kept)) reached.push_back(j);
+  std::int64_t var_dropped = 0;
+  double boundary = kNaN;
+  for (const std::size_t j : reached) var.values.push_back(r.variance[j]);
+  if (selection && o.variance_filter) {
+    for (const std::size_t j : reached) {
+      const bool gone = !r.decisions[j].kept && r.decisions[j].step == "variance";
+      var.dropped.push_back(gone);
+      var_dropped += gone;
+      if (gone && r.variance[j] >= o.min_variance &&
+          (std::isnan(boundary) || r.variance[j] > boundary))
+        boundary = r.variance[j];
+    }
+    if (o.min_variance > 0)
+      var.cuts.push_back({o.min_variance, "min variance " + g(o.min_variance)});
+    if (o.drop_low_variance > 0 && !std::isnan(boundary))
+      var.cuts.push_back(
+          {boundary, "lowest " + g(100 * o.drop_low_variance) + "% (up to " + g(boundary) + ")"});
+    var.caption = count(static_cast<std::int64_t>(reached.size())) +
+                  " features, variance of their observed values "
+                  "(ddof 1). " +
+                  count(var_dropped) + " dropped. Variance 0 (constant) is drawn at 0.";
+  } else {
+    var.caption = count(static_cast<std::int64_t>(reached.size())) +
+                  " features, variance of their observed values "
+                  "(ddof 1); no variance filter ran. Variance 0 (constant) is drawn at 0.";
+  }
+  d.histograms.push_back(std::move(var));
+
+  if (!selection) return;
+  // The leading features (as ranking.tsv writes them), the score curve and the p-values.
+  if (r.supervised && o.relevance) {
+    const std::vector<std::size_t> order = rank_order(r.scores, r.criterion);
+    std::vector<std::size_t> kept;
+    kept.reserve(r.kept.size());
+    for (const std::int64_t j : r.kept)
+      kept.push_back(static_cast<std::size_t>(r.score_of[static_cast<std::size_t>(j)]));
+    add_ranking(d, t, r.scores, order, kept, r.criterion, o.fdr, o.keep);
+    d.chosen_with_labels = r.criterion != Criterion::kVariance;
+  } else {
+    d.ranking.criterion = criterion_name(r.criterion);
+    d.ranking.column = criterion_column(r.criterion);
+    d.ranking.axis = criterion_axis(r.criterion);
+    d.ranking.total = static_cast<std::int64_t>(r.kept.size());
+    if (!o.relevance) {
+      d.ranking_note = "No ranking ran: the kept features are in input order.";
+    } else {
+      for (std::size_t k = 0; k < r.kept.size() && k < 30; ++k) {
+        const auto j = static_cast<std::size_t>(r.kept[k]);
+        ReportBar b;
+        b.name = t.feature_names[j];
+        b.value = r.variance[j];
+        b.raw_value = shortest(b.value);
+        d.ranking.bars.push_back(std::move(b));
+      }
+      d.ranking.caption = "Ranked by variance (no labels given).";
+      // The curve: every feature that reached the ranking, by variance (ties in input order, as
+      // reduce orders them).
+      std::vector<std::int64_t> ranked;
+      for (std::size_t j = 0; j < p; ++j) {
+        const Decision& dec = r.decisions[j];
+        if (dec.kept || (dec.step != "missing" && dec.step != "variance"))
+          ranked.push_back(static_cast<std::int64_t>(j));
+      }
+      std::stable_sort(ranked.begin(), ranked.end(), [&](std::int64_t a, std::int64_t b) {
+        return r.variance[static_cast<std::size_t>(a)] > r.variance[static_cast<std::size_t>(b)];
+      });
+      std::vector<std::int64_t> rank_of(p, 0);
+      std::vector<double> values;
+      values.reserve(ranked.size());
+      for (std::size_t k = 0; k < ranked.size(); ++k) {
+        rank_of[static_cast<std::size_t>(ranked[k])] = static_cast<std::int64_t>(k + 1);
+        values.push_back(r.variance[static_cast<std::size_t>(ranked[k])]);
+      }
+      std::vector<std::int64_t> kept_ranks;
+      for (const std::int64_t j : r.kept)
+        kept_ranks.push_back(rank_of[static_cast<std::size_t>(j)]);
+      set_score_curve(d.score_curve, std::move(values), {}, std::move(kept_ranks), 1, o.keep);
+      d.score_curve.column = "variance";
+      d.score_curve.axis = criterion_axis(Criterion::kVariance);
+    }
+  }
+
+  // Redundancy groups: each kept feature and the dropped features that named it as their twin.
+  if (o.prune) {
+    d.has_redundancy = true;
+    d.redundancy.max_corr = o.max_corr;
+    std::map<std::int64_t, std::vector<std::int64_t>> groups;
+    for (std::size_t j = 0; j < p; ++j) {
+      const Decision& dec = r.decisions[j];
+      if (!dec.kept && dec.step == "redundancy") {
+        ++d.redundancy.dropped;
+        groups[dec.partner].push_back(static_cast<std::int64_t>(j));
+      }
+    }
+    d.redundancy.standing = static_cast<std::int64_t>(groups.size());
+    std::vector<std::pair<std::int64_t, const std::vector<std::int64_t>*>> order;
+    for (const auto& [kept, members] : groups) order.emplace_back(kept, &members);
+    // Largest groups first; among equal ones the better-ranked kept feature first.
+    std::stable_sort(order.begin(), order.end(), [&](const auto& a, const auto& b) {
+      if (a.second->size() != b.second->size()) return a.second->size() > b.second->size();
+      return r.decisions[static_cast<std::size_t>(a.first)].rank <
+             r.decisions[static_cast<std::size_t>(b.first)].rank;
+    });
+    for (std::size_t k = 0; k < order.size() && k < 15; ++k) {
+      ReportBar b;
+      b.name = t.feature_names[static_cast<std::size_t>(order[k].first)];
+      b.value = static_cast<double>(order[k].second->size());
+      b.raw_value = std::to_string(order[k].second->size());
+      std::string names;
+      for (std::size_t i = 0; i < order[k].second->size() && i < 12; ++i)
+        names += (i ? ", " : "") + t.feature_names[static_cast<std::size_t>((*order[k].second)[i])];
+      if (order[k].second->size() > 12) names += ", ...";
+      b.hover = "stands in for " + names;
+      d.redundancy.largest.push_back(std::move(b));
+    }
+  }
+}
+
+void add_components(ReportData& d, const Projection& pr, const std::string& source) {
+  d.components = {};
+  d.components.source = source;
+  d.components.of_kept = true;
+  for (Eigen::Index k = 0; k < pr.ratio.size(); ++k) {
+    d.components.ratio.push_back(pr.ratio(k));
+    d.components.cumulative.push_back(pr.cumulative(k));
+  }
+  for (Eigen::Index k = 0; k < pr.scores.cols() && k < 3; ++k) {
+    std::vector<double> v(static_cast<std::size_t>(pr.scores.rows()));
+    for (Eigen::Index i = 0; i < pr.scores.rows(); ++i)
+      v[static_cast<std::size_t>(i)] = pr.scores(i, k);
+    d.components.scores.push_back(std::move(v));
+  }
+}
+
+void add_screen(ReportData& d, const SampleScreen& s, const std::vector<std::string>& ids,
+                const std::vector<std::string>& labels, const std::string& label_name,
+                const std::vector<char>& dropped) {
+  ReportSamples& r = d.sample_info;
+  r.ids = ids;
+  r.labels = labels;
+  r.label_name = label_name;
+  r.missing_rate.clear();
+  for (std::size_t i = 0; i < ids.size(); ++i) r.missing_rate.push_back(s.missing_rate(i));
+  r.screened = s.done;
+  r.rule = screen_rule(s);
+  r.dropped = dropped;
+  if (!s.done) return;
+  r.distance = s.robust.distance;
+  r.flagged = s.robust.flagged;
+  r.threshold = s.robust.threshold;
+  r.screen_source = "a PCA of the " + count(static_cast<std::int64_t>(s.features.size())) +
+                    " most variable of the " + count(s.n_eligible) +
+                    " input features with at most " + percent(s.options.max_missing, 0) +
+                    " missing" + (s.options.log2 ? ", on log2(x + 1)," : "") +
+                    " mean-filled and standardised; distance on its first " +
+                    std::to_string(s.scores.cols()) + " components";
+  // Without components of its own the run shows the screen's.
+  if (d.components.ratio.empty()) {
+    d.components = {};
+    d.components.source = "the screening PCA (" +
+                          count(static_cast<std::int64_t>(s.features.size())) +
+                          " most variable input features, standardised)";
+    double cum = 0;
+    for (Eigen::Index k = 0; k < s.ratio.size(); ++k) {
+      cum += s.ratio(k);
+      d.components.ratio.push_back(s.ratio(k));
+      d.components.cumulative.push_back(cum);
+    }
+    for (Eigen::Index k = 0; k < s.scores.cols(); ++k) {
+      std::vector<double> v(static_cast<std::size_t>(s.scores.rows()));
+      for (Eigen::Index i = 0; i < s.scores.rows(); ++i)
+        v[static_cast<std::size_t>(i)] = s.scores(i, k);
+      d.components.scores.push_back(std::move(v));
+    }
+  }
+}
+
+void add_profile(ReportData& d, const FeatureTable& t, const Profile& pf) {
+  const std::size_t p = pf.features.size();
+  ReportHistogram miss;
+  miss.id = "missing";
+  miss.title = "Missing rate of every feature";
+  miss.axis = "missing rate (fraction of samples without a value)";
+  miss.lo = 0;
+  miss.hi = 1;
+  miss.bin_width = 0.02;
+  miss.cut_keeps_equal_above = false;
+  miss.dropped_label = "flagged mostly missing";
+  miss.kept_label = "others";
+  std::int64_t flagged = 0;
+  for (std::size_t j = 0; j < p; ++j) {
+    miss.values.push_back(pf.features[j].missing_rate());
+    const bool f = (pf.flags[j] & kFlagMostlyMissing) != 0;
+    miss.dropped.push_back(f);
+    flagged += f;
+  }
+  miss.cuts.push_back(
+      {pf.options.mostly_missing, "mostly missing above " + g(pf.options.mostly_missing)});
+  miss.caption = "All " + count(static_cast<std::int64_t>(p)) + " features of " + t.source + "; " +
+                 count(flagged) + " flagged mostly missing (scan flags, removes nothing).";
+  d.histograms.push_back(std::move(miss));
+
+  ReportHistogram var;
+  var.id = "variance";
+  var.title = "Variance of every feature";
+  var.axis = "sample variance, log scale (squared units of the data)";
+  var.log_x = true;
+  var.dropped_label = "flagged constant or near-constant";
+  var.kept_label = "others";
+  std::int64_t flat = 0;
+  for (std::size_t j = 0; j < p; ++j) {
+    var.values.push_back(pf.features[j].variance);
+    const bool f = (pf.flags[j] & (kFlagConstant | kFlagNearConstant)) != 0;
+    var.dropped.push_back(f);
+    flat += f;
+  }
+  var.caption = "Variance of the observed values (ddof 1); " + count(flat) +
+                " flagged constant or near-constant (sd < " + g(pf.options.near_constant_cv) +
+                " \xC3\x97 |mean|). Variance 0 is drawn at 0.";
+  d.histograms.push_back(std::move(var));
+}
+
+void add_plan_record(ReportData& d, const std::string& plan_text) {
+  internal::add_plan_record(d, nlohmann::json::parse(plan_text));
+}
+
+void internal::add_plan_record(ReportData& d, const nlohmann::json& plan) {
+  ReportRecord& r = d.record;
+  r.version = plan.value("pare_version", std::string(PARE_VERSION));
+  if (plan.contains("command_line"))
+    r.command_line = plan["command_line"].get<std::vector<std::string>>();
+  const auto value_text = [](const nlohmann::json& v) {
+    return v.is_string() ? v.get<std::string>() : v.dump();
+  };
+  if (plan.contains("input")) {
+    const auto& in = plan["input"];
+    r.inputs.push_back(
+        {"data", in.value("path", std::string()), in.value("sha256", std::string())});
+    if (in.contains("sample_sheet")) {
+      const auto& sh = in["sample_sheet"];
+      r.inputs.push_back({"sample sheet (" + sh.value("column", std::string()) + ")",
+                          sh.value("path", std::string()), sh.value("sha256", std::string())});
+    }
+  }
+  if (plan.contains("seed")) r.parameters.emplace_back("seed", value_text(plan["seed"]));
+  if (plan.contains("read"))
+    for (const auto& [k, v] : plan["read"].items())
+      r.parameters.emplace_back("read." + k, value_text(v));
+  if (plan.contains("parameters"))
+    for (const auto& [k, v] : plan["parameters"].items())
+      r.parameters.emplace_back(k, value_text(v));
+  if (plan.contains("projection"))
+    for (const char* key :
+         {"components", "center", "scale", "method", "precision", "iterations", "residual"})
+      if (plan["projection"].contains(key))
+        r.parameters.emplace_back(std::string("projection.") + key,
+                                  value_text(plan["projection"][key]));
+  if (plan.contains("steps"))
+    for (const auto& st : plan["steps"])
+      r.timings.emplace_back(st.value("step", std::string()), st.value("seconds", 0.0));
+  if (plan.contains("outputs"))
+    for (const auto& [k, v] : plan["outputs"].items()) r.outputs.push_back(value_text(v));
+}
+
+}  // namespace pare
