@@ -10,6 +10,7 @@
 #include <numeric>    // std::iota
 
 #include "internal/buffer.h"
+#include "internal/criterion_facts.h"
 #include "internal/format.h"
 #include "internal/omp.h"
 #include "internal/spill.h"
@@ -53,13 +54,6 @@ float median_of_observed(const float* x, Eigen::Index n, std::vector<float>& scr
   return static_cast<float>((static_cast<double>(lower) + static_cast<double>(upper)) / 2);
 }
 
-const char* test_name(Criterion c) {
-  switch (c) {
-    case Criterion::kF: return "F-test";
-    case Criterion::kChi2Counts: return "counts chi-square";
-    default: return "chi-square test";
-  }
-}
 
 }  // namespace
 
@@ -265,7 +259,7 @@ Reduction reduce(FeatureTable& t, const ReduceOptions& o) {
       r.score_of[static_cast<std::size_t>(j)] = static_cast<std::int64_t>(pos);
       const double q = criterion_q(r.scores, r.criterion, pos);
       if (o.fdr < 1 && r.criterion != Criterion::kVariance && q > o.fdr)
-        drop(j, "relevance", std::string(test_name(r.criterion)) + " q = " + g3(q) + " > " + g3(o.fdr));
+        drop(j, "relevance", std::string(internal::criterion_facts(r.criterion).short_test) + " q = " + g3(q) + " > " + g3(o.fdr));
       else
         ordered.push_back(j);
     }

@@ -7,6 +7,7 @@
 #include "pare/report.h"
 
 #include "internal/plan_document.h"
+#include "internal/criterion_facts.h"
 #include "internal/report_html.h"
 #include <nlohmann/json.hpp>
 
@@ -17,52 +18,9 @@ namespace pare {
 
 namespace internal::html {
 
-const char* criterion_column(Criterion c) {
-  switch (c) {
-    case Criterion::kMi:
-      return "mi";
-    case Criterion::kChi2:
-      return "chi2";
-    case Criterion::kChi2Counts:
-      return "chi2_counts";
-    case Criterion::kF:
-      return "f";
-    case Criterion::kVariance:
-      break;
-  }
-  return "variance";
-}
-
-const char* criterion_q_column(Criterion c) {
-  switch (c) {
-    case Criterion::kMi:
-    case Criterion::kChi2:
-      return "chi2_q";
-    case Criterion::kChi2Counts:
-      return "chi2_counts_q";
-    case Criterion::kF:
-      return "f_q";
-    case Criterion::kVariance:
-      break;
-  }
-  return "";
-}
-
-const char* criterion_axis(Criterion c) {
-  switch (c) {
-    case Criterion::kMi:
-      return "mutual information with the class (nats)";
-    case Criterion::kChi2:
-      return "chi-square statistic of bins \xC3\x97 classes";
-    case Criterion::kChi2Counts:
-      return "counts chi-square statistic";
-    case Criterion::kF:
-      return "one-way ANOVA F statistic";
-    case Criterion::kVariance:
-      break;
-  }
-  return "sample variance";
-}
+const char* criterion_column(Criterion c) { return criterion_facts(c).column; }
+const char* criterion_q_column(Criterion c) { return criterion_facts(c).q_column; }
+const char* criterion_axis(Criterion c) { return criterion_facts(c).axis; }
 
 }  // namespace internal::html
 

@@ -13,6 +13,7 @@
 
 #include "pare/report.h"
 
+#include "internal/criterion_facts.h"
 #include "internal/report_html.h"
 
 namespace pare {
@@ -37,35 +38,8 @@ const std::vector<double>* criterion_p(const FeatureScores& s, Criterion c) {
   return nullptr;
 }
 
-const char* criterion_p_column(Criterion c) {
-  switch (c) {
-    case Criterion::kMi:
-    case Criterion::kChi2:
-      return "chi2_p";
-    case Criterion::kF:
-      return "f_p";
-    case Criterion::kChi2Counts:
-      return "chi2_counts_p";
-    case Criterion::kVariance:
-      break;
-  }
-  return "";
-}
-
-const char* criterion_test(Criterion c) {
-  switch (c) {
-    case Criterion::kMi:
-    case Criterion::kChi2:
-      return "the chi-square test of independence on the same bins";
-    case Criterion::kF:
-      return "the one-way ANOVA F-test";
-    case Criterion::kChi2Counts:
-      return "the counts chi-square test";
-    case Criterion::kVariance:
-      break;
-  }
-  return "";
-}
+const char* criterion_p_column(Criterion c) { return criterion_facts(c).p_column; }
+const char* criterion_test(Criterion c) { return criterion_facts(c).test; }
 
 // A fixed offset in [-0.5, 0.5) for sample i: the finaliser of SplitMix64 (Steele, Lea & Flood,
 // "Fast splittable pseudorandom number generators", OOPSLA 2014), a bijection that scatters
