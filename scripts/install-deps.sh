@@ -4,13 +4,12 @@
 set -euo pipefail
 
 packages=(
-  # build
-  cmake make g++ pkg-config ccache
-  libeigen3-dev libspectra-dev libomp-dev
-  libboost-program-options-dev libboost-math-dev libboost-iostreams-dev
+  # build (ccache: CMakeLists.txt compiles through it when it is present)
+  cmake make g++ ccache
+  libeigen3-dev libboost-dev libboost-program-options-dev
   catch2 libfast-float-dev nlohmann-json3-dev zlib1g-dev libssl-dev
-  # sanitizers and fuzzing (libFuzzer comes with clang)
-  clang-14 libclang-rt-14-dev
+  # sanitizers and fuzzing (libFuzzer comes with clang; libomp-dev is clang's OpenMP runtime)
+  clang-14 libclang-rt-14-dev libomp-dev
   # reference checks and benchmarks (general-purpose libraries, Debian's builds)
   python3 python3-numpy python3-scipy python3-sklearn python3-pandas libopenblas0
   # report.html checks: a strict HTML parser, headless rendering, reading the picture, a font

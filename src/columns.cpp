@@ -12,8 +12,8 @@
 #include <utility>    // std::exchange
 #include <vector>     // std::vector
 
-#include "internal/buffer.h"
-#include "internal/spill.h"
+#include "internal/columns.h"
+#include "internal/growable_buffer.h"
 #include "pare/error.h"
 #include "pare/matrix.h"
 

@@ -10,7 +10,7 @@
 #include <cstdio>     // std::snprintf
 #include <cstring>    // std::memcpy, std::strerror
 
-#include "internal/buffer.h"
+#include "internal/growable_buffer.h"
 #include "pare/error.h"
 
 namespace pare::internal {

@@ -7,7 +7,7 @@
 #include <string_view>  // std::string_view
 #include <vector>       // std::vector
 
-#include "internal/buffer.h"
+#include "internal/input_text.h"
 #include "internal/text_fields.h"
 #include "pare/error.h"
 

@@ -171,7 +171,7 @@ void ensure_directory(const std::string& path) {
   std::filesystem::create_directories(path, ec);
   if (ec) throw_output_error(path, "cannot create the output folder: " + ec.message());
   if (!std::filesystem::is_directory(path, ec))
-    throw_output_error(path, "is not a folder", "choose another --out");
+    throw_output_error(path, "is not a folder", "choose another `out`");
 }
 
 }  // namespace pare

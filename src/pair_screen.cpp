@@ -5,6 +5,8 @@
 #include <cmath>      // std::abs, std::lrint, std::sqrt
 #include <cstring>    // std::memcpy
 
+#include "kernels/kernels.h"
+
 #if defined(__x86_64__) && (defined(__GNUC__) || defined(__clang__))
 #include <immintrin.h>
 #define PARE_SCREEN_VNNI 1
@@ -136,9 +138,16 @@ void screen_portable(const ScreenKept& kept, const ScreenBlock& block, float cut
 
 #ifdef PARE_SCREEN_VNNI
 
+// Sample quad t of a candidate's codes, in every 32-bit lane.
+__attribute__((target("avx512f"))) inline __m512i quad_of(const std::uint8_t* row, Eigen::Index t) {
+  std::int32_t quad;
+  std::memcpy(&quad, row + 4 * t, sizeof quad);
+  return _mm512_set1_epi32(quad);
+}
+
 // Two groups of 16 kept features against up to 8 candidates per pass: 16 accumulators, each
 // sample quad two loads and eight broadcasts for 16 VNNI products of 64 byte pairs.
-__attribute__((target("avx512f,avx512bw,avx512vnni"))) void screen_vnni(const ScreenKept& kept,
+__attribute__((target("avx512f,avx512bw,avx512dq,avx512vnni"))) void screen_vnni(const ScreenKept& kept,
                                                                          const ScreenBlock& block, float cut,
                                                                          Eigen::Index first, int width, Eigen::Index g0,
                                                                          Eigen::Index g1, ScreenSurvivors& out) {
@@ -159,11 +168,6 @@ __attribute__((target("avx512f,avx512bw,avx512vnni"))) void screen_vnni(const Sc
   // Named accumulators (an array of them makes GCC 12 copy registers around every product).
   const std::uint8_t *r0 = rows[0], *r1 = rows[1], *r2 = rows[2], *r3 = rows[3], *r4 = rows[4], *r5 = rows[5],
                      *r6 = rows[6], *r7 = rows[7];
-  auto quad_of = [](const std::uint8_t* row, Eigen::Index t) {
-    std::int32_t quad;
-    std::memcpy(&quad, row + 4 * t, sizeof quad);
-    return _mm512_set1_epi32(quad);
-  };
   for (Eigen::Index g = g0; g < g1; g += 2) {
     __m512i a0 = _mm512_setzero_si512(), a1 = a0, a2 = a0, a3 = a0, a4 = a0, a5 = a0, a6 = a0, a7 = a0;
     __m512i b0 = a0, b1 = a0, b2 = a0, b3 = a0, b4 = a0, b5 = a0, b6 = a0, b7 = a0;
@@ -232,7 +236,7 @@ __attribute__((target("avx512f,avx512bw,avx512vnni"))) void screen_vnni(const Sc
 
 bool cpu_has_vnni() {
   static const bool has = __builtin_cpu_supports("avx512f") && __builtin_cpu_supports("avx512bw") &&
-                          __builtin_cpu_supports("avx512vnni");
+                          __builtin_cpu_supports("avx512dq") && __builtin_cpu_supports("avx512vnni");
   return has;
 }
 
@@ -242,7 +246,9 @@ bool cpu_has_vnni() {
 
 bool screen_uses_vnni() {
 #ifdef PARE_SCREEN_VNNI
-  return vnni_allowed.load(std::memory_order_relaxed) && cpu_has_vnni();
+  // Only with the AVX-512 kernels running (kernels::force_level can choose a lower level).
+  return vnni_allowed.load(std::memory_order_relaxed) && cpu_has_vnni() &&
+         kernels::active_level() == kernels::Level::kAvx512;
 #else
   return false;
 #endif
@@ -254,8 +260,7 @@ float screen_second_bound(const ScreenKept& kept, const ScreenBlock& block, Eige
   const Eigen::Index k = hit.k;
   const std::int8_t* x = kept.row2(k);
   const std::int8_t* y = block.row2(b);
-  std::int32_t product = 0;
-  for (Eigen::Index i = 0; i < block.padded2(); ++i) product += static_cast<std::int32_t>(x[i]) * y[i];
+  const std::int32_t product = kernels::dot_i8(x, y, block.padded2());
   const ScreenNorms &n1 = block.norms(b), &n2k = kept.norms2(k), &n2b = block.norms2(b);
   const float p = hit.product + static_cast<float>(product) * (n2k.scale * n2b.scale);
   const float slack = kept.coded()[k] * n1.error + kept.error()[k] * n1.subset + n2k.coded * n2b.error +

@@ -2,15 +2,18 @@
 
 #include <nlohmann/json.hpp>
 
+#include <algorithm>      // std::copy_n, std::fill
 #include <cmath>          // std::isnan
 #include <filesystem>     // std::filesystem::path
 #include <limits>         // std::numeric_limits
+#include <span>           // std::span
 #include <unordered_map>  // std::unordered_map
 
 #include "internal/omp.h"
-#include "internal/plan_document.h"
+#include "internal/plan_sections.h"
 #include "internal/sha256.h"
 #include "pare/error.h"
+#include "pare/load.h"
 
 namespace pare {
 
@@ -27,45 +30,18 @@ std::string delimiter_text(char d) { return std::string(1, d); }
 
 }  // namespace
 
-std::string plan_json(const FeatureTable& t, const Reduction& r, const ReduceOptions& o, const RunRecord& run,
-                      const PlanProjection& pp) {
-  return internal::plan_text(internal::plan_document(t, r, o, run, pp));
+json internal::read_section(const RunRecord& run, const FeatureTable& t) {
+  return {{"layout", layout_name(t.layout)},
+          {"delimiter", delimiter_text(t.delimiter)},
+          {"label", run.label},
+          {"na", run.na_tokens},
+          {"allow_inf", run.allow_inf},
+          {"feature_info", run.feature_info},
+          {"sample_info", run.sample_info}};
 }
 
-std::string internal::plan_text(const json& plan) { return plan.dump(1) + "\n"; }
-
-json internal::plan_document(const FeatureTable& t, const Reduction& r, const ReduceOptions& o, const RunRecord& run,
-                             const PlanProjection& pp) {
-  json plan;
-  plan["pare_plan"] = kPlanFormat;
-  plan["pare_version"] = PARE_VERSION;
-  plan["command_line"] = run.command_line;
-  plan["seed"] = run.seed;
-  json input = {{"path", run.input_path},
-                {"sha256", run.input_sha256},
-                {"samples", t.n_samples()},
-                {"features", t.n_features()}};
-  if (!run.sheet_path.empty())
-    input["sample_sheet"] = {{"path", run.sheet_path}, {"sha256", run.sheet_sha256}, {"column", run.sheet_column}};
-  plan["input"] = input;
-  plan["read"] = {{"layout", run.layout},
-                  {"delimiter", delimiter_text(t.delimiter)},
-                  {"label", run.label},
-                  {"na", run.na_tokens},
-                  {"allow_inf", run.allow_inf},
-                  {"feature_info", run.feature_info},
-                  {"sample_info", run.sample_info}};
-  // Which samples the fit used: those of --samples, less those left out for a missing label or a
-  // class under --min-class-size (ids listed), less the outliers dropped (sample_screen).
-  json samples = {{"in_file", run.samples_read}, {"used", t.n_samples()}};
-  if (!run.sample_list_path.empty())
-    samples["list"] = {{"path", run.sample_list_path}, {"sha256", run.sample_list_sha256}};
-  samples["left_out_unlabelled"] = run.left_out.unlabelled;
-  samples["min_class_size"] = run.left_out.min_class_size;
-  samples["left_out_small_class"] = run.left_out.small_class;
-  samples["small_classes"] = run.left_out.small_classes;
-  plan["samples"] = samples;
-  plan["parameters"] = {
+json internal::parameters_section(const ReduceOptions& o, const Reduction& r) {
+  return {
       {"missing_filter", o.missing_filter},
       {"drop_missing_above", o.drop_missing_above},
       {"impute", impute_name(o.impute)},
@@ -84,8 +60,98 @@ json internal::plan_document(const FeatureTable& t, const Reduction& r, const Re
       {"max_corr", o.max_corr},
       {"keep", o.keep},
   };
+}
+
+json internal::projection_section(const PipelineResult& result, const PlanProjection& pp) {
+  if (!result.projection) return nullptr;
+  const Projection& pr = *result.projection;
+  json feature_center = json::array(), feature_scale = json::array();
+  for (Eigen::Index j = 0; j < pr.center.size(); ++j) {
+    feature_center.push_back(pr.center(j));
+    feature_scale.push_back(pr.scale(j));
+  }
+  return {{"components", pr.singular_values.size()},
+          {"center", result.projection_center},
+          {"scale", result.projection_scale},
+          {"method", pr.method},
+          {"precision", pr.precision},
+          {"iterations", pr.iterations},
+          {"residual", pr.residual},
+          {"loadings", pp.loadings_file},
+          {"loadings_sha256", pp.loadings_sha256},
+          {"feature_center", feature_center},
+          {"feature_scale", feature_scale}};
+}
+
+json internal::outputs_section(const FeatureTable& t, const PipelineResult& result, const PlanProjection& pp) {
+  json outputs = json::object();
+  if (result.options.select) {
+    outputs["ranking"] = "ranking.tsv";
+    outputs["selection_log"] = "selection-log.tsv";
+    outputs["reduced"] = reduced_file_name(t.delimiter);
+  }
+  if (result.projection) {
+    outputs["scores"] = "scores.csv";
+    outputs["loadings"] = pp.loadings_file;
+    outputs["explained"] = "explained.tsv";
+  }
+  outputs["samples"] = "samples.tsv";
+  outputs["report"] = "report.html";
+  return outputs;
+}
+
+namespace {
+
+// Which samples the screen flagged and dropped, by id, and its rule.
+json screen_section(const PipelineResult& result) {
+  const SampleScreen& screen = result.screen;
+  const RunSamples& samples = result.samples;
+  json flagged = json::array(), dropped = json::array();
+  for (const std::int64_t i : screen.flagged()) flagged.push_back(samples.ids[static_cast<std::size_t>(i)]);
+  for (std::size_t i = 0; i < samples.dropped.size(); ++i)
+    if (samples.dropped[i]) dropped.push_back(samples.ids[i]);
+  json section = {{"screened", screen.done},
+                  {"rule", screen_rule(screen)},
+                  {"flagged", flagged},
+                  {"dropped", dropped},
+                  {"samples_before_dropping", samples.ids.size()}};
+  if (screen.done) section["threshold"] = screen.robust.threshold;
+  return section;
+}
+
+}  // namespace
+
+std::string plan_json(const FeatureTable& t, const PipelineResult& result, const RunRecord& run,
+                      const PlanProjection& pp) {
+  const Reduction& r = result.reduction;
+  const ReduceOptions& o = result.options.reduce;
+  json plan;
+  plan["pare_plan"] = kPlanFormat;
+  plan["pare_version"] = PARE_VERSION;
+  plan["command_line"] = run.command_line;
+  plan["seed"] = run.seed;
+  json input = {{"path", run.input_path},
+                {"sha256", run.input_sha256},
+                {"samples", t.n_samples()},
+                {"features", t.n_features()}};
+  if (!run.sheet_path.empty())
+    input["sample_sheet"] = {{"path", run.sheet_path}, {"sha256", run.sheet_sha256}, {"column", run.sheet_column}};
+  plan["input"] = input;
+  plan["read"] = internal::read_section(run, t);
+  // Which samples the fit used: those of --samples, less those left out for a missing label or a
+  // class under --min-class-size (ids listed), less the outliers dropped (sample_screen).
+  json samples = {{"in_file", run.samples_read}, {"used", t.n_samples()}};
+  if (!run.sample_list_path.empty())
+    samples["list"] = {{"path", run.sample_list_path}, {"sha256", run.sample_list_sha256}};
+  samples["left_out_unlabelled"] = run.left_out.unlabelled;
+  samples["min_class_size"] = run.left_out.min_class_size;
+  samples["left_out_small_class"] = run.left_out.small_class;
+  samples["small_classes"] = run.left_out.small_classes;
+  plan["samples"] = samples;
+  plan["parameters"] = internal::parameters_section(o, r);
   json steps = json::array();
-  for (const auto& s : r.steps) steps.push_back({{"step", s.name}, {"in", s.in}, {"out", s.out}, {"seconds", s.seconds}});
+  for (const auto& s : r.steps)
+    steps.push_back({{"step", step_name(s.step)}, {"in", s.in}, {"out", s.out}, {"seconds", s.seconds}});
   plan["steps"] = steps;
   json names = json::array(), index = json::array(), fill = json::array(), center = json::array(),
        spread = json::array();
@@ -104,32 +170,10 @@ json internal::plan_document(const FeatureTable& t, const Reduction& r, const Re
                   {"fill", fill},
                   {"center", center},
                   {"scale", spread}};
-  plan["outputs"] = {{"ranking", "ranking.tsv"}, {"selection_log", "selection-log.tsv"}, {"reduced", reduced_file_name(t.delimiter)}};
-  if (pp.projection) {
-    const Projection& pr = *pp.projection;
-    json feature_center = json::array(), feature_scale = json::array();
-    for (Eigen::Index j = 0; j < pr.center.size(); ++j) {
-      feature_center.push_back(pr.center(j));
-      feature_scale.push_back(pr.scale(j));
-    }
-    plan["projection"] = {{"components", pr.singular_values.size()},
-                          {"center", pp.center},
-                          {"scale", pp.scale},
-                          {"method", pr.method},
-                          {"precision", pr.precision},
-                          {"iterations", pr.iterations},
-                          {"residual", pr.residual},
-                          {"loadings", pp.loadings_file},
-                          {"loadings_sha256", pp.loadings_sha256},
-                          {"feature_center", feature_center},
-                          {"feature_scale", feature_scale}};
-    plan["outputs"]["scores"] = "scores.csv";
-    plan["outputs"]["loadings"] = pp.loadings_file;
-    plan["outputs"]["explained"] = "explained.tsv";
-  }
-  if (!run.sample_screen_json.empty()) plan["sample_screen"] = json::parse(run.sample_screen_json);
-  for (const auto& [role, file] : run.more_outputs) plan["outputs"][role] = file;
-  return plan;
+  if (result.projection) plan["projection"] = internal::projection_section(result, pp);
+  plan["sample_screen"] = screen_section(result);
+  plan["outputs"] = internal::outputs_section(t, result, pp);
+  return plan.dump(1) + "\n";
 }
 
 namespace {
@@ -293,7 +337,7 @@ FeatureTable apply_plan(const Plan& plan, const FeatureTable& data, bool allow_m
     std::size_t as_ids = 0;
     for (const auto& name : plan.names) as_ids += ids.count(name);
     if (2 * as_ids <= k) return "";
-    return std::to_string(as_ids) + " of them are sample ids of this file: read it with --layout " +
+    return std::to_string(as_ids) + " of them are sample ids of this file: read it with `layout` " +
            (data.layout == Layout::kRowsAreSamples ? "rows=features" : "rows=samples");
   };
   if (2 * report.absent.size() > k) {
@@ -312,7 +356,7 @@ FeatureTable apply_plan(const Plan& plan, const FeatureTable& data, bool allow_m
     throw_input_error({data.source},
                       std::to_string(report.absent.size()) + " of the plan's " + std::to_string(k) +
                           " features are not in the data: " + names,
-                      "check the layout and the names, or pass --allow-missing-features to fill them with the "
+                      "check the layout and the names, or pass `allow_missing_features` to fill them with the "
                       "training values");
   }
   report.extra = data.n_features() - static_cast<std::int64_t>(k - report.absent.size());
@@ -331,22 +375,18 @@ FeatureTable apply_plan(const Plan& plan, const FeatureTable& data, bool allow_m
   out.delimiter = data.delimiter;
   out.layout = data.layout;
   report.filled.assign(k, 0);
+  // The same column steps as the reduction: the transform, the gaps filled with the training
+  // value, the training centre and scale.
 #pragma omp parallel for schedule(dynamic, 16) num_threads(internal::thread_count(threads))
   for (std::size_t i = 0; i < k; ++i) {
-    float* y = out.values.col(static_cast<Eigen::Index>(i)).data();
-    const float* x = source[i] >= 0 ? data.values.col(source[i]).data() : nullptr;
-    std::int64_t filled = 0;
-    for (Eigen::Index s = 0; s < n; ++s) {
-      float v = x ? x[s] : std::numeric_limits<float>::quiet_NaN();
-      if (std::isnan(v)) {
-        v = plan.fill[i];
-        ++filled;
-      }
-      v = transform_value(v, plan.log2);
-      if (plan.scale) v = static_cast<float>((static_cast<double>(v) - plan.center[i]) / plan.spread[i]);
-      y[s] = v;
-    }
-    report.filled[i] = filled;
+    const std::span<float> y(out.values.col(static_cast<Eigen::Index>(i)).data(), static_cast<std::size_t>(n));
+    if (source[i] >= 0)
+      std::copy_n(data.values.col(source[i]).data(), n, y.data());
+    else
+      std::fill(y.begin(), y.end(), std::numeric_limits<float>::quiet_NaN());
+    transform_column(y, plan.log2);
+    report.filled[i] = fill_column(y, plan.fill[i], plan.log2);
+    if (plan.scale) standardise_column(y, plan.center[i], plan.spread[i]);
   }
   if (plan.log2)
     for (std::size_t i = 0; i < k; ++i)

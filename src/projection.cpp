@@ -4,14 +4,15 @@
 #include <Eigen/QR>
 #include <Eigen/SVD>
 
-#include <algorithm>  // std::min, std::max
-#include <cmath>      // std::sqrt
-#include <type_traits>  // std::is_same_v
+#include <algorithm>  // std::min, std::max, std::stable_sort
+#include <cmath>      // std::sqrt, std::hypot, std::abs
+#include <limits>     // std::numeric_limits
 #include <vector>     // std::vector
 
+#include "internal/columns.h"
 #include "internal/omp.h"
-#include "internal/spill.h"
 #include "internal/random.h"
+#include "kernels/kernels.h"
 #include "pare/error.h"
 #include "pare/progress.h"
 
@@ -24,16 +25,23 @@ using MatF = Eigen::MatrixXf;
 using VecD = Eigen::VectorXd;
 using Eigen::Index;
 
-// Products are split into fixed pieces (see internal/gemm.h for why): kPiece columns of x at a
-// time, and X B summed over kGroups fixed groups of columns whose partial sums are added in order.
+// Products go through the dispatched kernels (src/kernels/kernels.h: every entry a sum in a fixed
+// order, the same bits on every instruction-set level) in fixed pieces, so that nothing depends on
+// --threads either: kPiece columns of x at a time, and X B summed over kGroups fixed groups of
+// columns whose partial sums are added in order.
 constexpr Index kPiece = 256;
 constexpr Index kGroups = 16;
 
 template <typename S>
 using Mat = Eigen::Matrix<S, Eigen::Dynamic, Eigen::Dynamic>;
 
-// Y = X B (X float n x p; B p x l), in precision S. Double products convert X piece by piece, so
-// the matrix is never copied whole.
+// Column c0 of x onwards, as a kernel operand.
+kernels::Operand columns_of(const ConstMatrixRef& x, Index c0) {
+  return kernels::columns(x.data() + c0 * x.outerStride(), x.outerStride());
+}
+
+// Y = X B (X float n x p; B p x l), in precision S (a double product converts X's values as it
+// reads them).
 template <typename S>
 Mat<S> times(const ConstMatrixRef& x, const Mat<S>& b, int threads) {
   const Index n = x.rows(), p = x.cols(), l = b.cols();
@@ -47,12 +55,8 @@ Mat<S> times(const ConstMatrixRef& x, const Mat<S>& b, int threads) {
     const Index end = std::min(p, (g + 1) * per_group);
     for (Index c0 = g * per_group; c0 < end; c0 += kPiece) {
       const Index w = std::min(kPiece, end - c0);
-      if constexpr (std::is_same_v<S, float>) {
-        acc.noalias() += x.middleCols(c0, w) * b.middleRows(c0, w);
-      } else {
-        const MatD piece = x.middleCols(c0, w).template cast<double>();
-        acc.noalias() += piece * b.middleRows(c0, w);
-      }
+      kernels::gemm(kernels::Shape{n, l, w}, columns_of(x, c0), kernels::columns(b.data() + c0, p), acc.data(), n,
+                    true);
       internal::release_column_span(x, c0, c0 + w - 1);
     }
   }
@@ -64,25 +68,22 @@ Mat<S> times(const ConstMatrixRef& x, const Mat<S>& b, int threads) {
 // W = X^T Y (X float n x p; Y n x l), in precision S.
 template <typename S>
 Mat<S> times_t(const ConstMatrixRef& x, const Mat<S>& y, int threads) {
-  const Index p = x.cols();
-  Mat<S> w(p, y.cols());
+  const Index n = x.rows(), p = x.cols(), l = y.cols();
+  Mat<S> w(p, l);
   const Index pieces = (p + kPiece - 1) / kPiece;
 #pragma omp parallel for schedule(dynamic, 1) num_threads(threads)
   for (Index k = 0; k < pieces; ++k) {
     const Index c0 = k * kPiece, width = std::min(kPiece, p - c0);
-    if constexpr (std::is_same_v<S, float>) {
-      w.middleRows(c0, width).noalias() = x.middleCols(c0, width).transpose() * y;
-    } else {
-      const MatD piece = x.middleCols(c0, width).template cast<double>();
-      w.middleRows(c0, width).noalias() = piece.transpose() * y;
-    }
+    kernels::gemm(kernels::Shape{width, l, n}, kernels::transposed(columns_of(x, c0)), kernels::columns(y.data(), n),
+                  w.data() + c0, p, false);
     internal::release_column_span(x, c0, c0 + width - 1);
   }
   return w;
 }
 
-// The Gram matrix of the short side in double: X X^T (wide) or X^T X (tall), summed over fixed
-// groups of pieces in order.
+// The lower triangle of the Gram matrix of the short side in double: X X^T (wide) or X^T X
+// (tall), summed over fixed groups of pieces in order. The upper triangle is zero (the
+// eigensolver reads only the lower one).
 MatD gram(const ConstMatrixRef& x, bool wide, int threads) {
   const Index n = x.rows(), p = x.cols();
   const Index m = wide ? n : p, len = wide ? p : n;
@@ -96,13 +97,14 @@ MatD gram(const ConstMatrixRef& x, bool wide, int threads) {
     const Index end = std::min(len, (g + 1) * per_group);
     for (Index c0 = g * per_group; c0 < end; c0 += kPiece) {
       const Index w = std::min(kPiece, end - c0);
+      const kernels::Shape lower{m, m, w, true, 0};
       if (wide) {
-        const MatD piece = x.middleCols(c0, w).cast<double>();
-        acc.noalias() += piece * piece.transpose();
+        const kernels::Operand piece = columns_of(x, c0);  // n x w
+        kernels::gemm(lower, piece, kernels::transposed(piece), acc.data(), m, true);
         internal::release_column_span(x, c0, c0 + w - 1);
       } else {
-        const MatD piece = x.middleRows(c0, w).cast<double>();
-        acc.noalias() += piece.transpose() * piece;
+        const kernels::Operand rows = kernels::columns(x.data() + c0, x.outerStride());  // w x p
+        kernels::gemm(lower, kernels::transposed(rows), rows, acc.data(), m, true);
         internal::release_column_span(x, 0, x.cols() - 1);
       }
     }
@@ -114,12 +116,12 @@ MatD gram(const ConstMatrixRef& x, bool wide, int threads) {
 
 // The lower triangle of X X^T (X float n x p, wide) in double from float products: pieces of
 // kGramPiece columns taken in order, each piece's product computed in float over fixed stripes of
-// kGramStripe rows (one stripe per task, so the result does not depend on the thread count) and
+// kGramStripe rows (one stripe per task; which entries a task computes does not change them) and
 // added to the double sum. A float product of 2,048 terms is within about 3e-6 of its value
 // (relative, typically); the final Rayleigh-Ritz step in double (truncated_pca) makes the
 // eigenvalues accurate regardless.
 constexpr Index kGramPiece = 2048;
-constexpr Index kGramStripe = 64;
+constexpr Index kGramStripe = 128;
 
 MatD gram_wide_float(const ConstMatrixRef& x, int threads) {
   const Index n = x.rows(), p = x.cols();
@@ -128,18 +130,39 @@ MatD gram_wide_float(const ConstMatrixRef& x, int threads) {
   ProgressStep progress("PCA Gram matrix", p, "features");
   for (Index c0 = 0; c0 < p; c0 += kGramPiece) {
     const Index w = std::min(kGramPiece, p - c0);
-    const auto piece = x.middleCols(c0, w);
+    const kernels::Operand piece = columns_of(x, c0);  // n x w
 #pragma omp parallel for schedule(dynamic, 1) num_threads(threads)
     for (Index s = 0; s < stripes; ++s) {
       // Stripe s: rows r0..r1 of the lower triangle, columns 0..r1.
-      const Index r0 = s * kGramStripe, r1 = std::min(n, r0 + kGramStripe);
-      const MatF part = piece.middleRows(r0, r1 - r0) * piece.topRows(r1).transpose();
-      g.block(r0, 0, r1 - r0, r1) += part.cast<double>();
+      const Index r0 = s * kGramStripe, r1 = std::min(n, r0 + kGramStripe), h = r1 - r0;
+      MatF part(h, r1);
+      kernels::Operand rows = piece;
+      rows.data = x.data() + c0 * x.outerStride() + r0;
+      kernels::gemm(kernels::Shape{h, r1, w, true, r0}, rows, kernels::transposed(piece), part.data(), h, false);
+      for (Index j = 0; j < r1; ++j)
+        for (Index i = std::max<Index>(0, j - r0); i < h; ++i) g(r0 + i, j) += static_cast<double>(part(i, j));
     }
     internal::release_column_span(x, c0, c0 + w - 1);
     progress.add(w);
   }
   return g;
+}
+
+// Double products of the iteration's small matrices, through the kernels too.
+kernels::Operand operand(const MatD& a) { return kernels::columns(a.data(), a.rows()); }
+
+// C = A B for operands A (m x k) and B (k x n) as the kernels see them.
+MatD product(const kernels::Operand& a, const kernels::Operand& b, Index m, Index n, Index k) {
+  MatD c(m, n);
+  kernels::gemm(kernels::Shape{m, n, k}, a, b, c.data(), m, false);
+  return c;
+}
+
+MatD mul(const MatD& a, const MatD& b) { return product(operand(a), operand(b), a.rows(), b.cols(), a.cols()); }
+
+// A^T B.
+MatD mul_tn(const MatD& a, const MatD& b) {
+  return product(kernels::transposed(operand(a)), operand(b), a.cols(), b.cols(), a.rows());
 }
 
 // The leading k singular triplets of a tall, skinny W (rows >> columns): the eigenvectors of
@@ -153,14 +176,14 @@ struct Triplets {
 
 Triplets leading_svd(const MatD& w, Index k) {
   Triplets t;
-  const MatD cross = w.transpose() * w;
+  const MatD cross = mul_tn(w, w);
   Eigen::SelfAdjointEigenSolver<MatD> es(cross);
   if (es.info() == Eigen::Success) {
     const VecD values = es.eigenvalues().reverse();
     if (values(0) > 0 && values(k - 1) > 1e-8 * values(0)) {
       t.v = es.eigenvectors().rightCols(k).rowwise().reverse();
       t.sigma = values.head(k).cwiseSqrt();
-      t.u = w * t.v * t.sigma.cwiseInverse().asDiagonal();
+      t.u = mul(w, t.v) * t.sigma.cwiseInverse().asDiagonal();
       return t;
     }
   }
@@ -175,6 +198,124 @@ MatD orthonormal_columns(const MatD& a) {
   Eigen::HouseholderQR<MatD> qr(a);
   return qr.householderQ() * MatD::Identity(a.rows(), a.cols());
 }
+
+// The eigenpairs of the Krylov iteration's symmetric T, in two parts: T = Q S Q^T with S
+// tridiagonal (Householder reflections: Eigen's Tridiagonalization), then S = Z L Z^T by the
+// implicit QR algorithm with Wilkinson shifts (Golub & Van Loan, Matrix Computations, 4th ed.,
+// Algorithms 8.3.2 and 8.3.3), Z a product of plane rotations. The rotations depend on S alone, so
+// they are recorded once and applied to any rows of Q: the iteration needs only the last rows of
+// the leading eigenvectors Q Z for its residuals, and whole vectors once, at convergence.
+// Accumulating all of Q Z at every step, as a general eigensolver does, was most of the cost of
+// the iteration's small matrices.
+class RitzPairs {
+ public:
+  explicit RitzPairs(const MatD& t) : tri_(t) {
+    const Index n = t.rows();
+    VecD d = tri_.diagonal(), e = tri_.subDiagonal();
+    ok_ = qr_iteration(d, e);
+    values_.resize(n);
+    order_.resize(static_cast<std::size_t>(n));
+    for (Index i = 0; i < n; ++i) order_[static_cast<std::size_t>(i)] = i;
+    // Largest first; equal values in their order on the diagonal.
+    std::stable_sort(order_.begin(), order_.end(), [&](Index a, Index b) { return d(a) > d(b); });
+    for (Index i = 0; i < n; ++i) values_(i) = d(order_[static_cast<std::size_t>(i)]);
+  }
+
+  /// False when an eigenvalue did not converge (30 n QR steps).
+  bool ok() const { return ok_; }
+  /// The eigenvalues, largest first.
+  const VecD& values() const { return values_; }
+
+  /// Rows first .. first + count - 1 of the leading `vectors` eigenvectors (count x vectors).
+  MatD rows(Index first, Index count, Index vectors) const {
+    const Index n = values_.size();
+    MatD q;
+    if (first == 0 && count == n) {
+      q = tri_.matrixQ();
+    } else {
+      // E^T Q = (Q^T E)^T for E those columns of the identity: count n-vectors through the
+      // reflections, not n.
+      MatD e = MatD::Zero(n, count);
+      for (Index i = 0; i < count; ++i) e(first + i, i) = 1;
+      q = (tri_.matrixQ().transpose() * e).transpose();
+    }
+    for (std::size_t sweep = 0; sweep < sweep_first_.size(); ++sweep) {
+      const std::size_t at = sweep_at_[sweep];
+      kernels::rotate_columns(q.data(), q.rows(), q.rows(), sweep_first_[sweep], cosines_.data() + at,
+                              sines_.data() + at, sweep_count_[sweep]);
+    }
+    MatD out(count, vectors);
+    for (Index c = 0; c < vectors; ++c) out.col(c) = q.col(order_[static_cast<std::size_t>(c)]);
+    return out;
+  }
+
+ private:
+  // The implicit QR iteration on the tridiagonal matrix with diagonal d and subdiagonal e: d ends
+  // as the eigenvalues; each step's rotations are recorded.
+  bool qr_iteration(VecD& d, VecD& e) {
+    const Index n = d.size();
+    const double eps = std::numeric_limits<double>::epsilon(), tiny = std::numeric_limits<double>::min();
+    Index end = n - 1;  // the trailing rows past `end` have converged
+    std::int64_t steps = 0;
+    while (end > 0) {
+      // A subdiagonal entry within eps of its neighbours on the diagonal is taken as 0 (8.3.3).
+      for (Index i = 0; i < end; ++i)
+        if (std::abs(e(i)) <= eps * (std::abs(d(i)) + std::abs(d(i + 1))) || std::abs(e(i)) < tiny) e(i) = 0;
+      while (end > 0 && e(end - 1) == 0) --end;
+      if (end == 0) break;
+      Index start = end - 1;  // the unreduced block start .. end
+      while (start > 0 && e(start - 1) != 0) --start;
+      if (++steps > 30 * n) return false;
+      // The Wilkinson shift: the eigenvalue of the trailing 2 x 2 block nearer its last entry.
+      const double half = (d(end - 1) - d(end)) / 2, b = e(end - 1);
+      const double root = std::hypot(half, b);
+      const double mu = d(end) - b * (b / (half + (half >= 0 ? root : -root)));
+      // Chase the bulge: rotation k in the plane (k, k + 1) zeroes z against x.
+      double x = d(start) - mu, z = e(start);
+      sweep_first_.push_back(start);
+      sweep_count_.push_back(end - start);
+      sweep_at_.push_back(cosines_.size());
+      for (Index k = start; k < end; ++k) {
+        double c = 1, s = 0;  // G^T (x, z) = (r, 0) for G = [c s; -s c]
+        if (z != 0) {
+          if (std::abs(z) > std::abs(x)) {
+            const double tau = -x / z;
+            s = 1 / std::sqrt(1 + tau * tau);
+            c = s * tau;
+          } else {
+            const double tau = -z / x;
+            c = 1 / std::sqrt(1 + tau * tau);
+            s = c * tau;
+          }
+        }
+        if (k > start) e(k - 1) = c * x - s * z;
+        // G^T [a b; b f] G on the diagonal block, and the next bulge below it.
+        const double a = d(k), bk = e(k), f = d(k + 1);
+        d(k) = a * c * c - 2 * bk * c * s + f * s * s;
+        d(k + 1) = a * s * s + 2 * bk * c * s + f * c * c;
+        e(k) = (a - f) * c * s + bk * (c * c - s * s);
+        if (k + 1 < end) {
+          z = -s * e(k + 1);
+          e(k + 1) = c * e(k + 1);
+        }
+        x = e(k);
+        cosines_.push_back(c);
+        sines_.push_back(s);
+      }
+    }
+    return true;
+  }
+
+  Eigen::Tridiagonalization<MatD> tri_;
+  VecD values_;
+  std::vector<Index> order_;  // positions on the diagonal, largest eigenvalue first
+  // The rotations: QR step i rotates the planes (f, f + 1), ..., (f + c - 1, f + c) for
+  // f = sweep_first_[i], c = sweep_count_[i], with cosines_ and sines_ from sweep_at_[i] on.
+  std::vector<Index> sweep_first_, sweep_count_;
+  std::vector<std::size_t> sweep_at_;
+  std::vector<double> cosines_, sines_;
+  bool ok_ = true;
+};
 
 }  // namespace
 
@@ -288,7 +429,14 @@ Projection truncated_pca(MatrixRef x, const ProjectionOptions& o) {
       g_lower = gram_wide_float(x, threads);
     }
     auto apply_m = [&](const MatD& q) -> MatD {
-      if (use_gram) return g_lower.selfadjointView<Eigen::Lower>() * q;
+      if (use_gram) {
+        // G Q with G symmetric, its lower triangle stored.
+        kernels::Operand g = kernels::columns(g_lower.data(), n);
+        g.lower_symmetric = true;
+        MatD y(n, q.cols());
+        kernels::gemm(kernels::Shape{n, q.cols(), n}, g, kernels::columns(q.data(), n), y.data(), n, false);
+        return y;
+      }
       if (use_float) {
         const MatF qf = q.cast<float>();
         const MatF y = wide ? times<float>(x, times_t<float>(x, qf, threads), threads)
@@ -315,8 +463,8 @@ Projection truncated_pca(MatrixRef x, const ProjectionOptions& o) {
       MatD coef = MatD::Zero(b * block, block);
       for (int pass = 0; pass < 2; ++pass)
         for (Index j = 0; j < b; ++j) {
-          const MatD c = basis[static_cast<std::size_t>(j)].transpose() * y;
-          y.noalias() -= basis[static_cast<std::size_t>(j)] * c;
+          const MatD c = mul_tn(basis[static_cast<std::size_t>(j)], y);
+          y -= mul(basis[static_cast<std::size_t>(j)], c);
           coef.middleRows(j * block, block) += c;
         }
       MatD grown = MatD::Zero(b * block, b * block);
@@ -328,20 +476,20 @@ Projection truncated_pca(MatrixRef x, const ProjectionOptions& o) {
       t.swap(grown);
 
       MatD q_next = orthonormal_columns(y);
-      const MatD r = q_next.transpose() * y;
+      const MatD r = mul_tn(q_next, y);
       // Guard against a nearly invariant space: make the new block orthogonal again.
       for (Index j = 0; j < b; ++j)
-        q_next -= basis[static_cast<std::size_t>(j)] * (basis[static_cast<std::size_t>(j)].transpose() * q_next);
+        q_next -= mul(basis[static_cast<std::size_t>(j)], mul_tn(basis[static_cast<std::size_t>(j)], q_next));
       q_next = orthonormal_columns(q_next);
 
-      Eigen::SelfAdjointEigenSolver<MatD> es(t);
-      if (es.info() != Eigen::Success) throw Error(ErrorKind::kOther, "PCA: the eigensolver failed");
-      const VecD theta = es.eigenvalues().reverse();
-      // Leading `block` Ritz vectors, largest first.
-      const MatD svec = es.eigenvectors().rightCols(block).rowwise().reverse();
+      const RitzPairs pairs(t);
+      if (!pairs.ok()) throw Error(ErrorKind::kOther, "PCA: the eigensolver failed");
+      const VecD& theta = pairs.values();
+      // The residuals need the last `block` rows of the leading Ritz vectors (largest first).
+      const MatD tail = pairs.rows(b * block - block, block, k);
       double worst = 0;
       const double top = std::max(theta(0), 1e-300);
-      for (Index c = 0; c < k; ++c) worst = std::max(worst, (r * svec.col(c).tail(block)).norm() / top);
+      for (Index c = 0; c < k; ++c) worst = std::max(worst, (r * tail.col(c)).norm() / top);
       out.iterations = it;
       out.residual = worst;
       const bool exhausted = (b + 1) * block > m;
@@ -353,9 +501,11 @@ Projection truncated_pca(MatrixRef x, const ProjectionOptions& o) {
         break;
       }
       if (worst <= tolerance) {
+        const MatD svec = pairs.rows(0, b * block, block);  // the leading `block` Ritz vectors
         ritz = MatD::Zero(m, block);
         for (Index j = 0; j < b; ++j)
-          ritz.noalias() += basis[static_cast<std::size_t>(j)] * svec.middleRows(j * block, block);
+          kernels::gemm(kernels::Shape{m, block, block}, operand(basis[static_cast<std::size_t>(j)]),
+                        kernels::columns(svec.data() + j * block, svec.rows()), ritz.data(), m, true);
         converged = true;
         break;
       }
@@ -366,22 +516,24 @@ Projection truncated_pca(MatrixRef x, const ProjectionOptions& o) {
       basis.shrink_to_fit();
       dense();
     } else if (!converged) {
-      throw Error(ErrorKind::kOther,
-                  "PCA did not converge: after " + std::to_string(o.max_iterations) +
-                      " Krylov blocks the largest relative residual is " + std::to_string(out.residual) +
-                      " (tolerance " + std::to_string(tolerance) +
-                      "); ask for fewer components or raise --max-iterations");
+      // A status, not an error: the caller decides (a run stops, the sample screen goes without).
+      out.converged = false;
+      out.status = "PCA did not converge: after " + std::to_string(o.max_iterations) +
+                   " Krylov blocks the largest relative residual is " + std::to_string(out.residual) +
+                   " (tolerance " + std::to_string(tolerance) + ")";
+      out.iterations = o.max_iterations;
+      return out;
     } else if (wide) {
       // Final Rayleigh-Ritz in double: the SVD of X^T U (wide) or X U (tall) on the Ritz space.
       const Triplets svd = leading_svd(times_t<double>(x, ritz, threads), k);  // of X^T U, p x block
       sigma = svd.sigma;
       loadings = svd.u;
-      scores = ritz * svd.v * sigma.asDiagonal();
+      scores = mul(ritz, svd.v) * sigma.asDiagonal();
     } else {
       const Triplets svd = leading_svd(times<double>(x, ritz, threads), k);  // of X U, n x block
       sigma = svd.sigma;
       scores = svd.u * sigma.asDiagonal();
-      loadings = ritz * svd.v;
+      loadings = mul(ritz, svd.v);
     }
   }
 
@@ -410,7 +562,7 @@ Eigen::MatrixXd project_rows(const ConstMatrixRef& x, const Eigen::VectorXd& cen
                              const Eigen::MatrixXd& loadings) {
   MatD z = x.cast<double>();
   for (Index j = 0; j < z.cols(); ++j) z.col(j) = (z.col(j).array() - center(j)) / scale(j);
-  return z * loadings;
+  return mul(z, loadings);
 }
 
 }  // namespace pare

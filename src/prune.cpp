@@ -6,11 +6,12 @@
 #include <cstdio>     // std::snprintf
 #include <string>     // std::string
 
-#include "internal/buffer.h"
+#include "internal/columns.h"
 #include "internal/gemm.h"
+#include "internal/growable_buffer.h"
 #include "internal/omp.h"
 #include "internal/pair_screen.h"
-#include "internal/spill.h"
+#include "kernels/kernels.h"
 #include "pare/error.h"
 #include "pare/progress.h"
 
@@ -18,32 +19,16 @@ namespace pare {
 
 namespace {
 
-// Mean and root of the centred sum of squares of a column, in double.
-struct Moments {
-  double mean = 0;
-  double norm = 0;  // sqrt(sum (x - mean)^2); 0 for a constant column
-};
+// Mean and root of the centred sum of squares of a column, in double (kernels::moments: the same
+// bits on every instruction-set level).
+using Moments = kernels::Moments;
 
-Moments moments_of(const float* x, Eigen::Index n) {
-  double sum = 0;
-  for (Eigen::Index i = 0; i < n; ++i) sum += static_cast<double>(x[i]);
-  Moments m;
-  m.mean = sum / static_cast<double>(n);
-  double ss = 0;
-  for (Eigen::Index i = 0; i < n; ++i) {
-    const double d = static_cast<double>(x[i]) - m.mean;
-    ss += d * d;
-  }
-  m.norm = std::sqrt(ss);
-  return m;
-}
+Moments moments_of(const float* x, Eigen::Index n) { return kernels::moments(x, n); }
 
 // Pearson r of two columns, in double.
 double exact_r(const float* a, const Moments& ma, const float* b, const Moments& mb, Eigen::Index n) {
   if (ma.norm == 0 || mb.norm == 0) return 0;
-  double s = 0;
-  for (Eigen::Index i = 0; i < n; ++i)
-    s += (static_cast<double>(a[i]) - ma.mean) * (static_cast<double>(b[i]) - mb.mean);
+  const double s = kernels::centered_dot(a, ma.mean, b, mb.mean, n);
   // Rounding can put an exact copy at 1 + 2^-52; |r| <= 1 by definition, and --max-corr 1 must
   // keep copies whichever way the rounding falls.
   return std::clamp(s / (ma.norm * mb.norm), -1.0, 1.0);

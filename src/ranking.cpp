@@ -13,7 +13,7 @@
 
 #include "internal/format.h"
 #include "internal/omp.h"
-#include "internal/spill.h"
+#include "internal/columns.h"
 #include "pare/error.h"
 #include "pare/progress.h"
 

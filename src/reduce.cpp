@@ -9,11 +9,11 @@
 #include <limits>     // std::numeric_limits
 #include <numeric>    // std::iota
 
-#include "internal/buffer.h"
+#include "internal/growable_buffer.h"
 #include "internal/criterion_facts.h"
 #include "internal/format.h"
 #include "internal/omp.h"
-#include "internal/spill.h"
+#include "internal/columns.h"
 #include "pare/error.h"
 
 namespace pare {
@@ -27,19 +27,6 @@ std::string g3(double v) {
   std::snprintf(buffer, sizeof buffer, "%.3g", v);
   return buffer;
 }
-
-class Timer {
- public:
-  double lap() {
-    const auto now = std::chrono::steady_clock::now();
-    const double s = std::chrono::duration<double>(now - last_).count();
-    last_ = now;
-    return s;
-  }
-
- private:
-  std::chrono::steady_clock::time_point last_ = std::chrono::steady_clock::now();
-};
 
 float median_of_observed(const float* x, Eigen::Index n, std::vector<float>& scratch) {
   scratch.clear();
@@ -61,7 +48,7 @@ Impute parse_impute(const std::string& name) {
   if (name == "mean") return Impute::kMean;
   if (name == "median") return Impute::kMedian;
   if (name == "zero") return Impute::kZero;
-  throw_usage_error("--impute " + name + " is not one of mean, median, zero");
+  throw_usage_error("`impute` " + name + " is not one of mean, median, zero");
 }
 
 const char* impute_name(Impute i) {
@@ -74,20 +61,20 @@ float transform_value(float x, bool log2) {
 
 void check_reduce_options(const ReduceOptions& o) {
   if (!(o.drop_missing_above >= 0 && o.drop_missing_above <= 1))
-    throw_usage_error("--drop-missing-above must be between 0 and 1 (a fraction of the samples)");
-  if (!(o.min_variance >= 0)) throw_usage_error("--min-variance must be 0 or more");
+    throw_usage_error("`drop_missing_above` must be between 0 and 1 (a fraction of the samples)");
+  if (!(o.min_variance >= 0)) throw_usage_error("`min_variance` must be 0 or more");
   if (!(o.drop_low_variance >= 0 && o.drop_low_variance < 1))
-    throw_usage_error("--drop-low-variance must be at least 0 and below 1");
-  if (!(o.fdr > 0 && o.fdr <= 1)) throw_usage_error("--fdr must be in (0, 1]", "a q-value threshold such as 0.05");
-  if (o.keep < 0) throw_usage_error("--keep must be 0 (all) or more");
+    throw_usage_error("`drop_low_variance` must be at least 0 and below 1");
+  if (!(o.fdr > 0 && o.fdr <= 1)) throw_usage_error("`fdr` must be in (0, 1]", "a q-value threshold such as 0.05");
+  if (o.keep < 0) throw_usage_error("`keep` must be 0 (all) or more");
   if (!(o.max_corr > 0 && o.max_corr <= 1))
-    throw_usage_error("--max-corr must be above 0 and at most 1", "an |r| limit such as 0.9; --no-prune skips the step");
-  if (o.score.bins < 2) throw_usage_error("--bins must be 2 or more");
-  if (o.score.neighbors < 1) throw_usage_error("--neighbors must be 1 or more");
-  if (o.threads < 0) throw_usage_error("--threads must be 0 (all cores) or more");
+    throw_usage_error("`max_corr` must be above 0 and at most 1", "an |r| limit such as 0.9; `no_prune` skips the step");
+  if (o.score.bins < 2) throw_usage_error("`bins` must be 2 or more");
+  if (o.score.neighbors < 1) throw_usage_error("`neighbors` must be 1 or more");
+  if (o.threads < 0) throw_usage_error("`threads` must be 0 (all cores) or more");
   if (o.fdr < 1 && o.rank_by == Criterion::kVariance)
-    throw_usage_error("--fdr needs a criterion with a test, and variance has none",
-                      "rank by mi, chi2, chi2-counts or f, or leave out --fdr");
+    throw_usage_error("`fdr` needs a criterion with a test, and variance has none",
+                      "rank by mi, chi2, chi2-counts or f, or leave out `fdr`");
 }
 
 void log2_transform(FeatureTable& t, int threads) {
@@ -110,7 +97,7 @@ void log2_transform(FeatureTable& t, int threads) {
     if (lowest[j] < 0)
       throw Error(ErrorKind::kInput, t.source + ": feature " + t.feature_names[j] + " has negative values (min " +
                                          g3(lowest[j]) +
-                                         "), so --log2 cannot apply (leave out --log2, or transform it yourself)");
+                                         "), so `log2` cannot apply (leave out `log2`, or transform it yourself)");
 }
 
 void require_some_scored(const FeatureScores& s, Criterion c, const std::string& source) {
@@ -122,171 +109,231 @@ void require_some_scored(const FeatureScores& s, Criterion c, const std::string&
                   "), so a ranking would be the input order (check the labels and the data, or rank by another criterion)");
 }
 
-Reduction reduce(FeatureTable& t, const ReduceOptions& o) {
-  const Eigen::Index n = t.values.rows();
-  const auto p = static_cast<std::int64_t>(t.values.cols());
-  const int threads = internal::thread_count(o.threads);
+const char* step_name(Step step) {
+  switch (step) {
+    case Step::kRead: return "read";
+    case Step::kMissing: return "missing";
+    case Step::kImpute: return "impute";
+    case Step::kTransform: return "transform";
+    case Step::kVariance: return "variance";
+    case Step::kRelevance: return "relevance";
+    case Step::kRedundancy: return "redundancy";
+    case Step::kTop: return "top";
+    case Step::kProject: return "project";
+  }
+  return "?";
+}
+
+void Selection::drop(std::int64_t j, Step step, std::string reason) {
+  Decision& d = decisions[static_cast<std::size_t>(j)];
+  d.kept = false;
+  d.step = step;
+  d.reason = std::move(reason);
+}
+
+void transform_column(std::span<float> x, bool log2) {
+  if (!log2) return;
+  for (float& v : x)
+    if (!std::isnan(v)) v = transform_value(v, true);
+}
+
+std::int64_t fill_column(std::span<float> x, float raw_fill, bool log2) {
+  const float fill = transform_value(raw_fill, log2);
+  std::int64_t filled = 0;
+  for (float& v : x)
+    if (std::isnan(v)) {
+      v = fill;
+      ++filled;
+    }
+  return filled;
+}
+
+void standardise_column(std::span<float> x, double center, double scale) {
+  for (float& v : x) v = static_cast<float>((static_cast<double>(v) - center) / scale);
+}
+
+namespace {
+
+std::span<float> column_span(FeatureTable& t, std::int64_t j) {
+  return {t.values.col(static_cast<Eigen::Index>(j)).data(), static_cast<std::size_t>(t.values.rows())};
+}
+
+// Records a step that took `in` features and left r.alive, timed from `start`.
+void record_step(Reduction& r, Step step, std::size_t in, std::chrono::steady_clock::time_point start) {
+  const double seconds = std::chrono::duration<double>(std::chrono::steady_clock::now() - start).count();
+  r.steps.push_back({step, static_cast<std::int64_t>(in), static_cast<std::int64_t>(r.alive.size()), seconds});
+}
+
+}  // namespace
+
+Reduction start_reduction(const FeatureTable& t, const ReduceOptions& o) {
+  check_reduce_options(o);
+  const auto p = static_cast<std::size_t>(t.values.cols());
   Reduction r;
-  r.decisions.resize(static_cast<std::size_t>(p));
-  r.variance.assign(static_cast<std::size_t>(p), kNaN);
-  r.score_of.assign(static_cast<std::size_t>(p), -1);
-  r.fill.assign(static_cast<std::size_t>(p), std::numeric_limits<float>::quiet_NaN());
+  r.decisions.resize(p);
+  r.variance.assign(p, kNaN);
+  r.score_of.assign(p, -1);
+  r.fill.assign(p, std::numeric_limits<float>::quiet_NaN());
+  r.stats.resize(p);
+  r.alive.resize(p);
+  std::iota(r.alive.begin(), r.alive.end(), std::int64_t{0});
   r.supervised = o.relevance && t.has_labels();
   r.criterion = r.supervised ? o.rank_by : Criterion::kVariance;
-  check_reduce_options(o);
-  auto drop = [&](std::int64_t j, const char* step, std::string reason) {
-    Decision& d = r.decisions[static_cast<std::size_t>(j)];
-    d.step = step;
-    d.reason = std::move(reason);
-  };
-  Timer timer;
+  return r;
+}
 
-  // 1. missing filter
-  r.raw_stats = compute_column_stats(t.values, threads);
-  std::vector<std::int64_t> alive;
-  alive.reserve(static_cast<std::size_t>(p));
-  for (std::int64_t j = 0; j < p; ++j) {
+void filter_missing(const FeatureTable& t, const ReduceOptions& o, Reduction& r) {
+  const auto start = std::chrono::steady_clock::now();
+  const std::size_t in = r.alive.size();
+  r.raw_stats = compute_column_stats(t.values, internal::thread_count(o.threads));
+  std::erase_if(r.alive, [&](std::int64_t j) {
     const double rate = r.raw_stats[static_cast<std::size_t>(j)].missing_rate();
-    if (o.missing_filter && rate > o.drop_missing_above)
-      drop(j, "missing", "missing rate " + g3(rate) + " > " + g3(o.drop_missing_above));
-    else
-      alive.push_back(j);
-  }
-  r.steps.push_back({"missing", p, static_cast<std::int64_t>(alive.size()), timer.lap()});
+    if (!o.missing_filter || rate <= o.drop_missing_above) return false;
+    r.drop(j, Step::kMissing, "missing rate " + g3(rate) + " > " + g3(o.drop_missing_above));
+    return true;
+  });
+  record_step(r, Step::kMissing, in, start);
+}
 
-  // 2. imputation: learn the fill values now (raw scale). The cells are filled after scoring:
-  // the variance filter and the scores use each feature's observed cells only (as documented),
-  // and correlations and PCA use the filled values.
-  {
-    std::vector<std::vector<float>> scratch(static_cast<std::size_t>(threads));
-    auto learn = [&](std::size_t a) {
-      const std::int64_t j = alive[a];
-      const ColumnStats& s = r.raw_stats[static_cast<std::size_t>(j)];
-      float fill = 0.0f;
-      if (s.n > 0 && o.impute == Impute::kMean) fill = static_cast<float>(s.mean);
-      if (s.n > 0 && o.impute == Impute::kMedian)
-        fill = median_of_observed(t.values.col(j).data(), n, scratch[static_cast<std::size_t>(omp_get_thread_num())]);
-      r.fill[static_cast<std::size_t>(j)] = fill;
-    };
-    if (o.impute == Impute::kMedian) {
-      internal::for_each_column(t.values, alive, threads, learn);
-    } else {
-      for (std::size_t a = 0; a < alive.size(); ++a) learn(a);  // no cell is read
-    }
+// The fill values are learned on the raw scale. The cells are filled after scoring (before step
+// 6): the variance filter and the scores use each feature's observed cells only (as documented),
+// and correlations and PCA use the filled values.
+void learn_fill(const FeatureTable& t, const ReduceOptions& o, Reduction& r) {
+  const auto start = std::chrono::steady_clock::now();
+  const Eigen::Index n = t.values.rows();
+  const int threads = internal::thread_count(o.threads);
+  std::vector<std::vector<float>> scratch(static_cast<std::size_t>(threads));
+  auto learn = [&](std::size_t a) {
+    const std::int64_t j = r.alive[a];
+    const ColumnStats& s = r.raw_stats[static_cast<std::size_t>(j)];
+    float fill = 0.0f;
+    if (s.n > 0 && o.impute == Impute::kMean) fill = static_cast<float>(s.mean);
+    if (s.n > 0 && o.impute == Impute::kMedian)
+      fill = median_of_observed(t.values.col(j).data(), n, scratch[static_cast<std::size_t>(omp_get_thread_num())]);
+    r.fill[static_cast<std::size_t>(j)] = fill;
+  };
+  if (o.impute == Impute::kMedian) {
+    internal::for_each_column(t.values, r.alive, threads, learn);
+  } else {
+    for (std::size_t a = 0; a < r.alive.size(); ++a) learn(a);  // no cell is read
   }
-  const auto n_alive = static_cast<std::int64_t>(alive.size());
-  r.steps.push_back({"impute", n_alive, n_alive, timer.lap()});
+  record_step(r, Step::kImpute, r.alive.size(), start);
+}
 
-  // 3. transform
+void transform_step(FeatureTable& t, const ReduceOptions& o, Reduction& r) {
+  const auto start = std::chrono::steady_clock::now();
+  const int threads = internal::thread_count(o.threads);
   if (o.log2) {
-    for (const std::int64_t j : alive)
-      if (r.raw_stats[static_cast<std::size_t>(j)].n > 0 && r.raw_stats[static_cast<std::size_t>(j)].min < 0)
+    for (const std::int64_t j : r.alive) {
+      const ColumnStats& s = r.raw_stats[static_cast<std::size_t>(j)];
+      if (s.n > 0 && s.min < 0)
         throw Error(ErrorKind::kInput, t.source + ": feature " + t.feature_names[static_cast<std::size_t>(j)] +
-                                           " has negative values (min " + g3(r.raw_stats[static_cast<std::size_t>(j)].min) +
-                                           "), so --log2 cannot apply (leave out --log2, or transform it yourself)");
-    internal::for_each_column(t.values, alive, threads, [&](std::size_t a) {
-      float* x = t.values.col(alive[a]).data();
-      for (Eigen::Index i = 0; i < n; ++i)
-        if (!std::isnan(x[i])) x[i] = transform_value(x[i], true);
+                                           " has negative values (min " + g3(s.min) +
+                                           "), so `log2` cannot apply (leave out `log2`, or transform it yourself)");
+    }
+    internal::for_each_column(t.values, r.alive, threads,
+                              [&](std::size_t a) { transform_column(column_span(t, r.alive[a]), true); });
+  }
+  // The statistics of the observed, transformed values: for the variance filter and scoring.
+  if (o.log2) {
+    internal::for_each_column(t.values, r.alive, threads, [&](std::size_t a) {
+      const auto j = static_cast<std::size_t>(r.alive[a]);
+      r.stats[j] = column_stats(std::span<const float>(t.values.col(r.alive[a]).data(),
+                                                       static_cast<std::size_t>(t.values.rows())));
+    });
+  } else {
+    for (const std::int64_t j : r.alive) r.stats[static_cast<std::size_t>(j)] = r.raw_stats[static_cast<std::size_t>(j)];
+  }
+  record_step(r, Step::kTransform, r.alive.size(), start);
+}
+
+void filter_variance(const FeatureTable& t, const ReduceOptions& o, Reduction& r) {
+  (void)t;
+  const auto start = std::chrono::steady_clock::now();
+  const std::size_t in = r.alive.size();
+  for (const std::int64_t j : r.alive) r.variance[static_cast<std::size_t>(j)] = r.stats[static_cast<std::size_t>(j)].variance;
+  if (o.variance_filter) {
+    std::erase_if(r.alive, [&](std::int64_t j) {
+      const double v = r.variance[static_cast<std::size_t>(j)];
+      if (std::isnan(v)) {
+        r.drop(j, Step::kVariance, "fewer than 2 observed values");
+        return true;
+      }
+      if (v < o.min_variance) {
+        r.drop(j, Step::kVariance, "variance " + g3(v) + " < " + g3(o.min_variance));
+        return true;
+      }
+      return false;
     });
   }
-  r.steps.push_back({"transform", n_alive, n_alive, timer.lap()});
-
-  // 4. variance filter, on the observed transformed values (their statistics are kept, by
-  // column, for scoring)
-  std::vector<ColumnStats> current(static_cast<std::size_t>(p));
-  {
-    std::vector<ColumnStats> stats(alive.size());
-    if (o.log2) {
-      internal::for_each_column(t.values, alive, threads, [&](std::size_t a) {
-        stats[a] = column_stats(std::span<const float>(t.values.col(alive[a]).data(), static_cast<std::size_t>(n)));
-      });
-    } else {
-      for (std::size_t a = 0; a < alive.size(); ++a) stats[a] = r.raw_stats[static_cast<std::size_t>(alive[a])];
-    }
-    std::vector<std::int64_t> next;
-    for (std::size_t a = 0; a < alive.size(); ++a) {
-      const std::int64_t j = alive[a];
-      current[static_cast<std::size_t>(j)] = stats[a];
-      const double v = stats[a].variance;
-      r.variance[static_cast<std::size_t>(j)] = v;
-      if (!o.variance_filter) {
-        next.push_back(j);
-      } else if (std::isnan(v)) {
-        drop(j, "variance", "fewer than 2 observed values");
-      } else if (v < o.min_variance) {
-        drop(j, "variance", "variance " + g3(v) + " < " + g3(o.min_variance));
-      } else {
-        next.push_back(j);
-      }
-    }
-    if (o.variance_filter && o.drop_low_variance > 0 && !next.empty()) {
-      std::vector<std::int64_t> by_variance = next;
-      std::stable_sort(by_variance.begin(), by_variance.end(), [&](std::int64_t a, std::int64_t b) {
-        return r.variance[static_cast<std::size_t>(a)] < r.variance[static_cast<std::size_t>(b)];
-      });
-      const auto cut = static_cast<std::size_t>(o.drop_low_variance * static_cast<double>(by_variance.size()));
-      if (cut > 0) {
-        const double boundary = r.variance[static_cast<std::size_t>(by_variance[cut - 1])];
-        std::vector<char> gone(static_cast<std::size_t>(p), 0);
-        for (std::size_t k = 0; k < cut; ++k) {
-          const std::int64_t j = by_variance[k];
-          gone[static_cast<std::size_t>(j)] = 1;
-          drop(j, "variance",
+  if (o.variance_filter && o.drop_low_variance > 0 && !r.alive.empty()) {
+    std::vector<std::int64_t> by_variance = r.alive;
+    std::stable_sort(by_variance.begin(), by_variance.end(), [&](std::int64_t a, std::int64_t b) {
+      return r.variance[static_cast<std::size_t>(a)] < r.variance[static_cast<std::size_t>(b)];
+    });
+    const auto cut = static_cast<std::size_t>(o.drop_low_variance * static_cast<double>(by_variance.size()));
+    if (cut > 0) {
+      const double boundary = r.variance[static_cast<std::size_t>(by_variance[cut - 1])];
+      std::vector<char> gone(r.decisions.size(), 0);
+      for (std::size_t k = 0; k < cut; ++k) {
+        const std::int64_t j = by_variance[k];
+        gone[static_cast<std::size_t>(j)] = 1;
+        r.drop(j, Step::kVariance,
                "variance " + g3(r.variance[static_cast<std::size_t>(j)]) + " in the lowest " +
                    g3(100 * o.drop_low_variance) + "% (cut at " + g3(boundary) + ")");
-        }
-        std::erase_if(next, [&](std::int64_t j) { return gone[static_cast<std::size_t>(j)] != 0; });
       }
+      std::erase_if(r.alive, [&](std::int64_t j) { return gone[static_cast<std::size_t>(j)] != 0; });
     }
-    r.steps.push_back({"variance", n_alive, static_cast<std::int64_t>(next.size()), timer.lap()});
-    alive.swap(next);
   }
+  record_step(r, Step::kVariance, in, start);
+}
 
-  // 5. relevance: score and rank (or rank by variance without labels), then the --fdr filter
-  std::vector<std::int64_t> ordered;
-  if (r.supervised && !alive.empty()) {
+// Scores and ranks against the labels (or by variance without labels; input order when
+// options.relevance is off), then cuts at --fdr.
+void rank_relevance(const FeatureTable& t, const ReduceOptions& o, Reduction& r) {
+  const auto start = std::chrono::steady_clock::now();
+  const std::size_t in = r.alive.size();
+  if (r.supervised && !r.alive.empty()) {
     const ClassCodes classes = encode_classes(t.labels);
     ScoreOptions so = o.score;
     so.threads = o.threads;
     so.counts_chi2 = o.rank_by == Criterion::kChi2Counts;
-    std::vector<ColumnStats> alive_stats(alive.size());
-    for (std::size_t a = 0; a < alive.size(); ++a) alive_stats[a] = current[static_cast<std::size_t>(alive[a])];
-    r.scores = score_features(t.values, alive, classes, so, alive_stats);
+    std::vector<ColumnStats> alive_stats(r.alive.size());
+    for (std::size_t a = 0; a < r.alive.size(); ++a) alive_stats[a] = r.stats[static_cast<std::size_t>(r.alive[a])];
+    r.scores = score_features(t.values, r.alive, classes, so, alive_stats);
     require_some_scored(r.scores, r.criterion, t.source);
+    std::vector<std::int64_t> ordered;
     for (const std::size_t pos : rank_order(r.scores, r.criterion)) {
       const std::int64_t j = r.scores.feature[pos];
       r.score_of[static_cast<std::size_t>(j)] = static_cast<std::int64_t>(pos);
       const double q = criterion_q(r.scores, r.criterion, pos);
       if (o.fdr < 1 && r.criterion != Criterion::kVariance && q > o.fdr)
-        drop(j, "relevance", std::string(internal::criterion_facts(r.criterion).short_test) + " q = " + g3(q) + " > " + g3(o.fdr));
+        r.drop(j, Step::kRelevance,
+               std::string(internal::criterion_facts(r.criterion).short_test) + " q = " + g3(q) + " > " + g3(o.fdr));
       else
         ordered.push_back(j);
     }
-  } else if (!o.relevance) {
-    ordered = alive;  // no ranking asked for: input order
-  } else {
-    ordered = alive;
-    std::stable_sort(ordered.begin(), ordered.end(), [&](std::int64_t a, std::int64_t b) {
+    r.alive.swap(ordered);
+  } else if (o.relevance) {
+    std::stable_sort(r.alive.begin(), r.alive.end(), [&](std::int64_t a, std::int64_t b) {
       return r.variance[static_cast<std::size_t>(a)] > r.variance[static_cast<std::size_t>(b)];
     });
   }
-  r.steps.push_back({"relevance", static_cast<std::int64_t>(alive.size()),
-                     static_cast<std::int64_t>(ordered.size()), timer.lap()});
+  record_step(r, Step::kRelevance, in, start);
+}
 
-  // Fill the gaps of the candidates (transformed fill value, as apply will compute it).
-  internal::for_each_column(t.values, ordered, threads, [&](std::size_t a) {
-    const std::int64_t j = ordered[a];
-    const float fill = transform_value(r.fill[static_cast<std::size_t>(j)], o.log2);
-    float* x = t.values.col(j).data();
-    for (Eigen::Index i = 0; i < n; ++i)
-      if (std::isnan(x[i])) x[i] = fill;
+// Fills the gaps of the candidates (the transformed fill value, as apply computes it), then
+// drops each candidate whose |r| with a better-ranked kept one is above max_corr.
+void prune_redundant(FeatureTable& t, const ReduceOptions& o, Reduction& r) {
+  const auto start = std::chrono::steady_clock::now();
+  const std::size_t in = r.alive.size();
+  internal::for_each_column(t.values, r.alive, internal::thread_count(o.threads), [&](std::size_t a) {
+    const std::int64_t j = r.alive[a];
+    fill_column(column_span(t, j), r.fill[static_cast<std::size_t>(j)], o.log2);
   });
-
-  // 6. redundancy
-  std::vector<std::int64_t> survivors;
-  std::vector<std::int64_t> unexamined;
   if (o.prune) {
+    const std::vector<std::int64_t> ordered = std::move(r.alive);
+    r.alive.clear();
     PruneOptions po;
     po.max_corr = o.max_corr;
     po.max_kept = o.keep;
@@ -300,64 +347,64 @@ Reduction reduce(FeatureTable& t, const ReduceOptions& o) {
     for (std::size_t i = 0; i < ordered.size(); ++i) {
       const std::int64_t j = ordered[i];
       if (pr.kept[i]) {
-        survivors.push_back(j);
+        r.alive.push_back(j);
       } else if (static_cast<std::int64_t>(i) >= pr.examined) {
-        unexamined.push_back(j);
+        r.unexamined.push_back(j);
       } else {
         const auto partner = static_cast<std::size_t>(pr.partner[i]);
         char buffer[32];
         std::snprintf(buffer, sizeof buffer, "%.3f", std::abs(pr.r[i]));
-        drop(j, "redundancy",
-             "|r| = " + std::string(buffer) + " with " + t.feature_names[static_cast<std::size_t>(ordered[partner])] +
-                 " (kept, rank " + std::to_string(kept_rank[partner]) + ")");
+        r.drop(j, Step::kRedundancy,
+               "|r| = " + std::string(buffer) + " with " + t.feature_names[static_cast<std::size_t>(ordered[partner])] +
+                   " (kept, rank " + std::to_string(kept_rank[partner]) + ")");
         r.decisions[static_cast<std::size_t>(j)].partner = ordered[partner];
       }
     }
-  } else {
-    survivors = ordered;
   }
-  r.steps.push_back({"redundancy", static_cast<std::int64_t>(ordered.size()),
-                     static_cast<std::int64_t>(survivors.size() + unexamined.size()), timer.lap()});
+  const auto seconds = std::chrono::duration<double>(std::chrono::steady_clock::now() - start).count();
+  r.steps.push_back({Step::kRedundancy, static_cast<std::int64_t>(in),
+                     static_cast<std::int64_t>(r.alive.size() + r.unexamined.size()), seconds});
+}
 
-  // 7. top K
-  const std::int64_t before_top = static_cast<std::int64_t>(survivors.size() + unexamined.size());
-  for (std::size_t i = 0; i < survivors.size(); ++i) {
-    const std::int64_t j = survivors[i];
+// Keeps the first K survivors; the kept features get their rank, and the centre and scale of
+// their transformed, filled column (and are standardised with options.scale).
+void take_top(FeatureTable& t, const ReduceOptions& o, Reduction& r) {
+  const auto start = std::chrono::steady_clock::now();
+  const auto in = static_cast<std::int64_t>(r.alive.size() + r.unexamined.size());
+  for (std::size_t i = 0; i < r.alive.size(); ++i) {
+    const std::int64_t j = r.alive[i];
     if (o.keep > 0 && static_cast<std::int64_t>(i) >= o.keep) {
-      drop(j, "top", "rank " + std::to_string(i + 1) + (o.prune ? " after pruning" : "") + "; --keep " +
-                         std::to_string(o.keep));
+      r.drop(j, Step::kTop, "rank " + std::to_string(i + 1) + (o.prune ? " after pruning" : "") + "; --keep " +
+                                std::to_string(o.keep));
       continue;
     }
     r.kept.push_back(j);
   }
-  for (const std::int64_t j : unexamined)
-    drop(j, "top", "not reached: the first " + std::to_string(o.keep) + " were already kept (--keep " +
-                       std::to_string(o.keep) + "), so it was not compared for redundancy");
-  r.steps.push_back({"top", before_top, static_cast<std::int64_t>(r.kept.size()), timer.lap()});
-
+  for (const std::int64_t j : r.unexamined)
+    r.drop(j, Step::kTop, "not reached: the first " + std::to_string(o.keep) + " were already kept (--keep " +
+                              std::to_string(o.keep) + "), so it was not compared for redundancy");
+  r.alive = r.kept;
+  r.unexamined.clear();
   if (r.kept.empty()) {
+    r.steps.push_back({Step::kTop, in, 0, 0.0});
     std::string counts;
-    for (const auto& s : r.steps) counts += (counts.empty() ? "" : ", ") + s.name + " " + std::to_string(s.out);
+    for (const auto& s : r.steps) counts += (counts.empty() ? "" : ", ") + std::string(step_name(s.step)) + " " + std::to_string(s.out);
     throw Error(ErrorKind::kInput, t.source + ": every feature was filtered out (left after each step: " + counts +
-                                       "); loosen the thresholds, e.g. --drop-missing-above, --min-variance, --fdr");
+                                       "); loosen the thresholds, e.g. `drop_missing_above`, `min_variance`, `fdr`");
   }
-
-  // Kept features: their rank, and the centre and scale of the transformed, filled column.
   r.center.resize(r.kept.size());
   r.scale.resize(r.kept.size());
-  internal::for_each_column(t.values, r.kept, threads, [&](std::size_t k) {
-    float* x = t.values.col(r.kept[k]).data();
-    const ColumnStats s = column_stats(std::span<const float>(x, static_cast<std::size_t>(n)));
+  internal::for_each_column(t.values, r.kept, internal::thread_count(o.threads), [&](std::size_t k) {
+    const std::span<float> x = column_span(t, r.kept[k]);
+    const ColumnStats s = column_stats(std::span<const float>(x.data(), x.size()));
     r.center[k] = s.mean;
     r.scale[k] = s.n >= 2 && s.variance > 0 ? std::sqrt(s.variance) : 1.0;
-    if (o.scale)
-      for (Eigen::Index i = 0; i < n; ++i)
-        x[i] = static_cast<float>((static_cast<double>(x[i]) - r.center[k]) / r.scale[k]);
+    if (o.scale) standardise_column(x, r.center[k], r.scale[k]);
   });
   for (std::size_t k = 0; k < r.kept.size(); ++k) {
     Decision& d = r.decisions[static_cast<std::size_t>(r.kept[k])];
     d.kept = true;
-    d.step = "kept";
+    d.step = Step::kTop;
     d.rank = static_cast<std::int64_t>(k + 1);
     const std::int64_t pos = r.score_of[static_cast<std::size_t>(r.kept[k])];
     if (!o.relevance) {
@@ -369,7 +416,19 @@ Reduction reduce(FeatureTable& t, const ReduceOptions& o) {
                            : r.variance[static_cast<std::size_t>(r.kept[k])]) +
                ")";
   }
-  r.steps.back().seconds += timer.lap();
+  const auto seconds = std::chrono::duration<double>(std::chrono::steady_clock::now() - start).count();
+  r.steps.push_back({Step::kTop, in, static_cast<std::int64_t>(r.kept.size()), seconds});
+}
+
+Reduction reduce(FeatureTable& t, const ReduceOptions& o) {
+  Reduction r = start_reduction(t, o);
+  filter_missing(t, o, r);
+  learn_fill(t, o, r);
+  transform_step(t, o, r);
+  filter_variance(t, o, r);
+  rank_relevance(t, o, r);
+  prune_redundant(t, o, r);
+  take_top(t, o, r);
   return r;
 }
 
@@ -400,7 +459,7 @@ std::string selection_log_tsv(const FeatureTable& t, const Reduction& r) {
       out += '\t';
       internal::append_field(out, column[j], '\t');
     }
-    out += '\t' + std::to_string(j + 1) + '\t' + (d.kept ? "kept" : "dropped") + '\t' + d.step + '\t';
+    out += '\t' + std::to_string(j + 1) + '\t' + (d.kept ? "kept" : "dropped") + '\t' + (d.kept ? "kept" : step_name(d.step)) + '\t';
     internal::append_field(out, d.reason, '\t');
     out += '\t';
     if (d.kept) out += std::to_string(d.rank);
@@ -544,7 +603,7 @@ void write_reduced_matrix(const FeatureTable& t, const std::vector<std::int64_t>
         // In memory the columns come in rank order, from all over the matrix, so each run is a
         // cache miss: the runs a tile ahead are fetched while this tile is copied, and a tile is
         // written row by row (8 floats at a time rather than one float into each of 16 rows).
-        // About 4x faster than one column at a time (1.8 against 7 ns a value, one thread).
+        // Several columns at a time: about 4x faster than one (performance.md).
         constexpr Eigen::Index kTile = 8, kAhead = 16;
         for (Eigen::Index c0 = 0; c0 < k; c0 += kTile) {
           const Eigen::Index c1 = std::min(k, c0 + kTile);

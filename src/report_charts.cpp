@@ -145,44 +145,47 @@ struct Bin {
   std::int64_t kept = 0, dropped = 0;
 };
 
-std::string histogram_svg(const ReportHistogram& h, std::string& caption_extra) {
-  const double width = 760, left = 74, right = 20, top = 30, bottom = 58, plot_h = 190;
-  const double height = top + plot_h + bottom;
-  // Axis values of the finite values; zero or negative values on a log axis get their own bar.
-  std::vector<double> t;
-  std::vector<char> gone;
-  Bin zero;
-  std::int64_t missing = 0;
+namespace {
+
+// A histogram's values on its axis: log10 of them on a log axis, where zero or negative values get
+// a bar of their own; values without a finite value are only counted.
+struct AxisValues {
+  std::vector<double> t;       // the drawn values, in axis units
+  std::vector<char> gone;      // per drawn value: dropped
+  std::vector<double> cut_at;  // the cuts, in axis units
+  Bin zero;                    // zero or negative values on a log axis
+  std::int64_t missing = 0;    // NaN or infinite
+};
+
+AxisValues axis_values(const ReportHistogram& h) {
+  AxisValues a;
   for (std::size_t i = 0; i < h.values.size(); ++i) {
     const double v = h.values[i];
     const bool d = !h.dropped.empty() && h.dropped[i];
     if (std::isnan(v) || std::isinf(v)) {
-      ++missing;
+      ++a.missing;
     } else if (h.log_x && v <= 0) {
-      (d ? zero.dropped : zero.kept)++;
+      (d ? a.zero.dropped : a.zero.kept)++;
     } else {
-      t.push_back(h.log_x ? std::log10(v) : v);
-      gone.push_back(d);
+      a.t.push_back(h.log_x ? std::log10(v) : v);
+      a.gone.push_back(d);
     }
   }
-  std::vector<double> cut_at;
   for (const auto& c : h.cuts)
-    if (!h.log_x || c.at > 0) cut_at.push_back(h.log_x ? std::log10(c.at) : c.at);
-  double lo = std::isnan(h.lo) ? kNaN : (h.log_x ? std::log10(h.lo) : h.lo);
-  double hi = std::isnan(h.hi) ? kNaN : (h.log_x ? std::log10(h.hi) : h.hi);
-  for (const double v : t) {
-    lo = std::isnan(lo) ? v : std::min(lo, v);
-    hi = std::isnan(hi) ? v : std::max(hi, v);
-  }
-  for (const double v : cut_at) {
-    lo = std::isnan(lo) ? v : std::min(lo, v);
-    hi = std::isnan(hi) ? v : std::max(hi, v);
-  }
-  if (std::isnan(lo)) lo = hi = 0;
-  if (hi - lo < 1e-12) {
-    lo -= 0.5;
-    hi += 0.5;
-  }
+    if (!h.log_x || c.at > 0) a.cut_at.push_back(h.log_x ? std::log10(c.at) : c.at);
+  return a;
+}
+
+// The bins: edges anchor + k w for k from kmin to kmax + 1, and their counts.
+struct Binning {
+  double anchor = 0, w = 0;
+  std::int64_t kmin = 0, kmax = 0;
+  std::vector<Bin> bins;
+};
+
+// The bin width: the histogram's own, else a round width giving about 40 bins (up to 60 on a log
+// axis, in steps of a whole or a simple fraction of a decade).
+double bin_width(const ReportHistogram& h, double lo, double hi) {
   double w = h.bin_width;
   if (!(w > 0)) {
     if (h.log_x) {
@@ -193,104 +196,109 @@ std::string histogram_svg(const ReportHistogram& h, std::string& caption_extra) 
       w = nice_step(hi - lo, 40);
     }
   }
+  return w;
+}
+
+Binning bin_values(const ReportHistogram& h, const AxisValues& a) {
+  double lo = std::isnan(h.lo) ? kNaN : (h.log_x ? std::log10(h.lo) : h.lo);
+  double hi = std::isnan(h.hi) ? kNaN : (h.log_x ? std::log10(h.hi) : h.hi);
+  for (const double v : a.t) {
+    lo = std::isnan(lo) ? v : std::min(lo, v);
+    hi = std::isnan(hi) ? v : std::max(hi, v);
+  }
+  for (const double v : a.cut_at) {
+    lo = std::isnan(lo) ? v : std::min(lo, v);
+    hi = std::isnan(hi) ? v : std::max(hi, v);
+  }
+  if (std::isnan(lo)) lo = hi = 0;
+  if (hi - lo < 1e-12) {
+    lo -= 0.5;
+    hi += 0.5;
+  }
+  Binning b;
+  b.w = bin_width(h, lo, hi);
   // Bins are aligned so the first cut is an edge: every bin lies wholly on one side of it. A
   // value on the edge goes to the side the filter keeps it on.
-  const double anchor = cut_at.empty() ? 0.0 : cut_at.front();
+  b.anchor = a.cut_at.empty() ? 0.0 : a.cut_at.front();
   const auto index = [&](double v) {
-    const double u = (v - anchor) / w;
+    const double u = (v - b.anchor) / b.w;
     return static_cast<std::int64_t>(h.cut_keeps_equal_above ? std::floor(u) : std::ceil(u) - 1);
   };
   // The bins covering [lo, hi]; a value on either end is counted in the end bin.
   const auto first_bin = [&] {
-    return static_cast<std::int64_t>(std::floor((lo - anchor) / w + 1e-9));
+    return static_cast<std::int64_t>(std::floor((lo - b.anchor) / b.w + 1e-9));
   };
   const auto last_bin = [&] {
     return std::max(first_bin(),
-                    static_cast<std::int64_t>(std::ceil((hi - anchor) / w - 1e-9)) - 1);
+                    static_cast<std::int64_t>(std::ceil((hi - b.anchor) / b.w - 1e-9)) - 1);
   };
-  std::int64_t kmin = first_bin(), kmax = last_bin();
-  if (kmax - kmin > 400) {  // never more bins than pixels
-    w *= static_cast<double>(kmax - kmin) / 400;
-    kmin = first_bin();
-    kmax = last_bin();
+  b.kmin = first_bin();
+  b.kmax = last_bin();
+  if (b.kmax - b.kmin > 400) {  // never more bins than pixels
+    b.w *= static_cast<double>(b.kmax - b.kmin) / 400;
+    b.kmin = first_bin();
+    b.kmax = last_bin();
   }
-  std::vector<Bin> bins(static_cast<std::size_t>(kmax - kmin + 1));
-  for (std::size_t i = 0; i < t.size(); ++i) {
-    const std::int64_t k = std::clamp(index(t[i]), kmin, kmax);
-    Bin& b = bins[static_cast<std::size_t>(k - kmin)];
-    (gone[i] ? b.dropped : b.kept)++;
+  b.bins.resize(static_cast<std::size_t>(b.kmax - b.kmin + 1));
+  for (std::size_t i = 0; i < a.t.size(); ++i) {
+    const std::int64_t k = std::clamp(index(a.t[i]), b.kmin, b.kmax);
+    Bin& bin = b.bins[static_cast<std::size_t>(k - b.kmin)];
+    (a.gone[i] ? bin.dropped : bin.kept)++;
   }
-  std::int64_t most = std::max<std::int64_t>(1, zero.kept + zero.dropped);
-  for (const auto& b : bins) most = std::max(most, b.kept + b.dropped);
-  if (h.level > 0) most = std::max(most, static_cast<std::int64_t>(std::ceil(h.level)));
-  const int top_power =
-      std::max(1, static_cast<int>(std::ceil(std::log10(static_cast<double>(most)) - 1e-9)));
-  // log10 counts from 10^-0.3 (half a feature) so a single feature still shows as a bar.
-  const Scale y{-0.3, static_cast<double>(top_power), top + plot_h, top};
-  const bool has_zero = zero.kept + zero.dropped > 0;
-  const double zero_w = has_zero ? 34 : 0;
-  const double a0 = anchor + static_cast<double>(kmin) * w,
-               a1 = anchor + static_cast<double>(kmax + 1) * w;
-  const Scale x{a0, a1, left + zero_w + (has_zero ? 10 : 0), width - right};
-  std::string s = svg_open(width, height, h.title);
-  log_count_axis(s, y, left, top_power, width - right, h.count_axis + " (log scale)",
-                 top + plot_h / 2);
+  return b;
+}
 
-  const auto bin_text = [&](double e0, double e1) {
-    const std::string open = h.cut_keeps_equal_above ? "[" : "(",
-                      close = h.cut_keeps_equal_above ? ")" : "]";
-    return open + g(h.log_x ? std::pow(10.0, e0) : e0) + ", " +
-           g(h.log_x ? std::pow(10.0, e1) : e1) + close;
-  };
-  const auto bar = [&](double x0, double x1, std::int64_t n, const char* fill,
-                       const std::string& title) {
-    if (n <= 0) return;
-    const double y0 = y.raw(std::log10(static_cast<double>(n)));
-    rect(s, x0, y0, x1 - x0, top + plot_h - y0, fill, title);
-  };
+// Draws the bars of one bin, or nothing when it is empty.
+class BinDrawer {
+ public:
+  BinDrawer(std::string& s, const ReportHistogram& h, const Scale& y, double base)
+      : s_(s), h_(h), y_(y), base_(base) {}
+
   // Each non-empty bin is a group with its edges (in data units, %g) and counts, for checks.
-  const auto draw_bin = [&](double x0, double x1, const Bin& b, const std::string& range,
-                            double from, double to) {
+  void draw(double x0, double x1, const Bin& b, const std::string& range, double from,
+            double to) const {
     if (b.kept + b.dropped <= 0) return;
-    s += "<g class=\"bin\" data-from=\"" + g(from, 6) + "\" data-to=\"" + g(to, 6) +
-         "\" data-count=\"" + std::to_string(b.kept + b.dropped) + "\"";
-    if (!h.dropped.empty()) s += " data-dropped=\"" + std::to_string(b.dropped) + "\"";
-    s += ">";
+    s_ += "<g class=\"bin\" data-from=\"" + g(from, 6) + "\" data-to=\"" + g(to, 6) +
+          "\" data-count=\"" + std::to_string(b.kept + b.dropped) + "\"";
+    if (!h_.dropped.empty()) s_ += " data-dropped=\"" + std::to_string(b.dropped) + "\"";
+    s_ += ">";
     const double gap = std::min(1.0, (x1 - x0) * 0.15);
     x0 += gap / 2;
     x1 -= gap / 2;
-    const std::string what = " " + h.count_axis;
+    const std::string what = " " + h_.count_axis;
     if (b.dropped > 0 && b.kept > 0) {
       const double mid = (x0 + x1) / 2;
       bar(x0, mid, b.dropped, kVermillion,
-          esc(range + ": " + count(b.dropped) + what + ", " + h.dropped_label));
-      bar(mid, x1, b.kept, kBlue, esc(range + ": " + count(b.kept) + what + ", " + h.kept_label));
+          esc(range + ": " + count(b.dropped) + what + ", " + h_.dropped_label));
+      bar(mid, x1, b.kept, kBlue, esc(range + ": " + count(b.kept) + what + ", " + h_.kept_label));
     } else if (b.dropped > 0) {
       bar(x0, x1, b.dropped, kVermillion,
-          esc(range + ": " + count(b.dropped) + what + ", " + h.dropped_label));
+          esc(range + ": " + count(b.dropped) + what + ", " + h_.dropped_label));
     } else {
       bar(x0, x1, b.kept, kBlue,
           esc(range + ": " + count(b.kept) + what +
-              (h.dropped.empty() ? "" : ", " + h.kept_label)));
+              (h_.dropped.empty() ? "" : ", " + h_.kept_label)));
     }
-    s += "</g>";
-  };
-  for (std::size_t k = 0; k < bins.size(); ++k) {
-    const double e0 = anchor + static_cast<double>(kmin + static_cast<std::int64_t>(k)) * w,
-                 e1 = e0 + w;
-    draw_bin(x.raw(e0), x.raw(e1), bins[k], bin_text(e0, e1), h.log_x ? std::pow(10.0, e0) : e0,
-             h.log_x ? std::pow(10.0, e1) : e1);
-  }
-  if (has_zero) draw_bin(left + 6, left + 6 + zero_w, zero, "0", 0, 0);
-  if (h.level > 0) {
-    const double py = y.raw(std::log10(h.level));
-    line(s, x.r0, py, x.r1, py, kOrange, 1.5, "6 3");
-    text(s, x.r1 - 4, py - 5, esc(h.level_label), "end", "cut");
+    s_ += "</g>";
   }
 
-  // x axis: powers of ten on a log axis (plain values when that would give fewer than 3 ticks).
-  std::vector<double> ticks;
-  std::vector<std::string> labels;
+ private:
+  void bar(double x0, double x1, std::int64_t n, const char* fill, const std::string& title) const {
+    if (n <= 0) return;
+    const double y0 = y_.raw(std::log10(static_cast<double>(n)));
+    rect(s_, x0, y0, x1 - x0, base_ - y0, fill, title);
+  }
+
+  std::string& s_;
+  const ReportHistogram& h_;
+  const Scale& y_;
+  double base_;  // the pixel row of the count axis's foot
+};
+
+// The ticks and labels of the value axis over [a0, a1] (axis units): powers of ten on a log axis
+// (plain values when that would give fewer than 3 ticks).
+void value_ticks(const ReportHistogram& h, double a0, double a1, std::vector<double>& ticks,
+                 std::vector<std::string>& labels) {
   if (h.log_x) {
     const double span = a1 - a0;
     const double step = span > 24 ? 4 : span > 12 ? 2 : 1;
@@ -312,22 +320,77 @@ std::string histogram_svg(const ReportHistogram& h, std::string& caption_extra) 
       labels.push_back(esc(g(t2, 6)));
     }
   }
+}
+
+// The cuts, dashed from `top` - 4 down to `foot`, labelled above the plot (alternating heights
+// when there are two).
+void draw_cuts(std::string& s, const ReportHistogram& h, const Scale& x, double width, double top,
+               double foot) {
+  for (std::size_t c = 0; c < h.cuts.size(); ++c) {
+    if (h.log_x && !(h.cuts[c].at > 0)) continue;
+    const double px = x.raw(h.log_x ? std::log10(h.cuts[c].at) : h.cuts[c].at);
+    line(s, px, top - 4, px, foot, kInk, 1.5, "5 3");
+    const double ty = c % 2 == 0 ? top - 8 : top - 20;
+    const char* anchor_side = px > width - 200 ? "end" : "start";
+    text(s, px + (px > width - 200 ? -4 : 4), ty, esc(h.cuts[c].label), anchor_side, "cut");
+  }
+}
+
+}  // namespace
+
+std::string histogram_svg(const ReportHistogram& h, std::string& caption_extra) {
+  const double width = 760, left = 74, right = 20, top = 30, bottom = 58, plot_h = 190;
+  const double height = top + plot_h + bottom;
+  const AxisValues a = axis_values(h);
+  const Binning b = bin_values(h, a);
+  const Bin& zero = a.zero;
+  std::int64_t most = std::max<std::int64_t>(1, zero.kept + zero.dropped);
+  for (const auto& bin : b.bins) most = std::max(most, bin.kept + bin.dropped);
+  if (h.level > 0) most = std::max(most, static_cast<std::int64_t>(std::ceil(h.level)));
+  const int top_power =
+      std::max(1, static_cast<int>(std::ceil(std::log10(static_cast<double>(most)) - 1e-9)));
+  // log10 counts from 10^-0.3 (half a feature) so a single feature still shows as a bar.
+  const Scale y{-0.3, static_cast<double>(top_power), top + plot_h, top};
+  const bool has_zero = zero.kept + zero.dropped > 0;
+  const double zero_w = has_zero ? 34 : 0;
+  const double a0 = b.anchor + static_cast<double>(b.kmin) * b.w,
+               a1 = b.anchor + static_cast<double>(b.kmax + 1) * b.w;
+  const Scale x{a0, a1, left + zero_w + (has_zero ? 10 : 0), width - right};
+  std::string s = svg_open(width, height, h.title);
+  log_count_axis(s, y, left, top_power, width - right, h.count_axis + " (log scale)",
+                 top + plot_h / 2);
+
+  const auto bin_text = [&](double e0, double e1) {
+    const std::string open = h.cut_keeps_equal_above ? "[" : "(",
+                      close = h.cut_keeps_equal_above ? ")" : "]";
+    return open + g(h.log_x ? std::pow(10.0, e0) : e0) + ", " +
+           g(h.log_x ? std::pow(10.0, e1) : e1) + close;
+  };
+  const BinDrawer drawer(s, h, y, top + plot_h);
+  for (std::size_t k = 0; k < b.bins.size(); ++k) {
+    const double e0 = b.anchor + static_cast<double>(b.kmin + static_cast<std::int64_t>(k)) * b.w,
+                 e1 = e0 + b.w;
+    drawer.draw(x.raw(e0), x.raw(e1), b.bins[k], bin_text(e0, e1),
+                h.log_x ? std::pow(10.0, e0) : e0, h.log_x ? std::pow(10.0, e1) : e1);
+  }
+  if (has_zero) drawer.draw(left + 6, left + 6 + zero_w, zero, "0", 0, 0);
+  if (h.level > 0) {
+    const double py = y.raw(std::log10(h.level));
+    line(s, x.r0, py, x.r1, py, kOrange, 1.5, "6 3");
+    text(s, x.r1 - 4, py - 5, esc(h.level_label), "end", "cut");
+  }
+
+  std::vector<double> ticks;
+  std::vector<std::string> labels;
+  value_ticks(h, a0, a1, ticks, labels);
   x_axis(s, x, top + plot_h, ticks, labels, h.axis, top + plot_h + 42);
   if (has_zero) {
     line(s, left + 6, top + plot_h, left + 6 + zero_w, top + plot_h, kAxis);
     text(s, left + 6 + zero_w / 2, top + plot_h + 16, "0", "middle", "tick");
   }
-  // The cuts, dashed, labelled above the plot (alternating heights when there are two).
-  for (std::size_t c = 0; c < h.cuts.size(); ++c) {
-    if (h.log_x && !(h.cuts[c].at > 0)) continue;
-    const double px = x.raw(h.log_x ? std::log10(h.cuts[c].at) : h.cuts[c].at);
-    line(s, px, top - 4, px, top + plot_h, kInk, 1.5, "5 3");
-    const double ty = c % 2 == 0 ? top - 8 : top - 20;
-    const char* anchor_side = px > width - 200 ? "end" : "start";
-    text(s, px + (px > width - 200 ? -4 : 4), ty, esc(h.cuts[c].label), anchor_side, "cut");
-  }
+  draw_cuts(s, h, x, width, top, top + plot_h);
   s += "</svg>";
-  if (missing > 0) caption_extra = count(missing) + " without a value not shown.";
+  if (a.missing > 0) caption_extra = count(a.missing) + " without a value not shown.";
   return s;
 }
 

@@ -6,7 +6,7 @@
 
 #include "pare/report.h"
 
-#include "internal/plan_document.h"
+#include "internal/plan_sections.h"
 #include "internal/criterion_facts.h"
 #include "internal/report_html.h"
 #include <nlohmann/json.hpp>
@@ -26,11 +26,11 @@ const char* criterion_axis(Criterion c) { return criterion_facts(c).axis; }
 
 using namespace internal::html;
 
-void add_reduction(ReportData& d, const FeatureTable& t, const Reduction& r, const ReduceOptions& o,
-                   bool selection) {
-  for (const auto& st : r.steps) d.steps.push_back({st.name, st.in, st.out, st.seconds});
-  const std::size_t p = r.decisions.size();
+namespace {
 
+// The missing rate of every input feature, with the missing filter's cut when it ran.
+ReportHistogram missing_histogram(const Reduction& r, const ReduceOptions& o, bool selection) {
+  const std::size_t p = r.decisions.size();
   ReportHistogram miss;
   miss.id = "missing";
   miss.title = "Missing rate of every input feature";
@@ -45,7 +45,8 @@ void add_reduction(ReportData& d, const FeatureTable& t, const Reduction& r, con
   if (selection && o.missing_filter) {
     miss.dropped.resize(p);
     for (std::size_t j = 0; j < p; ++j)
-      miss_dropped += miss.dropped[j] = !r.decisions[j].kept && r.decisions[j].step == "missing";
+      miss_dropped += miss.dropped[j] =
+          !r.decisions[j].kept && r.decisions[j].step == Step::kMissing;
     miss.cuts.push_back({o.drop_missing_above, "drop missing above " + g(o.drop_missing_above)});
     miss.caption = "All " + count(static_cast<std::int64_t>(p)) +
                    " input features. The missing filter drops a feature "
@@ -58,8 +59,12 @@ void add_reduction(ReportData& d, const FeatureTable& t, const Reduction& r, con
                    "filled with the feature's " +
                    impute_name(o.impute) + ").";
   }
-  d.histograms.push_back(std::move(miss));
+  return miss;
+}
 
+// The variance of every feature that reached the variance filter, with its cuts when it ran.
+ReportHistogram variance_histogram(const Reduction& r, const ReduceOptions& o, bool selection) {
+  const std::size_t p = r.decisions.size();
   ReportHistogram var;
   var.id = "variance";
   var.title = "Variance of the features that reached the variance filter";
@@ -69,13 +74,13 @@ void add_reduction(ReportData& d, const FeatureTable& t, const Reduction& r, con
   var.cut_keeps_equal_above = true;
   std::vector<std::size_t> reached;
   for (std::size_t j = 0; j < p; ++j)
-    if (!(r.decisions[j].step == "missing" && !r.decisions[j].kept)) reached.push_back(j);
+    if (!(r.decisions[j].step == Step::kMissing && !r.decisions[j].kept)) reached.push_back(j);
   std::int64_t var_dropped = 0;
   double boundary = kNaN;
   for (const std::size_t j : reached) var.values.push_back(r.variance[j]);
   if (selection && o.variance_filter) {
     for (const std::size_t j : reached) {
-      const bool gone = !r.decisions[j].kept && r.decisions[j].step == "variance";
+      const bool gone = !r.decisions[j].kept && r.decisions[j].step == Step::kVariance;
       var.dropped.push_back(gone);
       var_dropped += gone;
       if (gone && r.variance[j] >= o.min_variance &&
@@ -96,8 +101,100 @@ void add_reduction(ReportData& d, const FeatureTable& t, const Reduction& r, con
                   " features, variance of their observed values "
                   "(ddof 1); no variance filter ran. Variance 0 (constant) is drawn at 0.";
   }
-  d.histograms.push_back(std::move(var));
+  return var;
+}
 
+// Without labels (or with ranking off): the kept features as they come, and with ranking by
+// variance the curve of every feature that reached the ranking.
+void add_unsupervised_ranking(ReportData& d, const FeatureTable& t, const Reduction& r,
+                              const ReduceOptions& o) {
+  const std::size_t p = r.decisions.size();
+  d.ranking.criterion = criterion_name(r.criterion);
+  d.ranking.column = criterion_column(r.criterion);
+  d.ranking.axis = criterion_axis(r.criterion);
+  d.ranking.total = static_cast<std::int64_t>(r.kept.size());
+  if (!o.relevance) {
+    d.ranking_note = "No ranking ran: the kept features are in input order.";
+    return;
+  }
+  for (std::size_t k = 0; k < r.kept.size() && k < 30; ++k) {
+    const auto j = static_cast<std::size_t>(r.kept[k]);
+    ReportBar b;
+    b.name = t.feature_names[j];
+    b.value = r.variance[j];
+    b.raw_value = shortest(b.value);
+    d.ranking.bars.push_back(std::move(b));
+  }
+  d.ranking.caption = "Ranked by variance (no labels given).";
+  // The curve: every feature that reached the ranking, by variance (ties in input order, as
+  // reduce orders them).
+  std::vector<std::int64_t> ranked;
+  for (std::size_t j = 0; j < p; ++j) {
+    const Decision& dec = r.decisions[j];
+    if (dec.kept || (dec.step != Step::kMissing && dec.step != Step::kVariance))
+      ranked.push_back(static_cast<std::int64_t>(j));
+  }
+  std::stable_sort(ranked.begin(), ranked.end(), [&](std::int64_t a, std::int64_t b) {
+    return r.variance[static_cast<std::size_t>(a)] > r.variance[static_cast<std::size_t>(b)];
+  });
+  std::vector<std::int64_t> rank_of(p, 0);
+  std::vector<double> values;
+  values.reserve(ranked.size());
+  for (std::size_t k = 0; k < ranked.size(); ++k) {
+    rank_of[static_cast<std::size_t>(ranked[k])] = static_cast<std::int64_t>(k + 1);
+    values.push_back(r.variance[static_cast<std::size_t>(ranked[k])]);
+  }
+  std::vector<std::int64_t> kept_ranks;
+  for (const std::int64_t j : r.kept) kept_ranks.push_back(rank_of[static_cast<std::size_t>(j)]);
+  set_score_curve(d.score_curve, std::move(values), {}, std::move(kept_ranks), 1, o.keep);
+  d.score_curve.column = "variance";
+  d.score_curve.axis = criterion_axis(Criterion::kVariance);
+}
+
+// Redundancy groups: each kept feature and the dropped features that named it as their twin.
+void add_redundancy_groups(ReportData& d, const FeatureTable& t, const Reduction& r,
+                           const ReduceOptions& o) {
+  const std::size_t p = r.decisions.size();
+  d.has_redundancy = true;
+  d.redundancy.max_corr = o.max_corr;
+  std::map<std::int64_t, std::vector<std::int64_t>> groups;
+  for (std::size_t j = 0; j < p; ++j) {
+    const Decision& dec = r.decisions[j];
+    if (!dec.kept && dec.step == Step::kRedundancy) {
+      ++d.redundancy.dropped;
+      groups[dec.partner].push_back(static_cast<std::int64_t>(j));
+    }
+  }
+  d.redundancy.standing = static_cast<std::int64_t>(groups.size());
+  std::vector<std::pair<std::int64_t, const std::vector<std::int64_t>*>> order;
+  for (const auto& [kept, members] : groups) order.emplace_back(kept, &members);
+  // Largest groups first; among equal ones the better-ranked kept feature first.
+  std::stable_sort(order.begin(), order.end(), [&](const auto& a, const auto& b) {
+    if (a.second->size() != b.second->size()) return a.second->size() > b.second->size();
+    return r.decisions[static_cast<std::size_t>(a.first)].rank <
+           r.decisions[static_cast<std::size_t>(b.first)].rank;
+  });
+  for (std::size_t k = 0; k < order.size() && k < 15; ++k) {
+    ReportBar b;
+    b.name = t.feature_names[static_cast<std::size_t>(order[k].first)];
+    b.value = static_cast<double>(order[k].second->size());
+    b.raw_value = std::to_string(order[k].second->size());
+    std::string names;
+    for (std::size_t i = 0; i < order[k].second->size() && i < 12; ++i)
+      names += (i ? ", " : "") + t.feature_names[static_cast<std::size_t>((*order[k].second)[i])];
+    if (order[k].second->size() > 12) names += ", ...";
+    b.hover = "stands in for " + names;
+    d.redundancy.largest.push_back(std::move(b));
+  }
+}
+
+}  // namespace
+
+void add_reduction(ReportData& d, const FeatureTable& t, const Reduction& r, const ReduceOptions& o,
+                   bool selection) {
+  for (const auto& st : r.steps) d.steps.push_back({step_name(st.step), st.in, st.out, st.seconds});
+  d.histograms.push_back(missing_histogram(r, o, selection));
+  d.histograms.push_back(variance_histogram(r, o, selection));
   if (!selection) return;
   // The leading features (as ranking.tsv writes them), the score curve and the p-values.
   if (r.supervised && o.relevance) {
@@ -109,83 +206,9 @@ void add_reduction(ReportData& d, const FeatureTable& t, const Reduction& r, con
     add_ranking(d, t, r.scores, order, kept, r.criterion, o.fdr, o.keep);
     d.chosen_with_labels = r.criterion != Criterion::kVariance;
   } else {
-    d.ranking.criterion = criterion_name(r.criterion);
-    d.ranking.column = criterion_column(r.criterion);
-    d.ranking.axis = criterion_axis(r.criterion);
-    d.ranking.total = static_cast<std::int64_t>(r.kept.size());
-    if (!o.relevance) {
-      d.ranking_note = "No ranking ran: the kept features are in input order.";
-    } else {
-      for (std::size_t k = 0; k < r.kept.size() && k < 30; ++k) {
-        const auto j = static_cast<std::size_t>(r.kept[k]);
-        ReportBar b;
-        b.name = t.feature_names[j];
-        b.value = r.variance[j];
-        b.raw_value = shortest(b.value);
-        d.ranking.bars.push_back(std::move(b));
-      }
-      d.ranking.caption = "Ranked by variance (no labels given).";
-      // The curve: every feature that reached the ranking, by variance (ties in input order, as
-      // reduce orders them).
-      std::vector<std::int64_t> ranked;
-      for (std::size_t j = 0; j < p; ++j) {
-        const Decision& dec = r.decisions[j];
-        if (dec.kept || (dec.step != "missing" && dec.step != "variance"))
-          ranked.push_back(static_cast<std::int64_t>(j));
-      }
-      std::stable_sort(ranked.begin(), ranked.end(), [&](std::int64_t a, std::int64_t b) {
-        return r.variance[static_cast<std::size_t>(a)] > r.variance[static_cast<std::size_t>(b)];
-      });
-      std::vector<std::int64_t> rank_of(p, 0);
-      std::vector<double> values;
-      values.reserve(ranked.size());
-      for (std::size_t k = 0; k < ranked.size(); ++k) {
-        rank_of[static_cast<std::size_t>(ranked[k])] = static_cast<std::int64_t>(k + 1);
-        values.push_back(r.variance[static_cast<std::size_t>(ranked[k])]);
-      }
-      std::vector<std::int64_t> kept_ranks;
-      for (const std::int64_t j : r.kept)
-        kept_ranks.push_back(rank_of[static_cast<std::size_t>(j)]);
-      set_score_curve(d.score_curve, std::move(values), {}, std::move(kept_ranks), 1, o.keep);
-      d.score_curve.column = "variance";
-      d.score_curve.axis = criterion_axis(Criterion::kVariance);
-    }
+    add_unsupervised_ranking(d, t, r, o);
   }
-
-  // Redundancy groups: each kept feature and the dropped features that named it as their twin.
-  if (o.prune) {
-    d.has_redundancy = true;
-    d.redundancy.max_corr = o.max_corr;
-    std::map<std::int64_t, std::vector<std::int64_t>> groups;
-    for (std::size_t j = 0; j < p; ++j) {
-      const Decision& dec = r.decisions[j];
-      if (!dec.kept && dec.step == "redundancy") {
-        ++d.redundancy.dropped;
-        groups[dec.partner].push_back(static_cast<std::int64_t>(j));
-      }
-    }
-    d.redundancy.standing = static_cast<std::int64_t>(groups.size());
-    std::vector<std::pair<std::int64_t, const std::vector<std::int64_t>*>> order;
-    for (const auto& [kept, members] : groups) order.emplace_back(kept, &members);
-    // Largest groups first; among equal ones the better-ranked kept feature first.
-    std::stable_sort(order.begin(), order.end(), [&](const auto& a, const auto& b) {
-      if (a.second->size() != b.second->size()) return a.second->size() > b.second->size();
-      return r.decisions[static_cast<std::size_t>(a.first)].rank <
-             r.decisions[static_cast<std::size_t>(b.first)].rank;
-    });
-    for (std::size_t k = 0; k < order.size() && k < 15; ++k) {
-      ReportBar b;
-      b.name = t.feature_names[static_cast<std::size_t>(order[k].first)];
-      b.value = static_cast<double>(order[k].second->size());
-      b.raw_value = std::to_string(order[k].second->size());
-      std::string names;
-      for (std::size_t i = 0; i < order[k].second->size() && i < 12; ++i)
-        names += (i ? ", " : "") + t.feature_names[static_cast<std::size_t>((*order[k].second)[i])];
-      if (order[k].second->size() > 12) names += ", ...";
-      b.hover = "stands in for " + names;
-      d.redundancy.largest.push_back(std::move(b));
-    }
-  }
+  if (o.prune) add_redundancy_groups(d, t, r, o);
 }
 
 void add_components(ReportData& d, const Projection& pr, const std::string& source) {
@@ -292,46 +315,30 @@ void add_profile(ReportData& d, const FeatureTable& t, const Profile& pf) {
   d.histograms.push_back(std::move(var));
 }
 
-void add_plan_record(ReportData& d, const std::string& plan_text) {
-  internal::add_plan_record(d, nlohmann::json::parse(plan_text));
-}
-
-void internal::add_plan_record(ReportData& d, const nlohmann::json& plan) {
+void add_run_record(ReportData& d, const FeatureTable& t, const PipelineResult& result, const RunRecord& run,
+                    const PlanProjection& pp) {
   ReportRecord& r = d.record;
-  r.version = plan.value("pare_version", std::string(PARE_VERSION));
-  if (plan.contains("command_line"))
-    r.command_line = plan["command_line"].get<std::vector<std::string>>();
-  const auto value_text = [](const nlohmann::json& v) {
-    return v.is_string() ? v.get<std::string>() : v.dump();
-  };
-  if (plan.contains("input")) {
-    const auto& in = plan["input"];
-    r.inputs.push_back(
-        {"data", in.value("path", std::string()), in.value("sha256", std::string())});
-    if (in.contains("sample_sheet")) {
-      const auto& sh = in["sample_sheet"];
-      r.inputs.push_back({"sample sheet (" + sh.value("column", std::string()) + ")",
-                          sh.value("path", std::string()), sh.value("sha256", std::string())});
-    }
+  r.version = PARE_VERSION;
+  r.command_line = run.command_line;
+  const auto value_text = [](const nlohmann::json& v) { return v.is_string() ? v.get<std::string>() : v.dump(); };
+  r.inputs.push_back({"data", run.input_path, run.input_sha256});
+  if (!run.sheet_path.empty())
+    r.inputs.push_back({"sample sheet (" + run.sheet_column + ")", run.sheet_path, run.sheet_sha256});
+  r.parameters.emplace_back("seed", std::to_string(run.seed));
+  // (each section held in a variable: a range-for over a temporary's items() would outlive it)
+  const nlohmann::json read = internal::read_section(run, t);
+  for (const auto& [k, v] : read.items()) r.parameters.emplace_back("read." + k, value_text(v));
+  const nlohmann::json parameters = internal::parameters_section(result.options.reduce, result.reduction);
+  for (const auto& [k, v] : parameters.items()) r.parameters.emplace_back(k, value_text(v));
+  if (result.projection) {
+    const nlohmann::json projection = internal::projection_section(result, pp);
+    for (const char* key : {"components", "center", "scale", "method", "precision", "iterations", "residual"})
+      r.parameters.emplace_back(std::string("projection.") + key, value_text(projection[key]));
   }
-  if (plan.contains("seed")) r.parameters.emplace_back("seed", value_text(plan["seed"]));
-  if (plan.contains("read"))
-    for (const auto& [k, v] : plan["read"].items())
-      r.parameters.emplace_back("read." + k, value_text(v));
-  if (plan.contains("parameters"))
-    for (const auto& [k, v] : plan["parameters"].items())
-      r.parameters.emplace_back(k, value_text(v));
-  if (plan.contains("projection"))
-    for (const char* key :
-         {"components", "center", "scale", "method", "precision", "iterations", "residual"})
-      if (plan["projection"].contains(key))
-        r.parameters.emplace_back(std::string("projection.") + key,
-                                  value_text(plan["projection"][key]));
-  if (plan.contains("steps"))
-    for (const auto& st : plan["steps"])
-      r.timings.emplace_back(st.value("step", std::string()), st.value("seconds", 0.0));
-  if (plan.contains("outputs"))
-    for (const auto& [k, v] : plan["outputs"].items()) r.outputs.push_back(value_text(v));
+  for (const auto& st : result.reduction.steps) r.timings.emplace_back(step_name(st.step), st.seconds);
+  r.timings.insert(r.timings.begin() + (r.timings.empty() ? 0 : 1), {"sample screen", result.screen_seconds});
+  const nlohmann::json outputs = internal::outputs_section(t, result, pp);
+  for (const auto& [k, v] : outputs.items()) r.outputs.push_back(value_text(v));
 }
 
 }  // namespace pare

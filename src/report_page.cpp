@@ -103,25 +103,61 @@ std::string name_list(const std::vector<std::string>& names, std::size_t max) {
 
 using namespace internal::html;
 
-std::string report_html(const ReportData& d) {
-  std::string h;
-  h.reserve(1 << 16);
-  h += "<!DOCTYPE html>\n<html lang=\"en\">\n<head>\n<meta charset=\"utf-8\">\n"
-       "<meta name=\"viewport\" content=\"width=device-width, initial-scale=1\">\n";
+namespace {
+
+// The ids whose entry in `mask` is set (the flagged or the dropped samples).
+std::vector<std::string> ids_where(const std::vector<std::string>& ids,
+                                   const std::vector<char>& mask) {
+  std::vector<std::string> out;
+  for (std::size_t i = 0; i < mask.size(); ++i)
+    if (mask[i]) out.push_back(ids[i]);
+  return out;
+}
+
+// The doctype, the head with the style sheet, and the page header.
+std::string page_head(const ReportData& d) {
+  std::string h =
+      "<!DOCTYPE html>\n<html lang=\"en\">\n<head>\n<meta charset=\"utf-8\">\n"
+      "<meta name=\"viewport\" content=\"width=device-width, initial-scale=1\">\n";
   h += "<title>" + esc(d.title) + "</title>\n<style>" + kStyle + "</style>\n</head>\n<body>\n";
   h += "<header><h1>" + esc(d.title) + "</h1><p class=\"sub\">pare " + esc(d.record.version) +
        " \xC2\xB7 " + esc(d.command) + " \xC2\xB7 " + count(d.samples) + " samples \xC3\x97 " +
        count(d.features) + " features</p></header>\n";
+  return h;
+}
 
-  // At a glance: what a newcomer should take away without reading further.
-  const Classes classes = classes_of(d.sample_info);
-  const ReportSamples& si = d.sample_info;
-  std::vector<std::string> flagged_names, dropped_names;
-  for (std::size_t i = 0; i < si.flagged.size(); ++i)
-    if (si.flagged[i]) flagged_names.push_back(si.ids[i]);
-  for (std::size_t i = 0; i < si.dropped.size(); ++i)
-    if (si.dropped[i]) dropped_names.push_back(si.ids[i]);
-  h += "<section id=\"glance\"><h2>At a glance</h2><ul class=\"glance\">";
+// The "At a glance" item on the samples: how many, their classes, the outlier screen.
+std::string glance_samples(const ReportSamples& si, const Classes& classes,
+                           const std::vector<std::string>& flagged_names,
+                           const std::vector<std::string>& dropped_names) {
+  std::string h = "<li>" + count(static_cast<std::int64_t>(si.ids.size())) + " samples";
+  if (!si.labels.empty()) {
+    const std::size_t real = classes.names.size() - (classes.has_missing ? 1 : 0);
+    h += " in " + std::to_string(real) + " classes (";
+    for (std::size_t k = 0; k < real; ++k)
+      h += (k ? ", " : "") + esc(classes.names[k]) + " " + count(classes.counts[k]);
+    if (classes.has_missing) h += "; " + count(classes.counts.back()) + " without a label";
+    h += ")";
+  }
+  if (!si.screened) {
+    h += "; not screened for outliers (" + esc(si.rule) + ").</li>";
+  } else if (flagged_names.empty()) {
+    h += "; none flagged as an outlier.</li>";
+  } else {
+    h += "; <strong>" + count(static_cast<std::int64_t>(flagged_names.size())) +
+         " flagged</strong> as outliers: " + name_list(flagged_names, 10) +
+         (dropped_names.empty() ? " (kept; --drop-outliers would remove them)."
+                                : " (removed before the reduction).") +
+         "</li>";
+  }
+  return h;
+}
+
+// At a glance: what a newcomer should take away without reading further.
+std::string glance_section(const ReportData& d, const Classes& classes,
+                           const std::vector<std::string>& flagged_names,
+                           const std::vector<std::string>& dropped_names) {
+  std::string h = "<section id=\"glance\"><h2>At a glance</h2><ul class=\"glance\">";
   for (const auto& line_text : d.glance) h += "<li>" + esc(line_text) + "</li>";
   if (!d.steps.empty() && d.command == "reduce") {
     const std::int64_t in = d.steps.front().in, out = d.steps.back().out;
@@ -136,239 +172,274 @@ std::string report_html(const ReportData& d) {
          " " + esc(g(b.value)) + (std::isnan(b.q) ? std::string() : ", q " + esc(g(b.q))) +
          ").</li>";
   }
-  if (!si.ids.empty()) {
-    h += "<li>" + count(static_cast<std::int64_t>(si.ids.size())) + " samples";
-    if (!si.labels.empty()) {
-      const std::size_t real = classes.names.size() - (classes.has_missing ? 1 : 0);
-      h += " in " + std::to_string(real) + " classes (";
-      for (std::size_t k = 0; k < real; ++k)
-        h += (k ? ", " : "") + esc(classes.names[k]) + " " + count(classes.counts[k]);
-      if (classes.has_missing) h += "; " + count(classes.counts.back()) + " without a label";
-      h += ")";
-    }
-    if (!si.screened) {
-      h += "; not screened for outliers (" + esc(si.rule) + ").</li>";
-    } else if (flagged_names.empty()) {
-      h += "; none flagged as an outlier.</li>";
-    } else {
-      h += "; <strong>" + count(static_cast<std::int64_t>(flagged_names.size())) +
-           " flagged</strong> as outliers: " + name_list(flagged_names, 10) +
-           (dropped_names.empty() ? " (kept; --drop-outliers would remove them)."
-                                  : " (removed before the reduction).") +
-           "</li>";
-    }
-  }
+  if (!d.sample_info.ids.empty())
+    h += glance_samples(d.sample_info, classes, flagged_names, dropped_names);
   if (!d.components.ratio.empty()) {
     h += "<li>The first " + std::to_string(d.components.ratio.size()) +
          " principal components carry " + esc(percent(d.components.cumulative.back())) +
          " of the variance of " + esc(d.components.source) + ".</li>";
   }
   h += "</ul></section>\n";
+  return h;
+}
 
-  if (!d.steps.empty()) {
-    h += "<section id=\"funnel\"><h2>Selection funnel</h2><p class=\"lead\">Features into and out "
-         "of every step, in "
-         "the order they ran; the numbers are plan.json's step counts.</p>";
-    h += figure(funnel_svg(d.steps), "");
-    h += "</section>\n";
-  }
+std::string funnel_section(const ReportData& d) {
+  if (d.steps.empty()) return "";
+  std::string h =
+      "<section id=\"funnel\"><h2>Selection funnel</h2><p class=\"lead\">Features into and out "
+      "of every step, in "
+      "the order they ran; the numbers are plan.json's step counts.</p>";
+  h += figure(funnel_svg(d.steps), "");
+  h += "</section>\n";
+  return h;
+}
 
-  if (!d.histograms.empty()) {
-    h += d.command == "scan" ? "<section id=\"distributions\"><h2>Distributions</h2><p "
-                               "class=\"lead\">Distributions over features; a "
-                               "dashed line marks a threshold, and vermillion bars are features "
-                               "scan flags (it removes nothing).</p>"
-                             : "<section id=\"distributions\"><h2>Where the filters cut</h2><p "
-                               "class=\"lead\">Distributions over "
-                               "features; a dashed line marks a threshold, and bars are vermillion "
-                               "where the filter removed the "
-                               "features.</p>";
-    for (const auto& hist : d.histograms) {
-      std::string extra;
-      const std::string svg = histogram_svg(hist, extra);
-      std::string legend;
-      if (!hist.dropped.empty()) {
-        std::int64_t gone = 0;
-        for (const char c : hist.dropped) gone += c != 0;
-        legend = "<ul class=\"legend\"><li>" + swatch(kBlue) + " " + esc(hist.kept_label) + " " +
-                 count(static_cast<std::int64_t>(hist.dropped.size()) - gone) + "</li><li>" +
-                 swatch(kVermillion) + " " + esc(hist.dropped_label) + " " + count(gone) +
-                 "</li></ul>";
-      }
-      h += "<h3 id=\"" + esc(hist.id) + "\">" + esc(hist.title) + "</h3>";
-      h += figure(svg + legend, esc(hist.caption) + (extra.empty() ? "" : " " + esc(extra)));
+// Where the filters cut (reduce) or the distributions scan flags in.
+std::string distributions_section(const ReportData& d) {
+  if (d.histograms.empty()) return "";
+  std::string h =
+      d.command == "scan"
+          ? "<section id=\"distributions\"><h2>Distributions</h2><p class=\"lead\">Distributions "
+            "over features; a dashed line marks a threshold, and vermillion bars are features "
+            "scan flags (it removes nothing).</p>"
+          : "<section id=\"distributions\"><h2>Where the filters cut</h2><p class=\"lead\">"
+            "Distributions over features; a dashed line marks a threshold, and bars are "
+            "vermillion where the filter removed the features.</p>";
+  for (const auto& hist : d.histograms) {
+    std::string extra;
+    const std::string svg = histogram_svg(hist, extra);
+    std::string legend;
+    if (!hist.dropped.empty()) {
+      std::int64_t gone = 0;
+      for (const char c : hist.dropped) gone += c != 0;
+      legend = "<ul class=\"legend\"><li>" + swatch(kBlue) + " " + esc(hist.kept_label) + " " +
+               count(static_cast<std::int64_t>(hist.dropped.size()) - gone) + "</li><li>" +
+               swatch(kVermillion) + " " + esc(hist.dropped_label) + " " + count(gone) +
+               "</li></ul>";
     }
-    h += "</section>\n";
+    h += "<h3 id=\"" + esc(hist.id) + "\">" + esc(hist.title) + "</h3>";
+    h += figure(svg + legend, esc(hist.caption) + (extra.empty() ? "" : " " + esc(extra)));
   }
+  h += "</section>\n";
+  return h;
+}
 
-  if (!d.ranking.bars.empty() || !d.ranking_note.empty() || !d.score_curve.values.empty() ||
-      !d.p_values.values.empty()) {
-    h += "<section id=\"ranking\"><h2>Leading features</h2>";
-    if (d.ranking.bars.empty()) {
-      if (!d.ranking_note.empty()) h += "<p class=\"none\">" + esc(d.ranking_note) + "</p>";
-    } else {
-      h += "<p class=\"lead\">The first " + std::to_string(d.ranking.bars.size()) + " of " +
-           count(d.ranking.total) + " kept features in ranking.tsv order, by " +
-           esc(d.ranking.axis) + ".</p>";
-      h += figure(bars_svg(d.ranking.bars, d.ranking.axis, !d.ranking.q_column.empty(), "feature",
-                           "The leading features by the ranking criterion"),
-                  esc(d.ranking.caption));
-    }
-    h += score_curve_html(d.score_curve) + p_values_html(d.p_values);
-    h += "</section>\n";
+// The leading features, the score curve and the p-values.
+std::string ranking_section(const ReportData& d) {
+  if (d.ranking.bars.empty() && d.ranking_note.empty() && d.score_curve.values.empty() &&
+      d.p_values.values.empty())
+    return "";
+  std::string h = "<section id=\"ranking\"><h2>Leading features</h2>";
+  if (d.ranking.bars.empty()) {
+    if (!d.ranking_note.empty()) h += "<p class=\"none\">" + esc(d.ranking_note) + "</p>";
+  } else {
+    h += "<p class=\"lead\">The first " + std::to_string(d.ranking.bars.size()) + " of " +
+         count(d.ranking.total) + " kept features in ranking.tsv order, by " + esc(d.ranking.axis) +
+         ".</p>";
+    h += figure(bars_svg(d.ranking.bars, d.ranking.axis, !d.ranking.q_column.empty(), "feature",
+                         "The leading features by the ranking criterion"),
+                esc(d.ranking.caption));
   }
-  h += top_features_html(d.top_features, classes);
+  h += score_curve_html(d.score_curve) + p_values_html(d.p_values);
+  h += "</section>\n";
+  return h;
+}
 
-  if (d.has_redundancy) {
-    const ReportRedundancy& r = d.redundancy;
-    h += "<section id=\"redundancy\"><h2>Redundancy</h2><p class=\"lead\">";
-    if (r.dropped == 0) {
-      h += "No feature was dropped as redundant: no candidate had |r| above " + esc(g(r.max_corr)) +
-           " with a feature already kept.</p>";
-    } else {
-      h += count(r.dropped) +
-           " features were dropped because |r| with a feature already kept was above " +
-           esc(g(r.max_corr)) + "; " + count(r.standing) +
-           " kept features stand in for them. The largest groups (kept feature: how many it stands "
-           "in for):</p>";
-      h += figure(bars_svg(r.largest, "dropped features it stands in for", false, "group",
-                           "How many redundant features each kept feature stands in for"),
-                  "Hover a bar for the names of the features it stands in for; selection-log.tsv "
-                  "lists every one "
-                  "with its |r|.");
-    }
-    h += "</section>\n";
+std::string redundancy_section(const ReportData& d) {
+  if (!d.has_redundancy) return "";
+  const ReportRedundancy& r = d.redundancy;
+  std::string h = "<section id=\"redundancy\"><h2>Redundancy</h2><p class=\"lead\">";
+  if (r.dropped == 0) {
+    h += "No feature was dropped as redundant: no candidate had |r| above " + esc(g(r.max_corr)) +
+         " with a feature already kept.</p>";
+  } else {
+    h += count(r.dropped) +
+         " features were dropped because |r| with a feature already kept was above " +
+         esc(g(r.max_corr)) + "; " + count(r.standing) +
+         " kept features stand in for them. The largest groups (kept feature: how many it stands "
+         "in for):</p>";
+    h += figure(bars_svg(r.largest, "dropped features it stands in for", false, "group",
+                         "How many redundant features each kept feature stands in for"),
+                "Hover a bar for the names of the features it stands in for; selection-log.tsv "
+                "lists every one "
+                "with its |r|.");
   }
+  h += "</section>\n";
+  return h;
+}
 
-  if (!d.components.ratio.empty()) {
-    h += "<section id=\"components\"><h2>Principal components</h2><p class=\"lead\">Share of the "
-         "variance of " +
-         esc(d.components.source) +
-         " carried by each component (bars) and by the first ones together (line).</p>";
-    if (d.chosen_with_labels && d.components.of_kept)
-      h += "<p class=\"caution\">These features were selected using the labels" +
-           (si.label_name.empty() ? std::string() : " (" + esc(si.label_name) + ")") +
-           ", so the classes are expected to separate on these components, and on the sample "
-           "plots below, even in data without real differences: the separation is not evidence "
-           "by itself. To test it, select on training samples only and apply the plan to "
-           "held-out ones.</p>";
-    h += figure(scree_svg(d.components), "");
-    h += "</section>\n";
+std::string components_section(const ReportData& d) {
+  if (d.components.ratio.empty()) return "";
+  const ReportSamples& si = d.sample_info;
+  std::string h =
+      "<section id=\"components\"><h2>Principal components</h2><p class=\"lead\">Share of the "
+      "variance of " +
+      esc(d.components.source) +
+      " carried by each component (bars) and by the first ones together (line).</p>";
+  if (d.chosen_with_labels && d.components.of_kept)
+    h += "<p class=\"caution\">These features were selected using the labels" +
+         (si.label_name.empty() ? std::string() : " (" + esc(si.label_name) + ")") +
+         ", so the classes are expected to separate on these components, and on the sample "
+         "plots below, even in data without real differences: the separation is not evidence "
+         "by itself. To test it, select on training samples only and apply the plan to "
+         "held-out ones.</p>";
+  h += figure(scree_svg(d.components), "");
+  h += "</section>\n";
+  return h;
+}
+
+// The legend of a samples plot: a dot per group with its size, and the ring of a flagged sample.
+std::string scatter_legend(const Classes& c, bool rings, const std::string& heading) {
+  std::string l = "<ul class=\"legend\">";
+  if (!heading.empty()) l += "<li><strong>" + esc(heading) + ":</strong></li>";
+  for (std::size_t k = 0; k < c.names.size(); ++k)
+    l += "<li>" + swatch(c.colours[k].c_str(), Mark::kDot) + " " + esc(c.names[k]) + " (" +
+         count(c.counts[k]) + ")</li>";
+  if (rings) l += "<li>" + swatch(kInk, Mark::kRing) + " flagged outlier</li>";
+  return l + "</ul>";
+}
+
+// The samples on PC1 against PC2 and PC3, or "" when there are not two components of scores for
+// the samples.
+std::string sample_scatters(const ReportData& d, const Classes& classes) {
+  const ReportSamples& si = d.sample_info;
+  const auto& sc = d.components.scores;
+  const auto& rows = d.components.sample_of;
+  if (!(sc.size() >= 2 &&
+        (rows.empty() ? sc[0].size() == si.ids.size() : sc[0].size() == rows.size())))
+    return "";
+  // With --mark-by, every plot is drawn twice, side by side: by class and by the mark column.
+  const bool marked = !si.marks.empty() && si.marks.size() == si.ids.size();
+  std::string mark_note;
+  const Classes marks = marked ? marks_of(si, mark_note) : Classes{};
+  std::string h =
+      "<p class=\"lead\">Each dot is a sample on the components above, coloured by class" +
+      std::string(marked ? " (left) and by " + esc(si.mark_name) + " (right)" : "") +
+      std::string(si.screened ? "; a black ring marks a sample flagged as an outlier" : "") +
+      ". Hover a dot for its id.</p>";
+  h += "<div class=\"pair\">";
+  const auto axis_name = [&](std::size_t k) {
+    return "PC" + std::to_string(k + 1) + " score (" + percent(d.components.ratio[k]) +
+           " of variance)";
+  };
+  for (std::size_t k = 1; k < sc.size() && k < 3; ++k) {
+    const std::string aria = "Samples on PC1 and PC" + std::to_string(k + 1);
+    h += figure(scatter_svg(sc[0], sc[k], rows, si, classes, axis_name(0), axis_name(k), aria), "");
+    if (marked)
+      h += figure(scatter_svg(sc[0], sc[k], rows, si, marks, axis_name(0), axis_name(k),
+                              aria + " by " + si.mark_name),
+                  "");
   }
-
-  if (!si.ids.empty()) {
-    h += "<section id=\"samples\"><h2>Samples</h2>";
-    const auto& sc = d.components.scores;
-    const auto& rows = d.components.sample_of;
-    if (sc.size() >= 2 &&
-        (rows.empty() ? sc[0].size() == si.ids.size() : sc[0].size() == rows.size())) {
-      // With --mark-by, every plot is drawn twice, side by side: by class and by the mark column.
-      const bool marked = !si.marks.empty() && si.marks.size() == si.ids.size();
-      std::string mark_note;
-      const Classes marks = marked ? marks_of(si, mark_note) : Classes{};
-      h += "<p class=\"lead\">Each dot is a sample on the components above, coloured by class" +
-           std::string(marked ? " (left) and by " + esc(si.mark_name) + " (right)" : "") +
-           std::string(si.screened ? "; a black ring marks a sample flagged as an outlier" : "") +
-           ". Hover a dot for its id.</p>";
-      h += "<div class=\"pair\">";
-      const auto axis_name = [&](std::size_t k) {
-        return "PC" + std::to_string(k + 1) + " score (" + percent(d.components.ratio[k]) +
-               " of variance)";
-      };
-      const auto legend = [&](const Classes& c, bool rings, const std::string& heading) {
-        std::string l = "<ul class=\"legend\">";
-        if (!heading.empty()) l += "<li><strong>" + esc(heading) + ":</strong></li>";
-        for (std::size_t k = 0; k < c.names.size(); ++k)
-          l += "<li>" + swatch(c.colours[k].c_str(), Mark::kDot) + " " + esc(c.names[k]) + " (" +
-               count(c.counts[k]) + ")</li>";
-        if (rings) l += "<li>" + swatch(kInk, Mark::kRing) + " flagged outlier</li>";
-        return l + "</ul>";
-      };
-      for (std::size_t k = 1; k < sc.size() && k < 3; ++k) {
-        const std::string aria = "Samples on PC1 and PC" + std::to_string(k + 1);
-        h += figure(scatter_svg(sc[0], sc[k], rows, si, classes, axis_name(0), axis_name(k), aria),
-                    "");
-        if (marked)
-          h += figure(scatter_svg(sc[0], sc[k], rows, si, marks, axis_name(0), axis_name(k),
-                                  aria + " by " + si.mark_name),
-                      "");
-      }
-      if (marked) {
-        h += "<div>" + legend(classes, si.screened, si.labels.empty() ? "" : si.label_name) +
-             "</div><div>" + legend(marks, si.screened, si.mark_name) +
-             (mark_note.empty() ? "" : "<p class=\"none\">" + esc(mark_note) + "</p>") + "</div>";
-        h += "</div>";
-      } else {
-        h += "</div>" + legend(classes, si.screened, "");
-      }
-      if (classes.names.size() - (classes.has_missing ? 1 : 0) > kClassColourCount)
-        h += "<p class=\"none\">Classes past the eighth are drawn grey.</p>";
-      if (!d.components.note.empty()) h += "<p class=\"none\">" + esc(d.components.note) + "</p>";
-    }
-    if (si.screened) {
-      ReportHistogram dist;
-      dist.id = "distance";
-      dist.title = "Robust distance of each sample";
-      dist.axis = "robust distance on the screening components (robust standard deviations)";
-      dist.count_axis = "samples";
-      dist.values = si.distance;
-      dist.dropped = si.flagged;
-      dist.cuts = {{si.threshold, "outlier threshold " + g(si.threshold)}};
-      dist.cut_keeps_equal_above = false;
-      dist.lo = 0;
-      double far = si.threshold;
-      for (const double v : si.distance)
-        if (std::isfinite(v)) far = std::max(far, v);
-      dist.hi = far * 1.06;
-      dist.dropped_label = "flagged";
-      dist.kept_label = "not flagged";
-      std::string extra;
-      h += "<h3 id=\"distance\">" + esc(dist.title) + "</h3>";
-      h += figure(histogram_svg(dist, extra),
-                  "Screen: " + esc(si.screen_source) +
-                      ". Each component's scores are centred on their median (with "
-                      "labels, the median of the sample's class, so classes that separate are not "
-                      "outliers) and divided "
-                      "by a robust standard deviation: the larger of 1.4826 \xC3\x97 the median "
-                      "absolute deviation and "
-                      "the 80th percentile of the absolute deviations / 1.2816 (so a batch or "
-                      "group of more than a fifth "
-                      "of the samples is not called outlying). The distance is the square root of "
-                      "the sum of squares. "
-                      "Rule: " +
-                      esc(si.rule) + ".");
-      h += "<p>";
-      if (flagged_names.empty()) {
-        h += "No sample is flagged.";
-      } else {
-        h += "<strong>Flagged (" + count(static_cast<std::int64_t>(flagged_names.size())) +
-             "):</strong> " + name_list(flagged_names, 50) + ". ";
-        h += dropped_names.empty()
-                 ? "They were kept; --drop-outliers removes flagged samples before the reduction."
-                 : "They were removed before the reduction (--drop-outliers).";
-      }
-      h += " samples.tsv lists every sample with its missing rate, distance and flag.</p>";
-    } else {
-      h += "<p class=\"none\">Samples were not screened for outliers: " + esc(si.rule) + ".</p>";
-    }
-    if (!si.missing_rate.empty()) {
-      ReportHistogram miss;
-      miss.id = "sample-missing";
-      miss.title = "Missing values per sample";
-      miss.axis = "missing rate (fraction of the input features without a value)";
-      miss.count_axis = "samples";
-      miss.values = si.missing_rate;
-      miss.lo = 0;
-      std::string extra;
-      h += "<h3 id=\"sample-missing\">" + esc(miss.title) + "</h3>" +
-           figure(histogram_svg(miss, extra), "");
-    }
-    h += "</section>\n";
+  if (marked) {
+    h += "<div>" + scatter_legend(classes, si.screened, si.labels.empty() ? "" : si.label_name) +
+         "</div><div>" + scatter_legend(marks, si.screened, si.mark_name) +
+         (mark_note.empty() ? "" : "<p class=\"none\">" + esc(mark_note) + "</p>") + "</div>";
+    h += "</div>";
+  } else {
+    h += "</div>" + scatter_legend(classes, si.screened, "");
   }
+  if (classes.names.size() - (classes.has_missing ? 1 : 0) > kClassColourCount)
+    h += "<p class=\"none\">Classes past the eighth are drawn grey.</p>";
+  if (!d.components.note.empty()) h += "<p class=\"none\">" + esc(d.components.note) + "</p>";
+  return h;
+}
 
-  // The run record.
-  const ReportRecord& rec = d.record;
-  h += "<section id=\"record\" class=\"record\"><h2>Run record</h2>";
+// The robust distance of every sample from the outlier screen, with the flagged ones named.
+std::string sample_distances(const ReportSamples& si, const std::vector<std::string>& flagged_names,
+                             const std::vector<std::string>& dropped_names) {
+  ReportHistogram dist;
+  dist.id = "distance";
+  dist.title = "Robust distance of each sample";
+  dist.axis = "robust distance on the screening components (robust standard deviations)";
+  dist.count_axis = "samples";
+  dist.values = si.distance;
+  dist.dropped = si.flagged;
+  dist.cuts = {{si.threshold, "outlier threshold " + g(si.threshold)}};
+  dist.cut_keeps_equal_above = false;
+  dist.lo = 0;
+  double far = si.threshold;
+  for (const double v : si.distance)
+    if (std::isfinite(v)) far = std::max(far, v);
+  dist.hi = far * 1.06;
+  dist.dropped_label = "flagged";
+  dist.kept_label = "not flagged";
+  std::string extra;
+  std::string h = "<h3 id=\"distance\">" + esc(dist.title) + "</h3>";
+  h += figure(histogram_svg(dist, extra),
+              "Screen: " + esc(si.screen_source) +
+                  ". Each component's scores are centred on their median (with "
+                  "labels, the median of the sample's class, so classes that separate are not "
+                  "outliers) and divided "
+                  "by a robust standard deviation: the larger of 1.4826 \xC3\x97 the median "
+                  "absolute deviation and "
+                  "the 80th percentile of the absolute deviations / 1.2816 (so a batch or "
+                  "group of more than a fifth "
+                  "of the samples is not called outlying). The distance is the square root of "
+                  "the sum of squares. "
+                  "Rule: " +
+                  esc(si.rule) + ".");
+  h += "<p>";
+  if (flagged_names.empty()) {
+    h += "No sample is flagged.";
+  } else {
+    h += "<strong>Flagged (" + count(static_cast<std::int64_t>(flagged_names.size())) +
+         "):</strong> " + name_list(flagged_names, 50) + ". ";
+    h += dropped_names.empty()
+             ? "They were kept; --drop-outliers removes flagged samples before the reduction."
+             : "They were removed before the reduction (--drop-outliers).";
+  }
+  h += " samples.tsv lists every sample with its missing rate, distance and flag.</p>";
+  return h;
+}
+
+std::string sample_missing_rates(const ReportSamples& si) {
+  ReportHistogram miss;
+  miss.id = "sample-missing";
+  miss.title = "Missing values per sample";
+  miss.axis = "missing rate (fraction of the input features without a value)";
+  miss.count_axis = "samples";
+  miss.values = si.missing_rate;
+  miss.lo = 0;
+  std::string extra;
+  return "<h3 id=\"sample-missing\">" + esc(miss.title) + "</h3>" +
+         figure(histogram_svg(miss, extra), "");
+}
+
+// The samples on the components, their outlier screen and their missing rates.
+std::string samples_section(const ReportData& d, const Classes& classes,
+                            const std::vector<std::string>& flagged_names,
+                            const std::vector<std::string>& dropped_names) {
+  const ReportSamples& si = d.sample_info;
+  if (si.ids.empty()) return "";
+  std::string h = "<section id=\"samples\"><h2>Samples</h2>";
+  h += sample_scatters(d, classes);
+  if (si.screened)
+    h += sample_distances(si, flagged_names, dropped_names);
+  else
+    h += "<p class=\"none\">Samples were not screened for outliers: " + esc(si.rule) + ".</p>";
+  if (!si.missing_rate.empty()) h += sample_missing_rates(si);
+  h += "</section>\n";
+  return h;
+}
+
+// The parameters in two tables side by side: the list is long and each row short.
+std::string parameter_tables(const ReportRecord& rec) {
+  const std::size_t half = (rec.parameters.size() + 1) / 2;
+  std::string h = "<h3>Parameters</h3><div class=\"pair\">";
+  for (std::size_t part = 0; part < 2; ++part) {
+    h += "<table><tr><th>parameter</th><th>value</th></tr>";
+    for (std::size_t i = part * half; i < rec.parameters.size() && i < (part + 1) * half; ++i)
+      h += "<tr><td>" + esc(rec.parameters[i].first) + "</td><td><code>" +
+           esc(rec.parameters[i].second) + "</code></td></tr>";
+    h += "</table>";
+  }
+  h += "</div>";
+  return h;
+}
+
+// The run record: command line, inputs, parameters, timings and outputs; then the footer.
+std::string record_section(const ReportRecord& rec) {
+  std::string h = "<section id=\"record\" class=\"record\"><h2>Run record</h2>";
   if (!rec.command_line.empty()) {
     std::string cmd;
     for (std::size_t i = 0; i < rec.command_line.size(); ++i)
@@ -382,19 +453,7 @@ std::string report_html(const ReportData& d) {
            esc(in.sha256) + "</code></td></tr>";
     h += "</table>";
   }
-  if (!rec.parameters.empty()) {
-    // Two tables side by side: the list is long and each row short.
-    const std::size_t half = (rec.parameters.size() + 1) / 2;
-    h += "<h3>Parameters</h3><div class=\"pair\">";
-    for (std::size_t part = 0; part < 2; ++part) {
-      h += "<table><tr><th>parameter</th><th>value</th></tr>";
-      for (std::size_t i = part * half; i < rec.parameters.size() && i < (part + 1) * half; ++i)
-        h += "<tr><td>" + esc(rec.parameters[i].first) + "</td><td><code>" +
-             esc(rec.parameters[i].second) + "</code></td></tr>";
-      h += "</table>";
-    }
-    h += "</div>";
-  }
+  if (!rec.parameters.empty()) h += parameter_tables(rec);
   if (!rec.timings.empty()) {
     double total = 0;
     h += "<h3>Timings</h3><table><tr><th>step</th><th>seconds</th></tr>";
@@ -414,6 +473,29 @@ std::string report_html(const ReportData& d) {
        ". Self-contained: no script, nothing fetched. Selected features are statistical "
        "associations in these "
        "data, not validated biomarkers.</footer>\n</body>\n</html>\n";
+  return h;
+}
+
+}  // namespace
+
+std::string report_html(const ReportData& d) {
+  std::string h;
+  h.reserve(1 << 16);
+  h += page_head(d);
+  const Classes classes = classes_of(d.sample_info);
+  const std::vector<std::string> flagged_names =
+      ids_where(d.sample_info.ids, d.sample_info.flagged);
+  const std::vector<std::string> dropped_names =
+      ids_where(d.sample_info.ids, d.sample_info.dropped);
+  h += glance_section(d, classes, flagged_names, dropped_names);
+  h += funnel_section(d);
+  h += distributions_section(d);
+  h += ranking_section(d);
+  h += top_features_html(d.top_features, classes);
+  h += redundancy_section(d);
+  h += components_section(d);
+  h += samples_section(d, classes, flagged_names, dropped_names);
+  h += record_section(d.record);
   return h;
 }
 

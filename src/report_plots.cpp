@@ -123,91 +123,108 @@ void set_score_curve(ReportScoreCurve& c, std::vector<double> values, std::span<
     c.keep_rank = c.kept_ranks[std::min(static_cast<std::size_t>(keep), c.kept_ranks.size()) - 1];
 }
 
-std::string score_curve_html(const ReportScoreCurve& c) {
-  const std::size_t n = c.values.size();
-  if (n == 0) return "";
-  const double width = 760, left = 74, right = 24, top = 44, plot_h = 220, bottom = 58;
-  const double height = top + plot_h + bottom;
+namespace {
+
+// The score curve's frame: its size, its scales, and where a rank and a score land.
+struct CurveFrame {
+  static constexpr double width = 760, left = 74, right = 24, top = 44, plot_h = 220, bottom = 58;
+  std::size_t n = 0;
+  bool log_x = false, log_y = false;
+  Scale x, y;
+  std::int64_t infinite = 0;  // scores that are infinite (drawn at the top or the bottom)
+
+  double px(double rank) const { return log_x ? x.raw(std::log10(rank)) : x.raw(rank); }
+  double py(double v) const {
+    if (std::isinf(v)) return v > 0 ? top : top + plot_h;
+    return log_y ? y.raw(std::log10(v)) : y.raw(v);
+  }
+};
+
+CurveFrame curve_frame(const ReportScoreCurve& c) {
+  CurveFrame f;
+  const double width = f.width, left = f.left, right = f.right, top = f.top, plot_h = f.plot_h;
+  const std::size_t n = f.n = c.values.size();
   // Ranks on a log axis past 50 features: the few informative ones at the top of a long ranking
   // would otherwise share a pixel column.
-  const bool log_x = n > 50;
+  f.log_x = n > 50;
   const double span = std::max(1.0, std::log10(static_cast<double>(n)));
-  const Scale x = log_x ? Scale{-0.02 * span, std::log10(static_cast<double>(n)) + 0.02 * span,
-                                left, width - right}
-                        : Scale{0.5, static_cast<double>(n) + 0.5, left, width - right};
-  const auto px = [&](double rank) { return log_x ? x.raw(std::log10(rank)) : x.raw(rank); };
+  f.x = f.log_x ? Scale{-0.02 * span, std::log10(static_cast<double>(n)) + 0.02 * span, left,
+                        width - right}
+                : Scale{0.5, static_cast<double>(n) + 0.5, left, width - right};
   double lo = kNaN, hi = kNaN;
-  std::int64_t infinite = 0;
   for (const double v : c.values) {
-    if (std::isinf(v)) ++infinite;
+    if (std::isinf(v)) ++f.infinite;
     if (!std::isfinite(v)) continue;
     lo = std::isnan(lo) ? v : std::min(lo, v);
     hi = std::isnan(hi) ? v : std::max(hi, v);
   }
   if (std::isnan(lo)) lo = hi = 0;
   // A log score axis when the scores are positive and span more than three decades (variance).
-  const bool log_y = lo > 0 && hi / lo > 1e3;
-  double y0 = log_y ? std::log10(lo) : std::min(0.0, lo);
-  double y1 = log_y ? std::log10(hi) : hi;
+  f.log_y = lo > 0 && hi / lo > 1e3;
+  double y0 = f.log_y ? std::log10(lo) : std::min(0.0, lo);
+  double y1 = f.log_y ? std::log10(hi) : hi;
   if (y1 - y0 < 1e-12) y1 = y0 + 1;
   y1 += (y1 - y0) * 0.04;
-  if (log_y) y0 -= (y1 - y0) * 0.03;
-  const Scale y{y0, y1, top + plot_h, top};
-  const auto py = [&](double v) {
-    if (std::isinf(v)) return v > 0 ? top : top + plot_h;
-    return log_y ? y.raw(std::log10(v)) : y.raw(v);
-  };
+  if (f.log_y) y0 -= (y1 - y0) * 0.03;
+  f.y = Scale{y0, y1, top + plot_h, top};
+  return f;
+}
 
-  std::string s = svg_open(width, height, "Score of every ranked feature against its rank");
-  // y axis and grid.
+// The score axis with its grid, and the rank axis.
+void curve_axes(std::string& s, const ReportScoreCurve& c, const CurveFrame& f) {
+  const double width = f.width, left = f.left, right = f.right, top = f.top, plot_h = f.plot_h;
   line(s, left, top, left, top + plot_h, kAxis);
-  const std::vector<double> y_ticks = log_y ? log_ticks(y0, y1) : linear_ticks(y0, y1, 5);
+  const std::vector<double> y_ticks =
+      f.log_y ? log_ticks(f.y.d0, f.y.d1) : linear_ticks(f.y.d0, f.y.d1, 5);
   for (const double t : y_ticks) {
-    const double p = y.raw(t);
+    const double p = f.y.raw(t);
     line(s, left - 4, p, left, p, kAxis);
     line(s, left, p, width - right, p, "#eeeeee");
-    text(s, left - 7, p + 4, esc(log_y ? tick_value(t) : g(t, 4)), "end", "tick");
+    text(s, left - 7, p + 4, esc(f.log_y ? tick_value(t) : g(t, 4)), "end", "tick");
   }
   s += "<text class=\"label\" text-anchor=\"middle\" transform=\"translate(14 " +
        xy(top + plot_h / 2) + ") rotate(-90)\">" + esc(c.axis.empty() ? c.column : c.axis) +
-       (log_y ? " (log scale)" : "") + "</text>";
-  // x axis.
+       (f.log_y ? " (log scale)" : "") + "</text>";
   std::vector<double> ticks;
   std::vector<std::string> labels;
-  if (log_x) {
-    for (const double t : log_ticks(0, std::log10(static_cast<double>(n)))) {
+  if (f.log_x) {
+    for (const double t : log_ticks(0, std::log10(static_cast<double>(f.n)))) {
       ticks.push_back(t);
       labels.push_back(esc(tick_value(t)));
     }
   } else {
-    for (const double t : linear_ticks(1, static_cast<double>(n), 8, true)) {
+    for (const double t : linear_ticks(1, static_cast<double>(f.n), 8, true)) {
       if (t < 1) continue;
       ticks.push_back(t);
       labels.push_back(count(static_cast<std::int64_t>(t)));
     }
   }
-  for (const double t : ticks) line(s, x.raw(t), top, x.raw(t), top + plot_h, "#f3f3f3");
-  x_axis(s, x, top + plot_h, ticks, labels,
-         log_x ? "rank (log scale; 1 = best)" : "rank (1 = best)", top + plot_h + 42);
+  for (const double t : ticks) line(s, f.x.raw(t), top, f.x.raw(t), top + plot_h, "#f3f3f3");
+  x_axis(s, f.x, top + plot_h, ticks, labels,
+         f.log_x ? "rank (log scale; 1 = best)" : "rank (1 = best)", top + plot_h + 42);
+}
 
-  // The kept features: ticks along the bottom (one per pixel column).
-  if (!c.kept_ranks.empty()) {
-    std::string rug;
-    double last = -1;
-    std::vector<double> at;
-    for (const std::int64_t r : c.kept_ranks)
-      if (r >= 1 && r <= static_cast<std::int64_t>(n)) at.push_back(px(static_cast<double>(r)));
-    std::sort(at.begin(), at.end());
-    for (const double a : at) {
-      if (a - last < 1) continue;
-      last = a;
-      rug += "M" + xy(a) + " " + xy(top + plot_h) + "v-7";
-    }
-    s += "<path d=\"" + rug + "\" stroke=\"" + kGreen + "\" stroke-width=\"1\" fill=\"none\"/>";
+// The kept features: ticks along the bottom (one per pixel column).
+void kept_rug(std::string& s, const ReportScoreCurve& c, const CurveFrame& f) {
+  if (c.kept_ranks.empty()) return;
+  std::string rug;
+  double last = -1;
+  std::vector<double> at;
+  for (const std::int64_t r : c.kept_ranks)
+    if (r >= 1 && r <= static_cast<std::int64_t>(f.n)) at.push_back(f.px(static_cast<double>(r)));
+  std::sort(at.begin(), at.end());
+  for (const double a : at) {
+    if (a - last < 1) continue;
+    last = a;
+    rug += "M" + xy(a) + " " + xy(f.top + f.plot_h) + "v-7";
   }
+  s += "<path d=\"" + rug + "\" stroke=\"" + kGreen + "\" stroke-width=\"1\" fill=\"none\"/>";
+}
 
-  // The curve: scores fall with rank, so the first and the last rank that land in a pixel column
-  // draw everything in it.
+// The curve: scores fall with rank, so the first and the last rank that land in a pixel column
+// draw everything in it. Its group carries the points drawn and the cuts, for checks.
+void curve_line(std::string& s, const ReportScoreCurve& c, const CurveFrame& f) {
+  const std::size_t n = f.n;
   std::string path, points;
   double column = -1e9;
   std::size_t last_added = n;
@@ -215,12 +232,12 @@ std::string score_curve_html(const ReportScoreCurve& c) {
     if (k == last_added) return;
     last_added = k;
     const double v = c.values[k];
-    path += (path.empty() ? "M" : " L") + xy(px(static_cast<double>(k + 1))) + " " + xy(py(v));
+    path += (path.empty() ? "M" : " L") + xy(f.px(static_cast<double>(k + 1))) + " " + xy(f.py(v));
     points += (points.empty() ? "" : " ") + std::to_string(k + 1) + ":" + shortest(v);
   };
   for (std::size_t k = 0; k < n; ++k) {
     if (std::isnan(c.values[k])) continue;
-    const double col = std::floor(px(static_cast<double>(k + 1)));
+    const double col = std::floor(f.px(static_cast<double>(k + 1)));
     if (col != column) {
       if (k > 0 && !std::isnan(c.values[k - 1])) add(k - 1);
       add(k);
@@ -242,11 +259,13 @@ std::string score_curve_html(const ReportScoreCurve& c) {
   if (n <= 60)
     for (std::size_t k = 0; k < n; ++k)
       if (!std::isnan(c.values[k]))
-        s += "<circle cx=\"" + xy(px(static_cast<double>(k + 1))) + "\" cy=\"" +
-             xy(py(c.values[k])) + "\" r=\"2.5\" fill=\"" + kBlue + "\"/>";
+        s += "<circle cx=\"" + xy(f.px(static_cast<double>(k + 1))) + "\" cy=\"" +
+             xy(f.py(c.values[k])) + "\" r=\"2.5\" fill=\"" + kBlue + "\"/>";
   s += "</g>";
+}
 
-  // The cuts, dashed, labelled above the plot.
+// The --fdr and --keep cuts, dashed, labelled above the plot.
+void curve_cuts(std::string& s, const ReportScoreCurve& c, const CurveFrame& f) {
   struct Cut {
     std::int64_t rank;
     const char* colour;
@@ -266,21 +285,17 @@ std::string score_curve_html(const ReportScoreCurve& c) {
                              : "the " + count(c.keep) + "th kept") +
                         " at rank " + count(c.keep_rank)});
   for (std::size_t k = 0; k < cuts.size(); ++k) {
-    const double p = px(static_cast<double>(cuts[k].rank));
-    line(s, p, top - (k == 0 ? 8 : 22), p, top + plot_h, cuts[k].colour, 1.5, "5 3");
-    const bool east = p < width - 280;
-    text(s, p + (east ? 4 : -4), top - (k == 0 ? 12 : 26), esc(cuts[k].label),
+    const double p = f.px(static_cast<double>(cuts[k].rank));
+    line(s, p, f.top - (k == 0 ? 8 : 22), p, f.top + f.plot_h, cuts[k].colour, 1.5, "5 3");
+    const bool east = p < f.width - 280;
+    text(s, p + (east ? 4 : -4), f.top - (k == 0 ? 12 : 26), esc(cuts[k].label),
          east ? "start" : "end", "cut");
   }
-  s += "</svg>";
+}
 
-  std::string legend = "<ul class=\"legend\"><li>" + swatch(kBlue, Mark::kLine) + " " +
-                       esc(c.column) + " of the feature at each rank</li>";
-  if (!c.kept_ranks.empty())
-    legend += "<li>" + swatch(kGreen) + " kept (" +
-              count(static_cast<std::int64_t>(c.kept_ranks.size())) + ")</li>";
-  legend += "</ul>";
-  std::string caption = "All " + count(static_cast<std::int64_t>(n)) +
+// The caption under the score curve: what it shows, where the cuts fell, how to read it.
+std::string curve_caption(const ReportScoreCurve& c, std::int64_t infinite) {
+  std::string caption = "All " + count(static_cast<std::int64_t>(c.values.size())) +
                         " ranked features, best first: ranking.tsv lists the kept ones and "
                         "selection-log.tsv the score of every one. ";
   if (c.fdr < 1) {
@@ -309,7 +324,30 @@ std::string score_curve_html(const ReportScoreCurve& c) {
     caption += " " + count(infinite) +
                " features with an infinite score (the classes do not overlap) are drawn at the "
                "top.";
-  return "<h3 id=\"score-curve\">Score against rank</h3>" + figure(s + legend, esc(caption));
+  return caption;
+}
+
+}  // namespace
+
+std::string score_curve_html(const ReportScoreCurve& c) {
+  if (c.values.empty()) return "";
+  const CurveFrame f = curve_frame(c);
+  std::string s = svg_open(f.width, f.top + f.plot_h + f.bottom,
+                           "Score of every ranked feature against its rank");
+  curve_axes(s, c, f);
+  kept_rug(s, c, f);
+  curve_line(s, c, f);
+  curve_cuts(s, c, f);
+  s += "</svg>";
+
+  std::string legend = "<ul class=\"legend\"><li>" + swatch(kBlue, Mark::kLine) + " " +
+                       esc(c.column) + " of the feature at each rank</li>";
+  if (!c.kept_ranks.empty())
+    legend += "<li>" + swatch(kGreen) + " kept (" +
+              count(static_cast<std::int64_t>(c.kept_ranks.size())) + ")</li>";
+  legend += "</ul>";
+  return "<h3 id=\"score-curve\">Score against rank</h3>" +
+         figure(s + legend, esc(curve_caption(c, f.infinite)));
 }
 
 std::string p_values_html(const ReportHistogram& h) {
@@ -379,141 +417,202 @@ Classes marks_of(const ReportSamples& d, std::string& note) {
   return c;
 }
 
-std::string top_features_html(const ReportTopFeatures& top, const Classes& scatter_classes) {
-  if (top.strips.empty()) return "";
-  const std::size_t n = top.ids.size();
-  // Groups: the classes (sorted by name, coloured as on the sample plots), or every sample.
+namespace {
+
+// The groups of a strip plot: the classes (sorted by name, coloured as on the sample plots), or
+// every sample; which samples are shown, and which of those are drawn.
+struct StripGroups {
   std::vector<std::string> names;
   std::vector<std::string> colours;
-  std::vector<std::int64_t> group(n, -1);
+  std::vector<std::int64_t> group;  // per sample; -1: not shown (no label)
   std::int64_t unlabelled = 0;
+  std::vector<std::int64_t> size;     // per group
+  std::vector<std::size_t> position;  // per sample: its place among the shown ones
+  std::int64_t shown = 0;
+  std::size_t stride = 1;  // every stride-th shown sample is drawn
+
+  bool drawn(std::size_t i) const { return position[i] % stride == 0; }
+};
+
+StripGroups strip_groups(const ReportTopFeatures& top, const Classes& scatter_classes) {
+  const std::size_t n = top.ids.size();
+  StripGroups sg;
+  sg.group.assign(n, -1);
   if (top.labels.empty()) {
-    names = {"all samples"};
-    colours = {kBlue};
-    std::fill(group.begin(), group.end(), 0);
+    sg.names = {"all samples"};
+    sg.colours = {kBlue};
+    std::fill(sg.group.begin(), sg.group.end(), 0);
   } else {
     std::map<std::string, std::int64_t> index;
     for (const auto& l : top.labels)
       if (!l.empty()) index.emplace(l, 0);
     for (auto& [name, k] : index) {
-      k = static_cast<std::int64_t>(names.size());
-      names.push_back(name);
-      std::string colour = colour_of(names.size() - 1);
+      k = static_cast<std::int64_t>(sg.names.size());
+      sg.names.push_back(name);
+      std::string colour = colour_of(sg.names.size() - 1);
       for (std::size_t m = 0; m < scatter_classes.names.size(); ++m)
         if (scatter_classes.names[m] == name &&
             !(scatter_classes.has_missing && m + 1 == scatter_classes.names.size()))
           colour = scatter_classes.colours[m];
-      colours.push_back(colour);
+      sg.colours.push_back(colour);
     }
     for (std::size_t i = 0; i < n; ++i) {
       if (top.labels[i].empty())
-        ++unlabelled;
+        ++sg.unlabelled;
       else
-        group[i] = index[top.labels[i]];
+        sg.group[i] = index[top.labels[i]];
     }
   }
-  const std::size_t groups = names.size();
-  if (groups == 0) return "";  // every sample without a label: nothing to draw
-  std::vector<std::int64_t> group_size(groups, 0);
+  sg.size.assign(sg.names.size(), 0);
   // Each shown sample's position among the shown ones, in file order: thinning keeps the same
   // samples in every plot.
-  std::vector<std::size_t> position(n, 0);
+  sg.position.assign(n, 0);
   std::size_t next = 0;
   for (std::size_t i = 0; i < n; ++i) {
-    if (group[i] < 0) continue;
-    ++group_size[static_cast<std::size_t>(group[i])];
-    position[i] = next++;
+    if (sg.group[i] < 0) continue;
+    ++sg.size[static_cast<std::size_t>(sg.group[i])];
+    sg.position[i] = next++;
   }
   // Past kReportMaxStripPoints shown samples every stride-th one is drawn (the same in every plot).
-  const std::int64_t shown = static_cast<std::int64_t>(n) - unlabelled;
-  const std::size_t stride =
-      static_cast<std::size_t>(shown) > kReportMaxStripPoints
-          ? (static_cast<std::size_t>(shown) + kReportMaxStripPoints - 1) / kReportMaxStripPoints
+  sg.shown = static_cast<std::int64_t>(n) - sg.unlabelled;
+  sg.stride =
+      static_cast<std::size_t>(sg.shown) > kReportMaxStripPoints
+          ? (static_cast<std::size_t>(sg.shown) + kReportMaxStripPoints - 1) / kReportMaxStripPoints
           : 1;
-  const bool rotate = groups > 4;
-  const double width = 300, left = 56, right = 8, top_y = 26, plot_h = 180;
-  const double bottom = rotate ? 70 : 34;
-  const double height = top_y + plot_h + bottom;
-  const double slot = (width - left - right) / static_cast<double>(groups);
-  const double r = shown <= 200 ? 2.6 : 2.0;
+  return sg;
+}
 
+// The size of one strip plot; the classes' names are turned when more than four share it.
+struct StripFrame {
+  static constexpr double width = 300, left = 56, right = 8, top_y = 26, plot_h = 180;
+  bool rotate = false;
+  double bottom = 0, height = 0, slot = 0, r = 0;
+
+  StripFrame(std::size_t groups, std::int64_t shown)
+      : rotate(groups > 4),
+        bottom(rotate ? 70 : 34),
+        height(top_y + plot_h + bottom),
+        slot((width - left - right) / static_cast<double>(groups)),
+        r(shown <= 200 ? 2.6 : 2.0) {}
+};
+
+// One class in one strip plot: the box of its quartiles, its samples as dots, its median, and
+// its name under the slot. `v` holds the class's finite values, sorted.
+void strip_group(std::string& s, const ReportTopFeatures& top, const ReportStrip& st,
+                 const StripGroups& sg, const StripFrame& fr, const Scale& y, std::size_t k,
+                 const std::vector<double>& v) {
+  const std::size_t n = top.ids.size();
+  const double q1 = quantile(v, 0.25), median = quantile(v, 0.5), q3 = quantile(v, 0.75);
+  const double cx = fr.left + fr.slot * (static_cast<double>(k) + 0.5);
+  const double box_w = std::min(44.0, fr.slot * 0.62);
+  const std::string& name = sg.names[k];
+  s += "<g class=\"strip-group\" data-class=\"" + esc(name) + "\" data-n=\"" +
+       std::to_string(v.size()) + "\"";
+  if (!v.empty())
+    s += " data-q1=\"" + shortest(q1) + "\" data-median=\"" + shortest(median) + "\" data-q3=\"" +
+         shortest(q3) + "\"";
+  s += ">";
+  if (!v.empty()) {
+    s += "<rect x=\"" + xy(cx - box_w / 2) + "\" y=\"" + xy(y(q3)) + "\" width=\"" + xy(box_w) +
+         "\" height=\"" + xy(std::max(0.0, y(q1) - y(q3))) + "\" fill=\"none\" stroke=\"" + kAxis +
+         "\" stroke-width=\"1\"><title>" + esc(name) + ": median " + esc(g(median, 4)) +
+         ", quartiles " + esc(g(q1, 4)) + " to " + esc(g(q3, 4)) + " (" +
+         count(static_cast<std::int64_t>(v.size())) + " samples)</title></rect>";
+  }
+  for (std::size_t i = 0; i < n && i < st.values.size(); ++i) {
+    if (sg.group[i] != static_cast<std::int64_t>(k) || !sg.drawn(i)) continue;
+    const float value = st.values[i];
+    if (!std::isfinite(value)) continue;
+    const double dx = jitter(i) * box_w * 1.1;
+    s += "<circle cx=\"" + xy(cx + dx) + "\" cy=\"" + xy(y(value)) + "\" r=\"" + xy(fr.r) +
+         "\" fill=\"" + sg.colours[k] + "\" fill-opacity=\"0.7\" data-value=\"" + shortest(value) +
+         "\"><title>" + esc(top.ids[i]) + (top.labels.empty() ? "" : " \xC2\xB7 " + esc(name)) +
+         " \xC2\xB7 " + esc(g(value, 4)) + "</title></circle>";
+  }
+  if (!v.empty()) line(s, cx - box_w / 2 - 3, y(median), cx + box_w / 2 + 3, y(median), kInk, 2);
+  s += "</g>";
+  // The class under its slot.
+  const std::size_t fit = std::max<std::size_t>(4, static_cast<std::size_t>(fr.slot / 7));
+  if (fr.rotate) {
+    s += "<text class=\"tick\" text-anchor=\"end\" transform=\"translate(" + xy(cx + 3) + " " +
+         xy(fr.top_y + fr.plot_h + 12) + ") rotate(-40)\">" + esc_short(name, 14) + "</text>";
+  } else {
+    text(s, cx, fr.top_y + fr.plot_h + 16, esc_short(name, fit), "middle", "tick");
+  }
+}
+
+// The strip plot of the f-th top feature; `without_value` counts the shown samples it has no
+// finite value for.
+std::string strip_panel(const ReportTopFeatures& top, std::size_t f, const StripGroups& sg,
+                        const StripFrame& fr, std::int64_t& without_value) {
+  const std::size_t n = top.ids.size(), groups = sg.names.size();
+  const double width = fr.width, left = fr.left, right = fr.right, top_y = fr.top_y;
+  const double plot_h = fr.plot_h;
+  const ReportStrip& st = top.strips[f];
+  double lo = kNaN, hi = kNaN;
+  std::vector<std::vector<double>> by_group(groups);
+  for (std::size_t i = 0; i < n && i < st.values.size(); ++i) {
+    const double v = st.values[i];
+    if (sg.group[i] < 0) continue;
+    if (!std::isfinite(v)) {
+      ++without_value;
+      continue;
+    }
+    by_group[static_cast<std::size_t>(sg.group[i])].push_back(v);
+    lo = std::isnan(lo) ? v : std::min(lo, v);
+    hi = std::isnan(hi) ? v : std::max(hi, v);
+  }
+  if (std::isnan(lo)) lo = hi = 0;
+  const double pad = hi > lo ? (hi - lo) * 0.06 : 1;
+  const Scale y{lo - pad, hi + pad, top_y + plot_h, top_y};
+  std::string s = svg_open(width, fr.height, "Values of " + st.name + " by class");
+  s += "<g class=\"strip\" data-rank=\"" + std::to_string(f + 1) + "\" data-feature=\"" +
+       esc(st.name) + "\" data-column=\"" + std::to_string(st.column) + "\">";
+  text(s, left, top_y - 10, esc_short(st.name, 34), "start", "label", "font-weight=\"600\"");
+  line(s, left, top_y, left, top_y + plot_h, kAxis);
+  for (const double t : linear_ticks(y.d0, y.d1, 5)) {
+    line(s, left - 4, y.raw(t), left, y.raw(t), kAxis);
+    line(s, left, y.raw(t), width - right, y.raw(t), "#f0f0f0");
+    text(s, left - 7, y.raw(t) + 4, esc(g(t, 3)), "end", "tick");
+  }
+  line(s, left, top_y + plot_h, width - right, top_y + plot_h, kAxis);
+  for (std::size_t k = 0; k < groups; ++k) {
+    std::sort(by_group[k].begin(), by_group[k].end());
+    strip_group(s, top, st, sg, fr, y, k, by_group[k]);
+  }
+  s += "</g></svg>";
+  return "<figure>" + s + "</figure>";
+}
+
+// The sentence under the strip plots on samples left out or thinned and values missing, or "".
+std::string strip_notes(const StripGroups& sg, std::int64_t without_value) {
+  std::string notes;
+  if (sg.unlabelled > 0)
+    notes +=
+        count(sg.unlabelled) + (sg.unlabelled == 1 ? " sample without a label is not shown. "
+                                                   : " samples without a label are not shown. ");
+  if (sg.stride > 1)
+    notes += "One sample in " + std::to_string(sg.stride) + " is drawn (" +
+             count(static_cast<std::int64_t>((static_cast<std::size_t>(sg.shown) + sg.stride - 1) /
+                                             sg.stride)) +
+             " of " + count(sg.shown) + "); the boxes use every sample. ";
+  if (without_value > 0) notes += count(without_value) + " values missing are not shown. ";
+  if (notes.empty()) return "";
+  return "<p class=\"none\">" + esc(notes.substr(0, notes.size() - 1)) + "</p>";
+}
+
+}  // namespace
+
+std::string top_features_html(const ReportTopFeatures& top, const Classes& scatter_classes) {
+  if (top.strips.empty()) return "";
+  const StripGroups sg = strip_groups(top, scatter_classes);
+  const std::size_t groups = sg.names.size();
+  if (groups == 0) return "";  // every sample without a label: nothing to draw
+  const StripFrame fr(groups, sg.shown);
   std::string panels;
   std::int64_t without_value = 0;
-  for (std::size_t f = 0; f < top.strips.size(); ++f) {
-    const ReportStrip& st = top.strips[f];
-    double lo = kNaN, hi = kNaN;
-    std::vector<std::vector<double>> by_group(groups);
-    for (std::size_t i = 0; i < n && i < st.values.size(); ++i) {
-      const double v = st.values[i];
-      if (group[i] < 0) continue;
-      if (!std::isfinite(v)) {
-        ++without_value;
-        continue;
-      }
-      by_group[static_cast<std::size_t>(group[i])].push_back(v);
-      lo = std::isnan(lo) ? v : std::min(lo, v);
-      hi = std::isnan(hi) ? v : std::max(hi, v);
-    }
-    if (std::isnan(lo)) lo = hi = 0;
-    const double pad = hi > lo ? (hi - lo) * 0.06 : 1;
-    const Scale y{lo - pad, hi + pad, top_y + plot_h, top_y};
-    std::string s = svg_open(width, height, "Values of " + st.name + " by class");
-    s += "<g class=\"strip\" data-rank=\"" + std::to_string(f + 1) + "\" data-feature=\"" +
-         esc(st.name) + "\" data-column=\"" + std::to_string(st.column) + "\">";
-    text(s, left, top_y - 10, esc_short(st.name, 34), "start", "label", "font-weight=\"600\"");
-    line(s, left, top_y, left, top_y + plot_h, kAxis);
-    for (const double t : linear_ticks(y.d0, y.d1, 5)) {
-      line(s, left - 4, y.raw(t), left, y.raw(t), kAxis);
-      line(s, left, y.raw(t), width - right, y.raw(t), "#f0f0f0");
-      text(s, left - 7, y.raw(t) + 4, esc(g(t, 3)), "end", "tick");
-    }
-    line(s, left, top_y + plot_h, width - right, top_y + plot_h, kAxis);
-    for (std::size_t k = 0; k < groups; ++k) {
-      std::vector<double>& v = by_group[k];
-      std::sort(v.begin(), v.end());
-      const double q1 = quantile(v, 0.25), median = quantile(v, 0.5), q3 = quantile(v, 0.75);
-      const double cx = left + slot * (static_cast<double>(k) + 0.5);
-      const double box_w = std::min(44.0, slot * 0.62);
-      const char* colour = colours[k].c_str();
-      s += "<g class=\"strip-group\" data-class=\"" + esc(names[k]) + "\" data-n=\"" +
-           std::to_string(v.size()) + "\"";
-      if (!v.empty())
-        s += " data-q1=\"" + shortest(q1) + "\" data-median=\"" + shortest(median) +
-             "\" data-q3=\"" + shortest(q3) + "\"";
-      s += ">";
-      if (!v.empty()) {
-        s += "<rect x=\"" + xy(cx - box_w / 2) + "\" y=\"" + xy(y(q3)) + "\" width=\"" + xy(box_w) +
-             "\" height=\"" + xy(std::max(0.0, y(q1) - y(q3))) + "\" fill=\"none\" stroke=\"" +
-             kAxis + "\" stroke-width=\"1\"><title>" + esc(names[k]) + ": median " +
-             esc(g(median, 4)) + ", quartiles " + esc(g(q1, 4)) + " to " + esc(g(q3, 4)) + " (" +
-             count(static_cast<std::int64_t>(v.size())) + " samples)</title></rect>";
-      }
-      for (std::size_t i = 0; i < n && i < st.values.size(); ++i) {
-        if (group[i] != static_cast<std::int64_t>(k) || position[i] % stride != 0) continue;
-        const float value = st.values[i];
-        if (!std::isfinite(value)) continue;
-        const double dx = jitter(i) * box_w * 1.1;
-        s += "<circle cx=\"" + xy(cx + dx) + "\" cy=\"" + xy(y(value)) + "\" r=\"" + xy(r) +
-             "\" fill=\"" + colour + "\" fill-opacity=\"0.7\" data-value=\"" + shortest(value) +
-             "\"><title>" + esc(top.ids[i]) +
-             (top.labels.empty() ? "" : " \xC2\xB7 " + esc(names[k])) + " \xC2\xB7 " +
-             esc(g(value, 4)) + "</title></circle>";
-      }
-      if (!v.empty())
-        line(s, cx - box_w / 2 - 3, y(median), cx + box_w / 2 + 3, y(median), kInk, 2);
-      s += "</g>";
-      // The class under its slot.
-      const std::size_t fit = std::max<std::size_t>(4, static_cast<std::size_t>(slot / 7));
-      if (rotate) {
-        s += "<text class=\"tick\" text-anchor=\"end\" transform=\"translate(" + xy(cx + 3) + " " +
-             xy(top_y + plot_h + 12) + ") rotate(-40)\">" + esc_short(names[k], 14) + "</text>";
-      } else {
-        text(s, cx, top_y + plot_h + 16, esc_short(names[k], fit), "middle", "tick");
-      }
-    }
-    s += "</g></svg>";
-    panels += "<figure>" + s + "</figure>";
-  }
+  for (std::size_t f = 0; f < top.strips.size(); ++f)
+    panels += strip_panel(top, f, sg, fr, without_value);
 
   std::string h = "<section id=\"top-features\"><h2>Top features, sample by sample</h2>";
   h += "<p class=\"lead\">The first " + std::to_string(top.strips.size()) +
@@ -530,21 +629,11 @@ std::string top_features_html(const ReportTopFeatures& top, const Classes& scatt
   if (!top.labels.empty()) {
     h += "<ul class=\"legend\">";
     for (std::size_t k = 0; k < groups; ++k)
-      h += "<li>" + swatch(colours[k].c_str(), Mark::kDot) + " " + esc(names[k]) + " (" +
-           count(group_size[k]) + ")</li>";
+      h += "<li>" + swatch(sg.colours[k].c_str(), Mark::kDot) + " " + esc(sg.names[k]) + " (" +
+           count(sg.size[k]) + ")</li>";
     h += "</ul>";
   }
-  std::string notes;
-  if (unlabelled > 0)
-    notes += count(unlabelled) + (unlabelled == 1 ? " sample without a label is not shown. "
-                                                  : " samples without a label are not shown. ");
-  if (stride > 1)
-    notes +=
-        "One sample in " + std::to_string(stride) + " is drawn (" +
-        count(static_cast<std::int64_t>((static_cast<std::size_t>(shown) + stride - 1) / stride)) +
-        " of " + count(shown) + "); the boxes use every sample. ";
-  if (without_value > 0) notes += count(without_value) + " values missing are not shown. ";
-  if (!notes.empty()) h += "<p class=\"none\">" + esc(notes.substr(0, notes.size() - 1)) + "</p>";
+  h += strip_notes(sg, without_value);
   h += "</section>\n";
   return h;
 }

@@ -25,18 +25,19 @@ using internal::NaTokens;
 using internal::read_header;
 using internal::strip_cr;
 
+SheetSpec parse_sheet_spec(const std::string& spec) {
+  std::error_code ec;
+  if (std::filesystem::exists(spec, ec)) return {spec, ""};
+  const auto colon = spec.rfind(':');
+  if (colon == std::string::npos || colon == 0) return {spec, ""};
+  return {spec.substr(0, colon), spec.substr(colon + 1)};
+}
+
 SampleSheet read_sample_sheet(const std::string& spec, char delimiter) {
   SampleSheet sheet;
-  sheet.path = spec;
-  // FILE[:COLUMN]: a path that exists as written wins over splitting at the last colon.
-  std::error_code ec;
-  if (!std::filesystem::exists(spec, ec)) {
-    const auto colon = spec.rfind(':');
-    if (colon != std::string::npos && colon > 0) {
-      sheet.path = spec.substr(0, colon);
-      sheet.column = spec.substr(colon + 1);
-    }
-  }
+  SheetSpec parsed = parse_sheet_spec(spec);
+  sheet.path = std::move(parsed.path);
+  sheet.column = std::move(parsed.column);
   const std::string text = read_file_text(sheet.path);
   const Header h = read_header(sheet.path, text, delimiter);
   check_names(sheet.path, 1, h.fields, h.columns, "the column name");
@@ -155,6 +156,7 @@ void attach_labels(FeatureTable& table, const SampleSheet& sheet) {
   }
   table.labels = std::move(labels);
   table.label_name = sheet.column;
+  table.labels_source = sheet.path;
 }
 
 ClassCodes encode_classes(const std::vector<std::string>& labels) {

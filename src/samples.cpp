@@ -4,7 +4,7 @@
 #include <cstring>        // std::memchr
 #include <unordered_map>  // std::unordered_map
 
-#include "internal/spill.h"
+#include "internal/columns.h"
 #include "internal/utf8.h"
 #include "pare/error.h"
 #include "pare/io.h"
@@ -94,7 +94,7 @@ void restrict_to_list(FeatureTable& table, const SampleList& list, const MemoryB
     const bool is_feature =
         std::find(table.feature_names.begin(), table.feature_names.end(), list.ids[k]) != table.feature_names.end();
     const std::string hint =
-        is_feature ? std::string("it is a feature of ") + table.source + ": is the layout the other one (--layout " +
+        is_feature ? std::string("it is a feature of ") + table.source + ": is the layout the other one (`layout` " +
                          (table.layout == Layout::kRowsAreSamples ? "rows=features" : "rows=samples") + ")?"
                    : "samples of " + table.source + " look like " + quoted(table.sample_ids.front());
     throw_input_error({list.path, list.lines[k], 1}, "sample " + quoted(list.ids[k]) + " is not in " + table.source,

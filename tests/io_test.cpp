@@ -860,14 +860,3 @@ TEST_CASE("io: --feature-info and --sample-info: each mistake gets its own messa
           samples + ":1:1: --sample-info names \"sample\", the id column (the first column holds the ids; name "
                     "only text columns after it)");
 }
-
-TEST_CASE("encode_classes sorts classes by name and counts them", "[io]") {
-  const pare::ClassCodes c = pare::encode_classes({"wet", "dry", "wet", "wet", "10", "9"});
-  // Labels are strings: "10" sorts before "9" (byte order), numeric-looking or not (SPEC §3).
-  REQUIRE(c.classes == Names{"10", "9", "dry", "wet"});
-  REQUIRE(c.codes == std::vector<int>{3, 2, 3, 3, 0, 1});
-  REQUIRE(c.counts == std::vector<std::int64_t>{1, 1, 1, 3});
-  const pare::ClassCodes empty = pare::encode_classes({});
-  REQUIRE(empty.classes.empty());
-  REQUIRE(empty.codes.empty());
-}

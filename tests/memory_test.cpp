@@ -1,6 +1,6 @@
 // --memory: a matrix past the budget lives in a cache file and every step works through column
 // blocks; the outputs must be byte-identical to the in-memory run. Also the pieces underneath:
-// Columns on disk, the page release helpers, --memory's size syntax, and progress reporting.
+// Columns on disk, the page release helpers and --memory's size syntax.
 
 #include <cmath>       // std::isnan
 #include <cstdint>     // std::int64_t
@@ -14,11 +14,10 @@
 #include <nlohmann/json.hpp>
 
 #include "cli/options.h"
+#include "internal/columns.h"
 #include "internal/gzip.h"
-#include "internal/spill.h"
 #include "pare/error.h"
 #include "pare/matrix.h"
-#include "pare/progress.h"
 #include "support/cli_run.h"
 #include "support/temp_dir.h"
 
@@ -233,49 +232,4 @@ TEST_CASE("memory: --memory sizes", "[memory]") {
   const auto r2 = run({"scan", dir.file("d.csv"), "--cache-dir", dir.path(), "--out", dir.file("o")});
   REQUIRE(r2.code == 2);
   REQUIRE(r2.err.find("--cache-dir is only used with --memory") != std::string::npos);
-}
-
-namespace {
-
-struct Recorder final : pare::ProgressListener {
-  std::vector<std::string> events;
-  std::int64_t total = 0, last = 0;
-  void begin(std::string_view step, std::int64_t t, std::string_view unit) override {
-    events.push_back("begin " + std::string(step) + " " + std::string(unit));
-    total = t;
-  }
-  void update(std::int64_t done) override { last = done; }
-  void end(std::int64_t done, double seconds) override {
-    events.push_back("end " + std::to_string(done) + (seconds >= 0 ? "" : " negative"));
-  }
-  void abandon() override { events.push_back("abandon"); }
-};
-
-}  // namespace
-
-TEST_CASE("progress: steps report begin, end and their units; an error abandons", "[memory]") {
-  Recorder recorder;
-  pare::set_progress_listener(&recorder);
-  {
-    pare::ProgressStep step("pruning", 100, "candidates");
-    for (int i = 0; i < 100; ++i) step.add(1);
-  }
-  try {
-    pare::ProgressStep step("reading", 10, "bytes");
-    step.add(3);
-    throw std::runtime_error("stop");
-  } catch (const std::runtime_error&) {
-  }
-  // The library's own steps: a real read reports the bytes it parsed.
-  TempDir dir;
-  const std::string body = "id,a,b\ns1,1,2\ns2,3,4\n";
-  REQUIRE(run({"scan", dir.write("d.csv", body), "--out", dir.file("o")}).code == 0);
-  pare::set_progress_listener(nullptr);
-  REQUIRE(recorder.events.size() >= 5);
-  REQUIRE(recorder.events[0] == "begin pruning candidates");
-  REQUIRE(recorder.events[1] == "end 100");
-  REQUIRE(recorder.events[2] == "begin reading bytes");
-  REQUIRE(recorder.events[3] == "abandon");
-  REQUIRE(recorder.events[4] == "begin reading bytes");
-  REQUIRE(recorder.events[5] == "end " + std::to_string(body.size() - std::string("id,a,b\n").size()));
 }

@@ -4,6 +4,7 @@
 // self-adjoint eigensolver on a Gram matrix formed explicitly in the test. Also: the dense and
 // block Krylov paths agree, wide and tall shapes, K = min(n, p), the error paths, thread
 // independence, the sign convention and project_rows on the training rows.
+#include "pare/pipeline.h"
 #include "pare/projection.h"
 
 #include <algorithm>  // std::max, std::min
@@ -530,21 +531,37 @@ TEST_CASE("K out of range is a usage error naming the limit", "[projection]") {
   }
 }
 
-TEST_CASE("no convergence is Error kOther", "[projection]") {
-  // One Krylov block and a tolerance no floating-point residual can meet: truncated_pca must
-  // throw (projection.h: Error(kOther) when the iteration does not converge), not return.
+TEST_CASE("no convergence is a status, and a run that needs the PCA stops on it", "[projection]") {
+  // One Krylov block and a tolerance no floating-point residual can meet: truncated_pca returns
+  // with converged false and says how far it got (projection.h), without throwing.
   pare::Matrix x = decaying(300, 700, 5);
   pare::ProjectionOptions o;
   o.components = 5;
   o.max_iterations = 1;
   o.tolerance = 1e-300;
+  const pare::Projection pr = pare::truncated_pca(x, o);
+  REQUIRE_FALSE(pr.converged);
+  REQUIRE(pr.status.find("did not converge") != std::string::npos);
+  REQUIRE(pr.iterations == 1);
+  REQUIRE(pr.residual > 0);
+  REQUIRE(pr.scores.size() == 0);
+  // run_pipeline turns it into an error naming the options that help.
+  pare::FeatureTable table;
+  table.values.resize(300, 700);
+  table.values = decaying(300, 700, 5);
+  for (Index j = 0; j < 700; ++j) table.feature_names.push_back("f" + std::to_string(j));
+  for (Index i = 0; i < 300; ++i) table.sample_ids.push_back("s" + std::to_string(i));
+  pare::PipelineOptions run;
+  run.select = false;
+  run.projection = o;
   try {
-    (void)pare::truncated_pca(x, o);
+    (void)pare::run_pipeline(table, run);
     FAIL("no error");
   } catch (const pare::Error& e) {
     INFO(e.what());
     REQUIRE(e.kind() == pare::ErrorKind::kOther);
     REQUIRE(std::string(e.what()).find("did not converge") != std::string::npos);
+    REQUIRE(std::string(e.what()).find("`max_iterations`") != std::string::npos);
   }
 }
 

@@ -192,11 +192,11 @@ TEST_CASE("reduce: the missing filter keeps a rate equal to --drop-missing-above
     for (const std::size_t j : {std::size_t{1}, std::size_t{3}}) {
       INFO("f" << j << ": " << decision(r, j).reason);
       REQUIRE_FALSE(decision(r, j).kept);
-      REQUIRE(decision(r, j).step == "missing");
+      REQUIRE(step_name(decision(r, j).step) == std::string("missing"));
     }
     REQUIRE(decision(r, 1).reason == "missing rate 0.3 > 0.2");
     REQUIRE(decision(r, 3).reason == "missing rate 1 > 0.2");
-    REQUIRE(r.steps.at(0).name == "missing");
+    REQUIRE(r.steps.at(0).step == pare::Step::kMissing);
     REQUIRE(r.steps.at(0).in == 4);
     REQUIRE(r.steps.at(0).out == 2);
   }
@@ -206,7 +206,7 @@ TEST_CASE("reduce: the missing filter keeps a rate equal to --drop-missing-above
     FeatureTable t = make();
     const Reduction r = pare::reduce(t, o);
     REQUIRE(decision(r, 1).kept);
-    REQUIRE(decision(r, 3).step == "missing");
+    REQUIRE(step_name(decision(r, 3).step) == std::string("missing"));
   }
   {
     ReduceOptions o = quiet_options();
@@ -223,7 +223,7 @@ TEST_CASE("reduce: the missing filter keeps a rate equal to --drop-missing-above
     FeatureTable t = make();
     const Reduction r = pare::reduce(t, o);
     REQUIRE(decision(r, 1).kept);
-    REQUIRE(decision(r, 3).step == "variance");
+    REQUIRE(step_name(decision(r, 3).step) == std::string("variance"));
     REQUIRE(decision(r, 3).reason == "fewer than 2 observed values");
   }
 }
@@ -278,12 +278,12 @@ TEST_CASE("reduce: --log2 refuses negative input, except in features already dro
   o.log2 = true;
   require_input_error(make_table({good, negative}, {}, {"g1", "tide"}), o,
                       "feature tide has negative values");
-  require_input_error(make_table({good, negative}), o, "--log2");
+  require_input_error(make_table({good, negative}), o, "`log2`");
   // The negative feature is mostly missing, so step 1 drops it before the transform.
   FeatureTable t = make_table({good, {kGap, -0.5f, kGap, kGap, 5}});
   const Reduction r = pare::reduce(t, o);
   REQUIRE(r.kept == std::vector<std::int64_t>{0});
-  REQUIRE(decision(r, 1).step == "missing");
+  REQUIRE(step_name(decision(r, 1).step) == std::string("missing"));
   // Without --log2 negative values are fine.
   FeatureTable plain = make_table({good, negative});
   REQUIRE(pare::reduce(plain, quiet_options()).kept.size() == 2);
@@ -309,7 +309,7 @@ TEST_CASE("reduce: the variance filter, --min-variance boundary, observed values
     REQUIRE(r.variance[3] == 0.0);
     REQUIRE(decision(r, 0).kept);
     REQUIRE(decision(r, 2).kept);
-    REQUIRE(decision(r, 3).step == "variance");
+    REQUIRE(step_name(decision(r, 3).step) == std::string("variance"));
     REQUIRE(decision(r, 3).reason == "variance 0 < 0.333");
   }
   {
@@ -318,7 +318,7 @@ TEST_CASE("reduce: the variance filter, --min-variance boundary, observed values
     FeatureTable t = make_table({third, grows, gappy, flat});
     const Reduction r = pare::reduce(t, o);
     REQUIRE_FALSE(decision(r, 0).kept);
-    REQUIRE(decision(r, 0).step == "variance");
+    REQUIRE(step_name(decision(r, 0).step) == std::string("variance"));
     REQUIRE(decision(r, 0).reason == "variance 0.333 < 0.333");
     REQUIRE(decision(r, 2).kept);
   }
@@ -333,7 +333,7 @@ TEST_CASE("reduce: the variance filter, --min-variance boundary, observed values
     const Reduction r = pare::reduce(t, o);
     REQUIRE(std::abs(r.variance[1] - 5.0 / 3.0) <= 1e-12);
     REQUIRE(r.variance[4] == 4.0);
-    REQUIRE(decision(r, 1).step == "variance");
+    REQUIRE(step_name(decision(r, 1).step) == std::string("variance"));
     REQUIRE(r.kept == std::vector<std::int64_t>{4});
     o.log2 = false;
     FeatureTable raw = make_table({third, grows, gappy, flat, big});
@@ -376,7 +376,7 @@ TEST_CASE("reduce: --drop-low-variance drops the lowest fraction, ties in input 
     for (std::size_t j = 0; j < 6; ++j)
       if (!decision(r, j).kept) {
         dropped.push_back(static_cast<std::int64_t>(j));
-        REQUIRE(decision(r, j).step == "variance");
+        REQUIRE(step_name(decision(r, j).step) == std::string("variance"));
         INFO(decision(r, j).reason);
         REQUIRE(contains(decision(r, j).reason, "in the lowest"));
       }
@@ -424,7 +424,7 @@ TEST_CASE("reduce: relevance with --fdr keeps q <= Q of the ranking test", "[red
         expected.push_back(static_cast<std::int64_t>(j));
         REQUIRE(decision(r, j).kept);
       } else {
-        REQUIRE(decision(r, j).step == "relevance");
+        REQUIRE(step_name(decision(r, j).step) == std::string("relevance"));
         REQUIRE(contains(decision(r, j).reason, "F-test q = "));
         REQUIRE(contains(decision(r, j).reason, "> " + std::string(fdr == 0.05 ? "0.05" : "0.2")));
       }
@@ -560,7 +560,7 @@ TEST_CASE("reduce: every step on one table, and selection-log.tsv and ranking.ts
                                                                   {6, 6}, {6, 5}, {5, 3}};
   REQUIRE(r.steps.size() == counts.size());
   for (std::size_t s = 0; s < counts.size(); ++s) {
-    INFO(r.steps[s].name);
+    INFO(step_name(r.steps[s].step));
     REQUIRE(r.steps[s].in == counts[s].first);
     REQUIRE(r.steps[s].out == counts[s].second);
   }
@@ -575,11 +575,11 @@ TEST_CASE("reduce: top K without pruning names the rank", "[reduce]") {
   const Reduction r = pare::reduce(t, o);
   // Without pruning the twin is second.
   REQUIRE(r.kept == std::vector<std::int64_t>{2, 3});
-  REQUIRE(decision(r, 4).step == "top");
+  REQUIRE(step_name(decision(r, 4).step) == std::string("top"));
   INFO(decision(r, 4).reason);
   REQUIRE(contains(decision(r, 4).reason, "rank 3"));
   REQUIRE(contains(decision(r, 4).reason, "--keep 2"));
-  REQUIRE(decision(r, 7).step == "top");
+  REQUIRE(step_name(decision(r, 7).step) == std::string("top"));
   REQUIRE(contains(decision(r, 7).reason, "rank 6"));
 }
 
@@ -597,7 +597,7 @@ TEST_CASE("reduce: without labels features are ranked by variance", "[reduce]") 
   // Descending variance, ties in input order (f1 before f3).
   REQUIRE(r.kept == std::vector<std::int64_t>{1, 3, 2, 0});
   REQUIRE(decision(r, 1).reason == "rank 1 by variance (3)");
-  REQUIRE(decision(r, 4).step == "variance");
+  REQUIRE(step_name(decision(r, 4).step) == std::string("variance"));
   const auto ranking = tsv_rows(pare::reduction_ranking_tsv(t, r));
   REQUIRE(ranking[0] ==
           std::vector<std::string>{"rank", "feature", "variance", "missing_rate", "index"});

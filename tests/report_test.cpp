@@ -142,8 +142,8 @@ TEST_CASE("report: one self-contained page, no script, nothing fetched, printabl
 TEST_CASE("report: the funnel shows the steps' counts; the top 30 equal ranking.tsv", "[report]") {
   const Run r = reduce_and_report();
   for (const auto& st : r.reduction.steps) {
-    INFO(st.name);
-    REQUIRE(r.html.find("data-step=\"" + st.name + "\" data-in=\"" + std::to_string(st.in) +
+    INFO(pare::step_name(st.step));
+    REQUIRE(r.html.find("data-step=\"" + std::string(pare::step_name(st.step)) + "\" data-in=\"" + std::to_string(st.in) +
                         "\" data-out=\"" + std::to_string(st.out) + "\"") != std::string::npos);
   }
   // The steps removed something, so the test would notice a wrong count.
@@ -463,8 +463,8 @@ TEST_CASE("report: parts without data are left out; without labels the curve is 
   std::vector<std::string> expected;
   for (const auto& e :
        ranked_from_log(pare::selection_log_tsv(u.table, u.reduction), "variance", "")) {
-    const std::string& step = u.reduction.decisions[static_cast<std::size_t>(e.index - 1)].step;
-    if (step != "missing" && step != "variance") expected.push_back(e.score);
+    const pare::Step step = u.reduction.decisions[static_cast<std::size_t>(e.index - 1)].step;
+    if (step != pare::Step::kMissing && step != pare::Step::kVariance) expected.push_back(e.score);
   }
   REQUIRE(expected.size() == 70);
   REQUIRE(attribute(u.html, "<g class=\"score-curve\"", "data-count") == "70");

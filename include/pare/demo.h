@@ -39,6 +39,7 @@ DemoFiles write_demo(const std::string& dir, std::uint64_t seed, const DemoScena
 #include <vector>  // std::vector
 
 #include "pare/matrix.h"
+#include "pare/pipeline.h"
 #include "pare/reduce.h"
 
 namespace pare {
@@ -55,5 +56,11 @@ struct DemoRecovery {
 
 /// Compares `reduction` of `table` with the planted truth in `truth_path` (greenhouse-truth.tsv).
 DemoRecovery evaluate_demo(const std::string& truth_path, const FeatureTable& table, const Reduction& reduction);
+
+/// The demo's account of what was recovered, line by line: recall and precision of the planted
+/// transcripts, the near-copies, constant and mostly-missing ones, and how much of each component
+/// (of the screen and of the run's PCA) lies between the batches `batches` (one per sample).
+std::string demo_recovery_text(const DemoRecovery& recovery, const std::string& truth_path, const PipelineResult& run,
+                               const std::vector<std::string>& batches);
 
 }  // namespace pare

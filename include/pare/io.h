@@ -52,7 +52,15 @@ struct SampleSheet {
   std::vector<std::vector<std::string>> cells;  ///< one row per id: its fields as written
 };
 
-/// Reads `spec` = `FILE[:COLUMN]`: first column sample ids, COLUMN (default: the second column)
+/// A sample sheet named as `FILE[:COLUMN]`: a path that exists as written wins over splitting at
+/// the last colon (so a file name may hold a colon).
+struct SheetSpec {
+  std::string path;
+  std::string column;  ///< empty: the second column
+};
+SheetSpec parse_sheet_spec(const std::string& spec);
+
+/// Reads `spec` = `FILE[:COLUMN]` (parse_sheet_spec): first column sample ids, COLUMN (default: the second column)
 /// the labels. The delimiter is detected from the header line unless given.
 SampleSheet read_sample_sheet(const std::string& spec, char delimiter = 0);
 

@@ -84,6 +84,7 @@ struct FeatureTable {
   std::string label_name;                  ///< the label column's name, or empty
   std::string id_name;                     ///< the header of the id column, or empty
   std::string source;                      ///< the path it was read from
+  std::string labels_source;               ///< the sample sheet the labels came from (empty: `source`)
   char delimiter = ',';                    ///< the delimiter the file used
   Layout layout = Layout::kRowsAreSamples;
   /// Text columns carried with the features (rows=features --feature-info): the column names, and

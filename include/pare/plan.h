@@ -9,6 +9,7 @@
 
 #include "pare/io.h"
 #include "pare/matrix.h"
+#include "pare/pipeline.h"
 #include "pare/projection.h"
 #include "pare/reduce.h"
 #include "pare/samples.h"
@@ -23,7 +24,6 @@ struct RunRecord {
   std::string sheet_path;                 ///< empty when labels did not come from a sheet
   std::string sheet_sha256;
   std::string sheet_column;
-  std::string layout;                     ///< rows=samples or rows=features
   std::string label;                      ///< --label, or empty
   std::vector<std::string> na_tokens;
   bool allow_inf = false;
@@ -34,16 +34,15 @@ struct RunRecord {
   std::string sample_list_path;           ///< --samples FILE, or empty
   std::string sample_list_sha256;
   SamplesLeftOut left_out;                ///< samples left out of a supervised run, and why
-  std::string sample_screen_json;  ///< the "sample_screen" section as JSON text, or empty
-  std::vector<std::pair<std::string, std::string>> more_outputs;  ///< "outputs" entries: role, file
+  double read_seconds = 0;                ///< reading the inputs, wall time
+  std::string mark_name;                  ///< the column samples are marked by in the report, or empty
+  std::vector<std::string> marks;         ///< its value per sample used (or empty)
 };
 
-/// The projection part of a plan: what apply needs to project new samples.
+/// Where a run's projection was written: plan.json names the loadings file and its SHA-256.
 struct PlanProjection {
-  const Projection* projection = nullptr;  ///< null when the run had no --components
-  std::string loadings_file;               ///< file name next to plan.json
+  std::string loadings_file = "loadings.tsv";  ///< file name next to plan.json
   std::string loadings_sha256;
-  bool center = true, scale = false;
 };
 
 /// A plan as loaded from plan.json.
@@ -66,9 +65,11 @@ struct Plan {
   Eigen::MatrixXd loadings;  ///< read from the loadings file, its SHA-256 checked
 };
 
-/// The plan.json text of a finished reduction.
-std::string plan_json(const FeatureTable& table, const Reduction& reduction, const ReduceOptions& options,
-                      const RunRecord& run, const PlanProjection& projection = {});
+/// The plan.json text of a finished run on `table` (as the run left it: names, delimiter, the
+/// samples used): the run record, the options, the steps, the kept features with what apply needs
+/// to replay them, the sample screen and, with a projection, the loadings' file and hash.
+std::string plan_json(const FeatureTable& table, const PipelineResult& result, const RunRecord& run,
+                      const PlanProjection& projection = {});
 
 /// Loads and checks plan.json (and its loadings file, whose SHA-256 must match). Throws
 /// Error(kInput) naming the file and the field on any problem.

@@ -43,12 +43,16 @@ struct Projection {
   std::string precision;            ///< precision of the products in the iterations: "double" or "float"
   int iterations = 0;               ///< Krylov blocks used (0 for dense)
   double residual = 0;              ///< largest relative Ritz residual at convergence
+  /// false when the iteration stopped at max_iterations before the tolerance: then `status` says
+  /// how far it got, and nothing else but `residual` and `iterations` is set.
+  bool converged = true;
+  std::string status;
 };
 
 /// Computes the first `options.components` components of the columns of `x` (n samples x p
 /// features, no NaN). `x` is centred and scaled in place (it is not copied); on return it holds
-/// the analysed matrix. Throws Error(kUsage) when K is out of range and Error(kOther) when the
-/// iteration does not converge.
+/// the analysed matrix. Throws Error(kUsage) when K is out of range; an iteration that does not
+/// converge is reported by Projection::converged, not thrown.
 Projection truncated_pca(MatrixRef x, const ProjectionOptions& options);
 
 /// Scores of new samples (rows of `x`, columns in the projection's feature order, no NaN):

@@ -4,6 +4,7 @@
 
 #include <cstdint>      // std::int64_t
 #include <functional>   // std::function
+#include <span>         // std::span
 #include <string_view>  // std::string_view
 #include <string>   // std::string
 #include <vector>   // std::vector
@@ -55,9 +56,26 @@ void log2_transform(FeatureTable& table, int threads = 0);
 /// (criterion_defined): such a ranking would only be the input order.
 void require_some_scored(const FeatureScores& scores, Criterion criterion, const std::string& source);
 
+/// The steps of a run, in order (SPEC §4): reading, the selection steps 1-7 and the projection.
+enum class Step : std::uint8_t {
+  kRead,
+  kMissing,     ///< 1. missing-rate filter
+  kImpute,      ///< 2. fill values learned
+  kTransform,   ///< 3. log2(x + 1)
+  kVariance,    ///< 4. variance filter
+  kRelevance,   ///< 5. ranking (and the --fdr cut)
+  kRedundancy,  ///< 6. correlation pruning
+  kTop,         ///< 7. the first K
+  kProject,     ///< 8. truncated PCA / SVD
+};
+
+/// The step's name as the outputs write it: read, missing, impute, transform, variance,
+/// relevance, redundancy, top, project.
+const char* step_name(Step step);
+
 /// What a step did: features in and out, and its wall time.
 struct StepRecord {
-  std::string name;
+  Step step = Step::kRead;
   std::int64_t in = 0;
   std::int64_t out = 0;
   double seconds = 0;
@@ -66,26 +84,59 @@ struct StepRecord {
 /// The decision about one input feature.
 struct Decision {
   bool kept = false;
-  std::string step;    ///< the step that decided: missing, variance, relevance, redundancy, top
-  std::string reason;  ///< in words, for a person
+  Step step = Step::kRead;  ///< the step that dropped it (kTop for a kept feature)
+  std::string reason;       ///< in words, for a person
   std::int64_t rank = 0;                ///< final rank when kept
   std::int64_t partner = -1;            ///< redundancy: the input index of the kept twin
 };
 
-/// The result of a reduction. Indices are input feature (column) indices.
-struct Reduction {
+/// What the selection steps share: the features still in the running and a decision for every
+/// input feature. Indices are input feature (column) indices.
+struct Selection {
+  std::vector<std::int64_t> alive;       ///< still in the running, in the current order
+  std::vector<std::int64_t> unexamined;  ///< after pruning stopped at --keep: not compared (step 7 drops them)
+  std::vector<Decision> decisions;       ///< per input feature
+  std::vector<StepRecord> steps;         ///< per step run so far
+
+  /// Marks input feature `j` dropped by `step`, with the reason in words (it must also leave `alive`).
+  void drop(std::int64_t j, Step step, std::string reason);
+};
+
+/// The result of a reduction: the selection and what the steps learned on the way.
+struct Reduction : Selection {
   std::vector<std::int64_t> kept;     ///< in final order
   std::vector<float> fill;            ///< per input feature: the fill value learned (raw scale)
   std::vector<double> center, scale;  ///< per kept feature: mean and sd of the transformed column
-  std::vector<Decision> decisions;    ///< per input feature
   std::vector<ColumnStats> raw_stats; ///< per input feature, before any transform
+  std::vector<ColumnStats> stats;     ///< per input feature: of the transformed observed values
   std::vector<double> variance;       ///< per input feature: the variance the filter saw (NaN if none)
   FeatureScores scores;               ///< the features that were scored (supervised runs)
   std::vector<std::int64_t> score_of; ///< per input feature: position in `scores`, or -1
-  std::vector<StepRecord> steps;
   bool supervised = false;
   Criterion criterion = Criterion::kVariance;
 };
+
+/// The steps, each a plain function of the table, the options and the reduction so far; reduce()
+/// runs them in order, and a caller may run them one by one (each records its StepRecord). The
+/// table's values change in place: transformed (step 3), gaps of the ranked candidates filled
+/// (before step 6), the kept columns standardised with options.scale (step 7).
+Reduction start_reduction(const FeatureTable& table, const ReduceOptions& options);
+void filter_missing(const FeatureTable& table, const ReduceOptions& options, Reduction& r);   ///< 1
+void learn_fill(const FeatureTable& table, const ReduceOptions& options, Reduction& r);       ///< 2
+void transform_step(FeatureTable& table, const ReduceOptions& options, Reduction& r);         ///< 3
+void filter_variance(const FeatureTable& table, const ReduceOptions& options, Reduction& r);  ///< 4
+void rank_relevance(const FeatureTable& table, const ReduceOptions& options, Reduction& r);   ///< 5
+void prune_redundant(FeatureTable& table, const ReduceOptions& options, Reduction& r);        ///< 6
+void take_top(FeatureTable& table, const ReduceOptions& options, Reduction& r);               ///< 7
+
+/// The column operations the steps apply, shared with apply_plan and the sample screen so that a
+/// replay computes every value the same way.
+/// Step 3 on one column: log2(x + 1) of every observed value (gaps stay gaps).
+void transform_column(std::span<float> x, bool log2);
+/// Fills every gap of `x` with transform_value(raw_fill, log2); returns how many.
+std::int64_t fill_column(std::span<float> x, float raw_fill, bool log2);
+/// (x - center) / scale, computed in double.
+void standardise_column(std::span<float> x, double center, double scale);
 
 /// A value as the transform sees it: log2(x + 1) when `log2`, else x (in double, stored as float).
 float transform_value(float x, bool log2);

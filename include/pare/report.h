@@ -13,6 +13,7 @@
 
 #include "pare/matrix.h"
 #include "pare/outliers.h"
+#include "pare/plan.h"
 #include "pare/profile.h"
 #include "pare/projection.h"
 #include "pare/reduce.h"
@@ -229,8 +230,10 @@ void add_screen(ReportData& data, const SampleScreen& screen, const std::vector<
 /// Fills the histograms of a scan from its profile.
 void add_profile(ReportData& data, const FeatureTable& table, const Profile& profile);
 
-/// Fills the run record from plan.json's text: version, command line, inputs with SHA-256,
-/// parameters and step timings.
-void add_plan_record(ReportData& data, const std::string& plan_json_text);
+/// Fills the run record of a reduce or project run: version, command line, inputs with SHA-256,
+/// the parameters and outputs as plan.json records them, and the step timings (the sample screen's
+/// second).
+void add_run_record(ReportData& data, const FeatureTable& table, const PipelineResult& result, const RunRecord& run,
+                    const PlanProjection& projection = {});
 
 }  // namespace pare

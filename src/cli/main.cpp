@@ -18,13 +18,12 @@ namespace {
 // (GLIBC_TUNABLES=glibc.malloc.hugetlb=1, glibc 2.35 and later) to ask for transparent huge pages.
 // On virtual machines every first touch of a fresh page traps to the hypervisor, and pare
 // allocates and fills hundreds of megabytes of scratch (text buffers, Krylov blocks, pair-screen
-// codes): started with the setting, `pare reduce` on 1,000 x 50,000 takes 24,000 page faults
-// instead of 55,000 and about 8% less time (performance.md). The setting can only be read at
+// codes): with the setting a large run takes half the page faults (performance.md). The setting can only be read at
 // start-up, so a process started without it starts itself again with it, once; a GLIBC_TUNABLES
 // that already names glibc.malloc.hugetlb (=0 turns it off) is left alone, as are sanitizer
 // builds and runs under valgrind (which would lose the process at the exec). So is a run with a
 // --memory budget: huge pages make it no faster and hold up to 2 MiB of a block resident where 4
-// KiB pages hold only what is touched (133 against 128 MiB peak at a quarter of 1,000 x 50,000).
+// KiB pages hold only what is touched.
 // If the exec fails, the process goes on as it is.
 void restart_with_huge_pages(int argc, char** argv) {
 #if defined(__GLIBC__) && !defined(__SANITIZE_ADDRESS__) && !defined(__SANITIZE_THREAD__)

@@ -6,8 +6,8 @@
 #include <filesystem>  // std::filesystem::is_directory
 #include <string>      // std::stod
 
-#include "internal/sha256.h"
 #include "pare/error.h"
+#include "pare/text.h"
 
 namespace pare::cli {
 
@@ -241,13 +241,6 @@ void check_input_options(const InputOptions& input, const CommonOptions& common)
                       "with rows=samples, --sample-info " + input.mark_by);
 }
 
-std::string sheet_path_of(const std::string& spec) {
-  std::error_code ec;
-  if (std::filesystem::exists(spec, ec)) return spec;
-  const auto colon = spec.rfind(':');
-  return colon == std::string::npos || colon == 0 ? spec : spec.substr(0, colon);
-}
-
 namespace {
 std::ostream* warning_stream = nullptr;
 }
@@ -255,124 +248,27 @@ std::ostream* warning_stream = nullptr;
 void set_warning_stream(std::ostream* err) { warning_stream = err; }
 
 void warn(const CommonOptions& common, const std::string& what) {
-  if (!common.quiet && warning_stream != nullptr) *warning_stream << "pare: warning: " << what << "\n";
+  if (!common.quiet && warning_stream != nullptr) *warning_stream << "pare: warning: " << cli_words(what) << "\n";
 }
 
-void require_two_classes(const FeatureTable& table, const InputOptions& input) {
-  const ClassCodes classes = encode_classes(table.labels);
-  if (classes.classes.size() >= 2) return;
-  const std::string source = input.labels.empty() ? input.data : sheet_path_of(input.labels);
-  throw_input_error({source}, "the labels (" + (table.label_name.empty() ? std::string("label") : table.label_name) +
-                                  ") have " + (classes.classes.empty() ? std::string("no class") : "one class, " + classes.classes[0]) +
-                                  " among the samples used; scoring against a label needs at least two",
-                    "check the label column, or leave out the labels to rank by variance");
+std::string cli_words(std::string_view text) { return spell_options(text, "--", '-'); }
+
+DataRequest data_request(const InputOptions& input, const CommonOptions& common, bool supervised, bool hash) {
+  DataRequest request;
+  request.path = input.data;
+  request.read = read_options_from(input, common);
+  request.labels = input.labels;
+  request.samples = input.samples;
+  request.min_class_size = input.min_class_size;
+  request.supervised = supervised;
+  request.mark_by = input.mark_by;
+  request.hash = hash;
+  return request;
 }
 
-namespace {
-
-// Warns about labels that look like a mistake: classes that differ only by spaces around the
-// name, and labels that look like a continuous measurement (many distinct numbers), which pare
-// would score as that many classes.
-void check_label_shapes(const CommonOptions& common, const FeatureTable& table) {
-  const ClassCodes codes = encode_classes(table.labels);
-  const auto trim = [](const std::string& s) {
-    const auto b = s.find_first_not_of(" \t"), e = s.find_last_not_of(" \t");
-    return b == std::string::npos ? std::string() : s.substr(b, e - b + 1);
-  };
-  for (const auto& name : codes.classes)
-    if (trim(name) != name) {
-      warn(common, "class '" + name + "' starts or ends with a space, so it is a class of its own" +
-                       (std::binary_search(codes.classes.begin(), codes.classes.end(), trim(name))
-                            ? ", apart from '" + trim(name) + "'"
-                            : std::string()) +
-                       " (check the label column)");
-      break;
-    }
-  const auto n = static_cast<std::int64_t>(table.labels.size());
-  const auto k = static_cast<std::int64_t>(codes.classes.size());
-  if (k < 10 || 5 * k < n) return;
-  for (const auto& name : codes.classes) {
-    char* end = nullptr;
-    (void)std::strtod(name.c_str(), &end);
-    if (name.empty() || end != name.c_str() + name.size()) return;
-  }
-  warn(common, "the labels are " + std::to_string(k) + " distinct numbers among " + std::to_string(n) +
-                   " samples: pare scores classes, so a continuous measurement gives a meaningless ranking "
-                   "(group it into a few classes first)");
-}
-
-// Reads the data (and the sheet, first: its mistakes show before a long read) and keeps the
-// samples of --samples. The sheet is returned for --mark-by.
-FeatureTable read_and_restrict(const InputOptions& input, const CommonOptions& common, SampleSheet& sheet,
-                               LoadedData* loaded) {
-  check_input_options(input, common);
-  const ReadOptions options = read_options_from(input, common);
-  SampleList list;
-  if (!input.samples.empty()) list = read_sample_list(input.samples);
-  if (!input.labels.empty()) {
-    sheet = read_sample_sheet(input.labels);
-    // A --mark-by column that is not a --sample-info column must be in the sheet: say so now.
-    if (!input.mark_by.empty() &&
-        std::find(options.sample_info.begin(), options.sample_info.end(), input.mark_by) == options.sample_info.end())
-      (void)sheet_column_values(sheet, input.mark_by, {});
-  }
-  FeatureTable table = read_table(input.data, options);
-  if (loaded) loaded->samples_read = table.n_samples();
-  if (!input.samples.empty()) restrict_to_list(table, list, options.memory);
-  if (!input.labels.empty()) attach_labels(table, sheet);
-  return table;
-}
-
-}  // namespace
-
-FeatureTable load_table(const InputOptions& input, const CommonOptions& common) {
-  SampleSheet sheet;
-  return read_and_restrict(input, common, sheet, nullptr);
-}
-
-LoadedData load_data(const InputOptions& input, const CommonOptions& common, bool supervised) {
-  LoadedData loaded;
-  SampleSheet sheet;
-  loaded.table = read_and_restrict(input, common, sheet, &loaded);
-  if (!input.samples.empty()) loaded.sample_list_sha256 = internal::sha256_file(input.samples);
-  FeatureTable& table = loaded.table;
-  if (supervised && table.has_labels()) {
-    const ReadOptions read = read_options_from(input, common);
-    loaded.left_out = leave_out_samples(table, input.min_class_size, read.memory);
-    const SamplesLeftOut& out = loaded.left_out;
-    if (!out.unlabelled.empty())
-      warn(common, std::to_string(out.unlabelled.size()) + " sample" + (out.unlabelled.size() == 1 ? "" : "s") +
-                       " without a label left out (" + out.unlabelled.front() +
-                       (out.unlabelled.size() > 1 ? ", ..." : "") + "; plan.json lists them)");
-    if (!out.small_class.empty()) {
-      std::string classes;
-      for (const auto& c : out.small_classes) classes += (classes.empty() ? "" : ", ") + c;
-      warn(common, std::to_string(out.small_class.size()) + " samples of classes under --min-class-size " +
-                       std::to_string(input.min_class_size) + " left out: " + classes);
-    }
-    if (!table.has_labels() || table.n_samples() == 0)
-      throw_input_error({input.labels.empty() ? input.data : sheet_path_of(input.labels)},
-                        "no sample is left with a label", "check the label column and --min-class-size");
-    check_label_shapes(common, table);
-    const auto rare = rare_classes(table, 3);
-    if (!rare.empty()) {
-      std::string names;
-      for (std::size_t k = 0; k < rare.size() && k < 10; ++k)
-        names += (k ? ", " : "") + rare[k].first + " (" + std::to_string(rare[k].second) + ")";
-      if (rare.size() > 10) names += ", ...";
-      warn(common, "class" + std::string(rare.size() == 1 ? " " : "es ") + names + " ha" +
-                       (rare.size() == 1 ? "s" : "ve") + " fewer than 3 samples: scores are computed, but say little "
-                       "about such a class (--min-class-size 3 leaves them out)");
-    }
-  }
-  if (!input.mark_by.empty()) {
-    const ReadOptions read = read_options_from(input, common);
-    const auto info = std::find(table.sample_info_names.begin(), table.sample_info_names.end(), input.mark_by);
-    if (info != table.sample_info_names.end())
-      loaded.marks = table.sample_info[static_cast<std::size_t>(info - table.sample_info_names.begin())];
-    else
-      loaded.marks = sheet_column_values(sheet, input.mark_by, table.sample_ids);
-  }
+LoadedData load_data(const DataRequest& request, const CommonOptions& common) {
+  LoadedData loaded = pare::load_data(request);
+  for (const auto& line : loaded.warnings) warn(common, line);
   return loaded;
 }
 

@@ -3,14 +3,15 @@
 
 #include <boost/program_options.hpp>
 
-#include <cstdint>           // std::int64_t, std::uint64_t
-#include <ostream>           // std::ostream
-#include <string>   // std::string
-#include <utility>  // std::pair
-#include <vector>   // std::vector
+#include <cstdint>      // std::int64_t, std::uint64_t
+#include <ostream>      // std::ostream
+#include <string>       // std::string
+#include <string_view>  // std::string_view
+#include <utility>      // std::pair
+#include <vector>       // std::vector
 
 #include "pare/io.h"
-#include "pare/samples.h"
+#include "pare/load.h"
 
 namespace pare::cli {
 
@@ -45,16 +46,6 @@ struct InputOptions {
   bool info_optional = false;       ///< --feature-info/--sample-info names the file lacks are ignored
 };
 
-/// A data file as loaded for a command: the table restricted to the chosen samples, and what was
-/// left out on the way.
-struct LoadedData {
-  FeatureTable table;
-  std::int64_t samples_read = 0;      ///< samples in the file
-  std::string sample_list_sha256;     ///< of --samples FILE, when given
-  SamplesLeftOut left_out;            ///< unlabelled / small classes (supervised commands)
-  std::vector<std::string> marks;     ///< --mark-by values, one per sample of `table` (or empty)
-};
-
 /// Parses a size such as 500M, 2G, 1.5GiB or 800000000 (bytes; K, M, G, T are powers of 1024).
 std::int64_t parse_size(const std::string& text, const char* option);
 
@@ -77,23 +68,19 @@ bool parse_command_line(const std::vector<std::string>& args, const po::options_
 /// and that --label and --labels are not both given.
 ReadOptions read_options_from(const InputOptions& input, const CommonOptions& common);
 
-/// Throws Error(kInput), naming the file the labels came from, when they hold fewer than 2 classes.
-void require_two_classes(const FeatureTable& table, const InputOptions& input);
+/// The request to load the data of a command: the file, its reading options, labels, sample list,
+/// --min-class-size, --mark-by; `supervised` leaves out unlabelled samples and small classes.
+DataRequest data_request(const InputOptions& input, const CommonOptions& common, bool supervised, bool hash = true);
 
-/// Reads the data file, attaches labels from --labels when given and keeps the --samples.
-FeatureTable load_table(const InputOptions& input, const CommonOptions& common);
-
-/// load_table, then for a supervised command (`supervised`) leaves out the samples without a label
-/// and those of classes under --min-class-size, and warns (on the warning stream, unless quiet)
-/// about classes of fewer than 3 samples; collects the --mark-by values.
-LoadedData load_data(const InputOptions& input, const CommonOptions& common, bool supervised);
+/// pare::load_data, printing its warnings (unless quiet).
+LoadedData load_data(const DataRequest& request, const CommonOptions& common);
 
 /// Checks the options of InputOptions that need no file: layout, delimiter, --na, --threads,
 /// --memory, --min-class-size, and which options go together. Called before any data is read.
 void check_input_options(const InputOptions& input, const CommonOptions& common);
 
-/// The path of a sample sheet given as FILE[:COLUMN].
-std::string sheet_path_of(const std::string& spec);
+/// Library text with its options spelled as the command line spells them (`max_corr` -> --max-corr).
+std::string cli_words(std::string_view text);
 
 /// Where warnings go ("pare: warning: ..." lines); set by run() to its error stream.
 void set_warning_stream(std::ostream* err);

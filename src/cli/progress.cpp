@@ -3,7 +3,7 @@
 #include <chrono>  // std::chrono::steady_clock
 #include <cmath>   // std::round
 
-#include "cli/text.h"
+#include "pare/text.h"
 
 namespace pare::cli {
 

@@ -23,7 +23,7 @@
 #include <cstdint>  // std::int32_t, std::uint8_t
 #include <vector>   // std::vector
 
-#include "internal/buffer.h"
+#include "internal/growable_buffer.h"
 
 namespace pare::internal {
 
@@ -120,7 +120,8 @@ float screen_bound(const ScreenKept& kept, Eigen::Index k, const ScreenBlock& bl
 /// |z_k,R2| |z_b,R2|.
 float screen_second_bound(const ScreenKept& kept, const ScreenBlock& block, Eigen::Index b, const ScreenHit& hit);
 
-/// Whether screen_pairs uses the VNNI kernel; `allow = false` forces the portable loop (for tests).
+/// Whether screen_pairs uses the VNNI kernel: on a processor with AVX-512 VNNI while the AVX-512
+/// kernels run (kernels::active_level); `allow = false` forces the portable loop (for tests).
 bool screen_uses_vnni();
 void screen_allow_vnni(bool allow);
 

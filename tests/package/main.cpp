@@ -10,6 +10,8 @@
 #include <string>    // std::string, std::getline
 #include <vector>    // std::vector
 
+#include <pare/pipeline.h>
+#include <pare/plan.h>
 #include <pare/reduce.h>
 
 int main() {
@@ -47,6 +49,7 @@ int main() {
   pare::ReduceOptions options;
   options.rank_by = pare::Criterion::kF;
   options.keep = 3;
+  const pare::FeatureTable copy = table;  // reduce() changes the values it keeps
   const pare::Reduction r = pare::reduce(table, options);
 
   int failed = 0;
@@ -67,6 +70,16 @@ int main() {
   // The largest F ranks first (scipy: flavanoids, column 7).
   check(!r.kept.empty() && r.kept.front() == 6, "flavanoids ranks first by F");
   check(!pare::selection_log_tsv(table, r).empty(), "the selection log is written");
+  // The same selection as one run with a projection (pipeline.h), its plan written (plan.h).
+  pare::FeatureTable run_table = copy;
+  pare::PipelineOptions run_options;
+  run_options.reduce = options;
+  run_options.projection.components = 2;
+  const pare::PipelineResult result = pare::run_pipeline(run_table, run_options);
+  check(result.reduction.kept == r.kept, "run_pipeline keeps the same features as reduce");
+  check(result.projection && result.projection->scores.cols() == 2, "run_pipeline projects on 2 components");
+  check(pare::plan_json(run_table, result, pare::RunRecord{}).find("\"pare_plan\"") != std::string::npos,
+        "plan.json is written from the result");
   std::cout << (failed ? "package consumer: FAILED\n" : "package consumer: passed\n");
   return failed ? 1 : 0;
 }

@@ -1,4 +1,5 @@
-// Keeping the resident size of a matrix on disk bounded (see pare::Columns).
+// The cache files behind pare::Columns (src/columns.cpp), and keeping the resident size of a matrix
+// on disk bounded while its columns are walked.
 #pragma once
 
 #include <algorithm>  // std::max, std::min

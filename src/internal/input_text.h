@@ -1,6 +1,5 @@
-// Large memory regions mapped directly (so the kernel can back them with 2 MiB pages) and input
-// files mapped rather than copied. Page faults are costly on virtual machines; a 400 MB buffer
-// faulted in 4 KiB pages takes 100,000 of them, in 2 MiB pages 200.
+// The whole text of an input file: a plain file mapped rather than copied, or the inflated text
+// of a gzip file.
 #pragma once
 
 #include <cstddef>      // std::size_t
@@ -10,32 +9,9 @@
 
 #include "pare/matrix.h"
 
+#include "internal/growable_buffer.h"
+
 namespace pare::internal {
-
-/// Asks the kernel to back [data, data + bytes) with transparent huge pages (a hint; ignored when
-/// unsupported). Call before the memory is first touched.
-void advise_huge_pages(void* data, std::size_t bytes);
-
-/// An anonymous mapping that grows (by mremap) without copying through user space.
-class GrowableBuffer {
- public:
-  GrowableBuffer() = default;
-  GrowableBuffer(GrowableBuffer&& other) noexcept;
-  GrowableBuffer& operator=(GrowableBuffer&& other) noexcept;
-  GrowableBuffer(const GrowableBuffer&) = delete;
-  GrowableBuffer& operator=(const GrowableBuffer&) = delete;
-  ~GrowableBuffer();
-
-  /// Makes the capacity at least `bytes` (contents kept).
-  void reserve(std::size_t bytes);
-  char* data() { return data_; }
-  const char* data() const { return data_; }
-  std::size_t capacity() const { return capacity_; }
-
- private:
-  char* data_ = nullptr;
-  std::size_t capacity_ = 0;
-};
 
 /// The whole text of an input file: a read-only mapping of a plain file, or the inflated content of
 /// a gzip file.
@@ -75,6 +51,15 @@ class InputText {
 
  private:
   InputText() = default;
+  // The steps of open: the file's bytes as they are (mapped, or read from a pipe), then for a
+  // gzip file its text inflated into a cache file, or in memory by a thread of its own.
+  static InputText read_bytes(const std::string& path, int fd, bool regular, std::size_t size,
+                              std::size_t memory_cap);
+  static InputText inflate_to_cache(const InputText& compressed, const std::string& path,
+                                    const MemoryBudget& budget);
+  static InputText inflate_in_memory(InputText compressed, const std::string& path,
+                                     std::size_t memory_cap);
+
   void* map_ = nullptr;  // file mapping, when the file is plain text
   std::size_t map_size_ = 0;
   GrowableBuffer inflated_;  // inflated text, when the file is gzip

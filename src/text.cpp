@@ -1,10 +1,10 @@
-#include "cli/text.h"
+#include "pare/text.h"
 
 #include <algorithm>  // std::max
 #include <cmath>      // std::isinf, std::abs
 #include <cstdio>     // std::snprintf
 
-namespace pare::cli {
+namespace pare {
 
 std::string thousands(std::int64_t v) {
   std::string digits = std::to_string(v < 0 ? -v : v);
@@ -27,21 +27,12 @@ std::string percent(double fraction) {
   return fixed(100.0 * fraction, fraction > 0 && fraction < 0.001 ? 3 : 1) + "%";
 }
 
-const char* layout_name(Layout l) {
-  return l == Layout::kRowsAreSamples ? "rows=samples" : "rows=features";
-}
-
 const char* delimiter_name(char d) {
   return d == '\t' ? "tab" : d == ';' ? "semicolon" : "comma";
 }
 
 double seconds_since(std::chrono::steady_clock::time_point start) {
   return std::chrono::duration<double>(std::chrono::steady_clock::now() - start).count();
-}
-
-std::string join_path(const std::string& dir, const std::string& name) {
-  if (dir.empty() || dir == ".") return name;
-  return dir.back() == '/' ? dir + name : dir + "/" + name;
 }
 
 std::string short_number(double v) {
@@ -55,9 +46,8 @@ std::string short_number(double v) {
   return buffer;
 }
 
-// Prints rows as a table, each column padded to its widest cell; the first `left` columns are
-// left-aligned, the rest right-aligned.
-void print_table(std::ostream& out, const std::vector<std::vector<std::string>>& rows, std::size_t left) {
+std::string table_text(const std::vector<std::vector<std::string>>& rows, std::size_t left) {
+  std::string out;
   std::vector<std::size_t> width;
   for (const auto& row : rows)
     for (std::size_t c = 0; c < row.size(); ++c) {
@@ -65,13 +55,39 @@ void print_table(std::ostream& out, const std::vector<std::vector<std::string>>&
       width[c] = std::max(width[c], row[c].size());
     }
   for (const auto& row : rows) {
-    out << " ";
+    out += " ";
     for (std::size_t c = 0; c < row.size(); ++c) {
       const std::string pad(width[c] - row[c].size(), ' ');
-      out << "  " << (c < left ? row[c] + pad : pad + row[c]);
+      out += "  " + (c < left ? row[c] + pad : pad + row[c]);
     }
-    out << "\n";
+    out += "\n";
   }
+  return out;
 }
 
-}  // namespace pare::cli
+std::string spell_options(std::string_view text, std::string_view prefix, char separator) {
+  std::string out;
+  out.reserve(text.size());
+  std::size_t at = 0;
+  while (at < text.size()) {
+    const std::size_t open = text.find('`', at);
+    const std::size_t close = open == std::string_view::npos ? open : text.find('`', open + 1);
+    if (close == std::string_view::npos) break;
+    const std::string_view name = text.substr(open + 1, close - open - 1);
+    bool is_name = !name.empty();
+    for (const char c : name) is_name = is_name && ((c >= 'a' && c <= 'z') || (c >= '0' && c <= '9') || c == '_');
+    out.append(text.substr(at, open - at));
+    if (is_name) {
+      out.append(prefix);
+      for (const char c : name) out += c == '_' ? separator : c;
+      at = close + 1;
+    } else {
+      out += '`';
+      at = open + 1;
+    }
+  }
+  out.append(text.substr(at));
+  return out;
+}
+
+}  // namespace pare
