@@ -69,7 +69,7 @@ int make_cache_file(const std::string& folder) {
   if (fd < 0) {
     const int err = errno;
     throw Error(ErrorKind::kOutput, dir + ": cannot create a cache file: " + std::strerror(err) +
-                                        " (give a writable folder with --cache-dir, or raise --memory)");
+                                        " (give a writable folder with `cache_dir`, or raise `memory`)");
   }
   // Unlinked at once: the file lives as long as it is open or mapped and vanishes with the
   // process, however the process ends.
@@ -117,7 +117,7 @@ class ColumnStorage {
       const int err = errno;
       ::close(fd);
       throw Error(ErrorKind::kOutput, dir + ": cannot size a cache file of " + std::to_string(bytes) +
-                                          " bytes: " + std::strerror(err) + " (free some space or use --cache-dir)");
+                                          " bytes: " + std::strerror(err) + " (free some space or use `cache_dir`)");
     }
     void* p = ::mmap(nullptr, std::max<std::size_t>(bytes, 1), PROT_READ | PROT_WRITE, MAP_SHARED, fd, 0);
     const int err = errno;

@@ -44,7 +44,7 @@ std::size_t gunzip_into(std::string_view compressed, const std::string& path, Gr
       if (put < 0 && errno == EINTR) continue;
       if (put <= 0)
         throw Error(ErrorKind::kOutput, path + ": cannot write its inflated text to the cache file: " +
-                                            std::strerror(errno) + " (free some space or use --cache-dir)");
+                                            std::strerror(errno) + " (free some space or use `cache_dir`)");
       done += static_cast<std::size_t>(put);
     }
     flushed += bytes;
@@ -76,7 +76,7 @@ std::size_t gunzip_into(std::string_view compressed, const std::string& path, Gr
                         std::string("the gzip data inflates past ") + size + " (" + limit_name + ") after " +
                             std::to_string(compressed.size() - left) + " compressed bytes",
                         "a small file that inflates this far is most likely a decompression bomb; if the file is "
-                        "genuine, give (a larger) --memory");
+                        "genuine, give (a larger) `memory`");
     }
     if (spill_fd >= 0 && produced >= kWindow) {
       write_out(produced);

@@ -137,7 +137,7 @@ InputText InputText::read_bytes(const std::string& path, int fd, bool regular, s
       ::close(fd);
       throw_input_error(
           {path}, "reading it would take more than the memory available (" + gib(memory_cap) + ")",
-          "save it to a file and give --memory SIZE");
+          "save it to a file and give `memory` SIZE");
     }
     if (have == text.inflated_.capacity())
       text.inflated_.reserve(std::max<std::size_t>(have * 2, 1 << 21));
@@ -170,7 +170,7 @@ InputText InputText::inflate_to_cache(const InputText& compressed, const std::st
       const std::size_t cap =
           std::min(static_cast<std::size_t>(budget.bytes) * 256, free_space(budget.cache_dir));
       size = gunzip_into(compressed.view(), path, window, cache, cap,
-                         "256 times --memory or the free space of the cache folder");
+                         "256 times `memory` or the free space of the cache folder");
     } catch (...) {
       ::close(cache);
       throw;

@@ -457,7 +457,7 @@ std::int64_t label_field_of(const std::string& path, const Header& h, const Read
     if (h.fields[j] == options.label_column) return static_cast<std::int64_t>(j);
   if (!options.label_optional)
     throw_input_error({path, 1},
-                      "no column named " + in_quotes(options.label_column) + " for --label",
+                      "no column named " + in_quotes(options.label_column) + " for `label`",
                       header_names_hint(h.fields));
   return -1;
 }
@@ -529,7 +529,7 @@ FeatureTable read_rows_are_samples(const std::string& path, const internal::Inpu
   const auto n_fields = static_cast<std::int64_t>(h.fields.size());
   const std::int64_t label_field = label_field_of(path, h, options);
   const std::vector<std::int64_t> info =
-      info_fields(path, h, options.sample_info, "--sample-info", options.info_optional);
+      info_fields(path, h, options.sample_info, "`sample_info`", options.info_optional);
   FeatureTable t;
   t.source = path;
   t.delimiter = h.delimiter;
@@ -624,8 +624,8 @@ struct FeatureRecords {
     }
     if (label_line == 0) t.label_name.clear();  // (an optional label line that is not there)
     if (!label_row.empty() && label_line == 0 && !options.label_optional)
-      throw_input_error({path}, "no line starts with " + in_quotes(label_row) + " for --label",
-                        "with --layout rows=features the labels are a line whose first field is "
+      throw_input_error({path}, "no line starts with " + in_quotes(label_row) + " for `label`",
+                        "with `layout` rows=features the labels are a line whose first field is "
                         "that name");
   }
 
@@ -683,11 +683,11 @@ FeatureTable read_rows_are_features(const std::string& path, const internal::Inp
   const NaTokens na(options.na_tokens);
   const auto n_fields = static_cast<std::int64_t>(h.fields.size());
   const std::vector<std::int64_t> info =
-      info_fields(path, h, options.feature_info, "--feature-info", options.info_optional);
+      info_fields(path, h, options.feature_info, "`feature_info`", options.info_optional);
   const std::int64_t n = n_fields - 1 - static_cast<std::int64_t>(info.size());
   if (n <= 0)
     throw_input_error({path, 1}, "the header names no sample columns",
-                      "with --layout rows=features the header lists the sample ids");
+                      "with `layout` rows=features the header lists the sample ids");
 
   FeatureTable t;
   t.source = path;
@@ -724,12 +724,12 @@ FeatureTable read_rows_are_features(const std::string& path, const internal::Inp
 void check_info_options(const ReadOptions& options) {
   const bool by_sample = options.layout == Layout::kRowsAreSamples;
   if (by_sample && !options.feature_info.empty())
-    throw_usage_error("--feature-info is for --layout rows=features (a feature per line)",
-                      "with rows=samples, text columns describing the samples are --sample-info COLUMNS");
+    throw_usage_error("`feature_info` is for `layout` rows=features (a feature per line)",
+                      "with rows=samples, text columns describing the samples are `sample_info` COLUMNS");
   if (!by_sample && !options.sample_info.empty())
-    throw_usage_error("--sample-info is for --layout rows=samples (a sample per line)",
-                      "with rows=features, text columns describing the features are --feature-info COLUMNS");
-  const char* option = by_sample ? "--sample-info" : "--feature-info";
+    throw_usage_error("`sample_info` is for `layout` rows=samples (a sample per line)",
+                      "with rows=features, text columns describing the features are `feature_info` COLUMNS");
+  const char* option = by_sample ? "`sample_info`" : "`feature_info`";
   const std::vector<std::string>& names = by_sample ? options.sample_info : options.feature_info;
   for (std::size_t i = 0; i < names.size(); ++i) {
     if (names[i].empty())
@@ -738,8 +738,8 @@ void check_info_options(const ReadOptions& options) {
         names.begin() + static_cast<std::ptrdiff_t>(i))
       throw_usage_error(std::string(option) + " names " + in_quotes(names[i]) + " twice", "give each column once");
     if (by_sample && names[i] == options.label_column)
-      throw_usage_error(std::string(option) + " names " + in_quotes(names[i]) + ", the --label column",
-                        "the labels are carried already; leave it out of --sample-info");
+      throw_usage_error(std::string(option) + " names " + in_quotes(names[i]) + ", the `label` column",
+                        "the labels are carried already; leave it out of `sample_info`");
   }
 }
 

@@ -56,18 +56,18 @@ void fail_cell(Failure& f, CellStatus status, std::int64_t line, const char* lin
       fail(f, line, column,
            "column " + in_quotes(header_name) + " holds text (" + cell_text(begin, end) + " on line " +
                std::to_string(line) + "), not numbers",
-           "pass --label " + header_name + " if it holds the classes, or --sample-info " + header_name +
+           "pass `label` " + header_name + " if it holds the classes, or `sample_info` " + header_name +
                " to carry it into samples.tsv");
     } else if (mostly_text_line(line_begin, line_end, delim)) {
       fail(f, line, column,
            "line " + in_quotes(column_name) + " holds text (" + cell_text(begin, end) + " in column " +
                in_quotes(header_name) + "), not numbers",
-           "pass --label " + column_name + " if it holds the classes");
+           "pass `label` " + column_name + " if it holds the classes");
     } else {
       fail(f, line, column,
            "column " + in_quotes(header_name) + " holds text (" + cell_text(begin, end) + " on line " +
                std::to_string(line) + "), not numbers",
-           "pass --feature-info " + header_name +
+           "pass `feature_info` " + header_name +
                " if it describes the features, e.g. gene symbols or chromosomes");
     }
     return;
@@ -80,7 +80,7 @@ void fail_cell(Failure& f, CellStatus status, std::int64_t line, const char* lin
   } else if (status == CellStatus::kInfinite) {
     fail(f, line, column,
          "infinite value " + cell_text(begin, end) + " in column " + in_quotes(column_name),
-         "pass --allow-inf to accept infinite values, or fix the export");
+         "pass `allow_inf` to accept infinite values, or fix the export");
   } else {
     // A decimal comma (European spreadsheets, semicolon-separated): digits, one comma, digits.
     const std::string_view cell(begin, static_cast<std::size_t>(end - begin));
@@ -96,7 +96,7 @@ void fail_cell(Failure& f, CellStatus status, std::int64_t line, const char* lin
          "cannot read " + cell_text(begin, end) + " in column " + in_quotes(column_name) +
              " as a number",
          decimal_comma ? "pare reads a decimal point: export the numbers with '.' as the decimal separator"
-                       : "missing values must be one of: " + na.describe() + "; --na sets the list");
+                       : "missing values must be one of: " + na.describe() + "; `na` sets the list");
   }
 }
 

@@ -132,8 +132,10 @@ MatD gram_wide_float(const ConstMatrixRef& x, int threads) {
     const Index w = std::min(kGramPiece, p - c0);
     const kernels::Operand piece = columns_of(x, c0);  // n x w
 #pragma omp parallel for schedule(dynamic, 1) num_threads(threads)
-    for (Index s = 0; s < stripes; ++s) {
-      // Stripe s: rows r0..r1 of the lower triangle, columns 0..r1.
+    for (Index task = 0; task < stripes; ++task) {
+      // Stripe s: rows r0..r1 of the lower triangle, columns 0..r1; the longest first, so the
+      // threads finish together.
+      const Index s = stripes - 1 - task;
       const Index r0 = s * kGramStripe, r1 = std::min(n, r0 + kGramStripe), h = r1 - r0;
       MatF part(h, r1);
       kernels::Operand rows = piece;
@@ -325,7 +327,7 @@ Projection truncated_pca(MatrixRef x, const ProjectionOptions& o) {
   const Index k = o.components;
   if (n < 2) throw_usage_error("PCA needs at least 2 samples");
   if (k < 1 || k > m)
-    throw_usage_error("--components " + std::to_string(k) + " is out of range",
+    throw_usage_error("`components` " + std::to_string(k) + " is out of range",
                       "it must be between 1 and min(samples, features) = " + std::to_string(m));
   const int threads = internal::thread_count(o.threads);
   Projection out;

@@ -52,7 +52,7 @@ std::string size_text(std::int64_t bytes) {
 PruneResult prune_correlated(const ConstMatrixRef& m, std::span<const std::int64_t> candidates,
                              const PruneOptions& options) {
   if (!(options.max_corr >= 0 && options.max_corr <= 1))
-    throw_usage_error("--max-corr must be between 0 and 1");
+    throw_usage_error("`max_corr` must be between 0 and 1");
   const Eigen::Index n = m.rows();
   const auto count = static_cast<std::int64_t>(candidates.size());
   const double limit = options.max_corr;
@@ -217,9 +217,9 @@ PruneResult prune_correlated(const ConstMatrixRef& m, std::span<const std::int64
       if (need > options.memory_budget)
         throw Error(ErrorKind::kUsage,
                     "correlation pruning needs its " + std::to_string(n_kept) + " kept features in memory (" +
-                        size_text(need) + " with the block being compared), more than --memory allows (" +
+                        size_text(need) + " with the block being compared), more than `memory` allows (" +
                         size_text(options.memory_budget) +
-                        "); raise --memory, cap the kept set with --keep, or prune harder with a lower --max-corr");
+                        "); raise `memory`, cap the kept set with `keep`, or prune harder with a lower `max_corr`");
     }
     std::vector<char> dropped(static_cast<std::size_t>(width), 0);
     if (n_kept > 0 && bounded) {

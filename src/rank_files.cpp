@@ -240,8 +240,8 @@ std::string rank_summary(const FeatureTable& table, const RankOptions& options, 
                                  short_number(scores.mi[i]), short_number(scores.chi2[i]),
                                  short_number(scores.chi2_q[i]), short_number(scores.f[i]), short_number(scores.f_q[i])};
     if (counts) {
-      row.push_back(short_number(scores.counts[i]));
-      row.push_back(short_number(scores.counts_q[i]));
+      row.push_back(short_number(scores.chi2_counts[i]));
+      row.push_back(short_number(scores.chi2_counts_q[i]));
     }
     rows.push_back(std::move(row));
   }

@@ -43,7 +43,7 @@ Criterion parse_criterion(const std::string& name) {
   if (name == "chi2-counts") return Criterion::kChi2Counts;
   if (name == "f") return Criterion::kF;
   if (name == "variance") return Criterion::kVariance;
-  throw_usage_error("--rank-by " + name + " is not one of mi, chi2, chi2-counts, f, variance");
+  throw_usage_error("`rank_by` " + name + " is not one of mi, chi2, chi2-counts, f, variance");
 }
 
 const char* criterion_name(Criterion c) {
@@ -511,8 +511,8 @@ FeatureScores score_features(const ConstMatrixRef& m, std::span<const std::int64
     throw Error(ErrorKind::kInput,
                 "the labels have " + std::to_string(k) + " class" + (k == 1 ? " (" + classes.classes[0] + ")" : "") +
                     "; scoring against a label needs at least two (check the label column)");
-  if (options.bins < 2) throw_usage_error("--bins must be 2 or more");
-  if (options.neighbors < 1) throw_usage_error("--neighbors must be 1 or more");
+  if (options.bins < 2) throw_usage_error("`bins` must be 2 or more");
+  if (options.neighbors < 1) throw_usage_error("`neighbors` must be 1 or more");
   if (static_cast<std::int64_t>(classes.codes.size()) != m.rows())
     throw Error(ErrorKind::kOther, "internal: one class code per sample expected");
   if (!stats.empty() && stats.size() != features.size())
@@ -571,10 +571,10 @@ FeatureScores score_features(const ConstMatrixRef& m, std::span<const std::int64
   out.f_q = bh_adjust(out.f_p);
   out.f_bonferroni = bonferroni_adjust(out.f_p);
   if (options.counts_chi2) {
-    out.counts = take(&Result::counts);
-    out.counts_p = take(&Result::counts_p);
-    out.counts_q = bh_adjust(out.counts_p);
-    out.counts_bonferroni = bonferroni_adjust(out.counts_p);
+    out.chi2_counts = take(&Result::counts);
+    out.chi2_counts_p = take(&Result::counts_p);
+    out.chi2_counts_q = bh_adjust(out.chi2_counts_p);
+    out.chi2_counts_bonferroni = bonferroni_adjust(out.chi2_counts_p);
   }
   return out;
 }
@@ -583,7 +583,7 @@ double criterion_score(const FeatureScores& s, Criterion c, std::size_t i) {
   switch (c) {
     case Criterion::kMi: return s.mi[i];
     case Criterion::kChi2: return s.chi2[i];
-    case Criterion::kChi2Counts: return s.counts.empty() ? 0.0 : s.counts[i];
+    case Criterion::kChi2Counts: return s.chi2_counts.empty() ? 0.0 : s.chi2_counts[i];
     case Criterion::kF: return s.f[i];
     case Criterion::kVariance: break;
   }
@@ -594,7 +594,7 @@ double criterion_q(const FeatureScores& s, Criterion c, std::size_t i) {
   switch (c) {
     case Criterion::kMi:
     case Criterion::kChi2: return s.chi2_q[i];
-    case Criterion::kChi2Counts: return s.counts_q.empty() ? 1.0 : s.counts_q[i];
+    case Criterion::kChi2Counts: return s.chi2_counts_q.empty() ? 1.0 : s.chi2_counts_q[i];
     case Criterion::kF: return s.f_q[i];
     case Criterion::kVariance: break;
   }
@@ -670,13 +670,13 @@ std::string ranking_tsv(const FeatureScores& s, std::span<const std::size_t> ord
     num(s.variance[i]);
     num(s.missing_rate[i]);
     if (with_counts) {
-      num(s.counts[i]);
-      num(s.counts_p[i]);
-      num(s.counts_q[i]);
+      num(s.chi2_counts[i]);
+      num(s.chi2_counts_p[i]);
+      num(s.chi2_counts_q[i]);
     }
     num(s.chi2_bonferroni[i]);
     num(s.f_bonferroni[i]);
-    if (with_counts) num(s.counts_bonferroni[i]);
+    if (with_counts) num(s.chi2_counts_bonferroni[i]);
     out += '\t' + std::to_string(s.chi2_df[i]) + '\t' + std::to_string(s.feature[i] + 1) + '\t' +
            score_flag_names(s.flags[i]) + '\n';
   }

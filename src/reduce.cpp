@@ -442,7 +442,7 @@ void append_tab_number(std::string& out, double v) {
 }  // namespace
 
 std::string selection_log_tsv(const FeatureTable& t, const Reduction& r) {
-  const bool counts = !r.scores.counts.empty();
+  const bool counts = !r.scores.chi2_counts.empty();
   std::string out = "feature";
   for (const auto& name : t.feature_info_names) {  // --feature-info columns, right after feature
     out += '\t';
@@ -476,7 +476,7 @@ std::string selection_log_tsv(const FeatureTable& t, const Reduction& r) {
     }
     if (counts) {
       if (pos >= 0) {
-        for (double v : {r.scores.counts[ps], r.scores.counts_p[ps], r.scores.counts_q[ps]}) append_tab_number(out, v);
+        for (double v : {r.scores.chi2_counts[ps], r.scores.chi2_counts_p[ps], r.scores.chi2_counts_q[ps]}) append_tab_number(out, v);
       } else {
         out += "\tNA\tNA\tNA";
       }
@@ -493,7 +493,7 @@ std::string reduction_ranking_tsv(const FeatureTable& t, const Reduction& r) {
     std::vector<std::size_t> order;
     order.reserve(r.kept.size());
     for (const std::int64_t j : r.kept) order.push_back(static_cast<std::size_t>(r.score_of[static_cast<std::size_t>(j)]));
-    return ranking_tsv(r.scores, order, t.feature_names, !r.scores.counts.empty(), t.feature_info_names,
+    return ranking_tsv(r.scores, order, t.feature_names, !r.scores.chi2_counts.empty(), t.feature_info_names,
                        t.feature_info);
   }
   std::string out = "rank\tfeature";

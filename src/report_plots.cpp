@@ -31,7 +31,7 @@ const std::vector<double>* criterion_p(const FeatureScores& s, Criterion c) {
     case Criterion::kF:
       return &s.f_p;
     case Criterion::kChi2Counts:
-      return &s.counts_p;
+      return &s.chi2_counts_p;
     case Criterion::kVariance:
       break;
   }

@@ -299,7 +299,7 @@ TEST_CASE("wine as a feature-per-line export with annotation columns, and per sa
   } catch (const pare::Error& e) {
     REQUIRE(e.kind() == pare::ErrorKind::kInput);
     REQUIRE(std::string(e.what()) ==
-            path + ":3:9: column \"symbol\" holds text (\"WN100\" on line 3), not numbers (pass --feature-info "
+            path + ":3:9: column \"symbol\" holds text (\"WN100\" on line 3), not numbers (pass `feature_info` "
                    "symbol if it describes the features, e.g. gene symbols or chromosomes)");
   }
   // And per sample without --sample-info: the batch column ("w1<TAB>" is 3 bytes).
@@ -312,8 +312,8 @@ TEST_CASE("wine as a feature-per-line export with annotation columns, and per sa
   } catch (const pare::Error& e) {
     REQUIRE(e.kind() == pare::ErrorKind::kInput);
     REQUIRE(std::string(e.what()) ==
-            samples_path + ":2:4: column \"batch\" holds text (\"plate1\" on line 2), not numbers (pass --label "
-                           "batch if it holds the classes, or --sample-info batch to carry it into samples.tsv)");
+            samples_path + ":2:4: column \"batch\" holds text (\"plate1\" on line 2), not numbers (pass `label` "
+                           "batch if it holds the classes, or `sample_info` batch to carry it into samples.tsv)");
   }
 }
 
@@ -364,7 +364,7 @@ TEST_CASE("annotation columns in a gzip export of several read chunks, parsed wh
       REQUIRE(std::string(e.what()) ==
               file + ":" + line + ":" + std::to_string(last.size()) + ": cannot read \"many\" in column "
                      "\"w800_proline\" as a number (missing values must be one of: an empty field, ?, NA, NaN, nan, "
-                     "null; --na sets the list)");
+                     "null; `na` sets the list)");
     }
   }
 }

@@ -420,7 +420,7 @@ TEST_CASE("label column in rows=samples and a label line in rows=features", "[io
   const std::string message =
       error_of([&] { pare::read_table(features, options(Layout::kRowsAreFeatures)); });
   REQUIRE(message == features + ":3:7: line \"group\" holds text (\"wet\" in column \"s1\"), not numbers "
-                                "(pass --label group if it holds the classes)");
+                                "(pass `label` group if it holds the classes)");
 }
 
 TEST_CASE("sample sheet FILE:COLUMN, attached by id in another order", "[io]") {
@@ -707,21 +707,21 @@ TEST_CASE("a text cell names its column and the option that takes it", "[io]") {
   // rows=samples: "s1,1," is 5 bytes, so the text starts at column 6.
   const auto samples = dir.write("text.csv", "id,a,batch\ns1,1,plate1\ns2,2,plate2\n");
   REQUIRE(error_of([&] { pare::read_table(samples, options()); }) ==
-          samples + ":2:6: column \"batch\" holds text (\"plate1\" on line 2), not numbers (pass --label batch if "
-                    "it holds the classes, or --sample-info batch to carry it into samples.tsv)");
+          samples + ":2:6: column \"batch\" holds text (\"plate1\" on line 2), not numbers (pass `label` batch if "
+                    "it holds the classes, or `sample_info` batch to carry it into samples.tsv)");
   // rows=features: a text column of the header is an annotation column.
   const auto features = dir.write("text-f.csv", "feature,s1,symbol,s2\ng1,1,TP53,2\ng2,3,MYC,4\n");
   REQUIRE(error_of([&] { pare::read_table(features, options(Layout::kRowsAreFeatures)); }) ==
-          features + ":2:6: column \"symbol\" holds text (\"TP53\" on line 2), not numbers (pass --feature-info "
+          features + ":2:6: column \"symbol\" holds text (\"TP53\" on line 2), not numbers (pass `feature_info` "
                      "symbol if it describes the features, e.g. gene symbols or chromosomes)");
   // Text further down a column of numbers is a stray cell, not a text column: the old message.
   const auto stray = dir.write("stray-f.csv", "feature,s1,s2\ng1,1,2\ng2,abc,3\n");
   REQUIRE(error_of([&] { pare::read_table(stray, options(Layout::kRowsAreFeatures)); }) ==
           stray + ":3:4: cannot read \"abc\" in column \"g2\" as a number (missing values must be one of: an empty "
-                  "field, ?, NA, NaN, nan, null; --na sets the list)");
+                  "field, ?, NA, NaN, nan, null; `na` sets the list)");
   // A number-shaped bad cell, or a gap spelled in a way --na does not list, keeps the old message.
   const std::string hint = " as a number (missing values must be one of: an empty field, ?, NA, NaN, nan, null; "
-                           "--na sets the list)";
+                           "`na` sets the list)";
   const auto number = dir.write("number.csv", "id,a\ns1,1.2.3\n");
   REQUIRE(error_of([&] { pare::read_table(number, options()); }) ==
           number + ":2:4: cannot read \"1.2.3\" in column \"a\"" + hint);
@@ -734,7 +734,7 @@ TEST_CASE("a text cell names its column and the option that takes it", "[io]") {
   custom.na_tokens = {"-999"};
   const auto na = dir.write("na.csv", "id,a\ns1,NA\n");
   REQUIRE(error_of([&] { pare::read_table(na, custom); }) ==
-          na + ":2:4: cannot read \"NA\" in column \"a\" as a number (missing values must be one of: -999; --na "
+          na + ":2:4: cannot read \"NA\" in column \"a\" as a number (missing values must be one of: -999; `na` "
                "sets the list)");
 }
 
@@ -804,7 +804,7 @@ TEST_CASE("io: --feature-info and --sample-info: text columns in either layout",
   // Only text columns: no samples left.
   const auto only = dir.write("only.csv", "feature,symbol\ng1,TP53\n");
   REQUIRE(error_of([&] { pare::read_table(only, l); }) ==
-          only + ":1: the header names no sample columns (with --layout rows=features the header lists the "
+          only + ":1: the header names no sample columns (with `layout` rows=features the header lists the "
                  "sample ids)");
 }
 
@@ -815,48 +815,48 @@ TEST_CASE("io: --feature-info and --sample-info: each mistake gets its own messa
   ReadOptions wrong_layout = options();
   wrong_layout.feature_info = {"symbol"};
   REQUIRE(error_of([&] { pare::read_table(absent, wrong_layout); }, pare::ErrorKind::kUsage) ==
-          "--feature-info is for --layout rows=features (a feature per line) (with rows=samples, text columns "
-          "describing the samples are --sample-info COLUMNS)");
+          "`feature_info` is for `layout` rows=features (a feature per line) (with rows=samples, text columns "
+          "describing the samples are `sample_info` COLUMNS)");
   ReadOptions wrong_layout_f = options(Layout::kRowsAreFeatures);
   wrong_layout_f.sample_info = {"batch"};
   REQUIRE(error_of([&] { pare::read_table(absent, wrong_layout_f); }, pare::ErrorKind::kUsage) ==
-          "--sample-info is for --layout rows=samples (a sample per line) (with rows=features, text columns "
-          "describing the features are --feature-info COLUMNS)");
+          "`sample_info` is for `layout` rows=samples (a sample per line) (with rows=features, text columns "
+          "describing the features are `feature_info` COLUMNS)");
   ReadOptions twice = options(Layout::kRowsAreFeatures);
   twice.feature_info = {"symbol", "chrom", "symbol"};
   REQUIRE(error_of([&] { pare::read_table(absent, twice); }, pare::ErrorKind::kUsage) ==
-          "--feature-info names \"symbol\" twice (give each column once)");
+          "`feature_info` names \"symbol\" twice (give each column once)");
   ReadOptions label = options();
   label.label_column = "group";
   label.sample_info = {"batch", "group"};
   REQUIRE(error_of([&] { pare::read_table(absent, label); }, pare::ErrorKind::kUsage) ==
-          "--sample-info names \"group\", the --label column (the labels are carried already; leave it out of "
-          "--sample-info)");
+          "`sample_info` names \"group\", the `label` column (the labels are carried already; leave it out of "
+          "`sample_info`)");
   ReadOptions empty = options();
   empty.sample_info = {"batch", ""};
   REQUIRE(error_of([&] { pare::read_table(absent, empty); }, pare::ErrorKind::kUsage) ==
-          "--sample-info has an empty column name (give comma-separated header names)");
+          "`sample_info` has an empty column name (give comma-separated header names)");
 
   // Against the header: input errors.
   const auto features = dir.write("f.csv", "feature,symbol,s1,s2\ng1,TP53,1,2\n");
   ReadOptions unknown = options(Layout::kRowsAreFeatures);
   unknown.feature_info = {"symbol", "chrom"};
   REQUIRE(error_of([&] { pare::read_table(features, unknown); }) ==
-          features + ":1: no column named \"chrom\" for --feature-info (the header has: \"feature\", \"symbol\", "
+          features + ":1: no column named \"chrom\" for `feature_info` (the header has: \"feature\", \"symbol\", "
                      "\"s1\", \"s2\")");
   ReadOptions id = options(Layout::kRowsAreFeatures);
   id.feature_info = {"feature"};
   REQUIRE(error_of([&] { pare::read_table(features, id); }) ==
-          features + ":1:1: --feature-info names \"feature\", the id column (the first column holds the ids; name "
+          features + ":1:1: `feature_info` names \"feature\", the id column (the first column holds the ids; name "
                      "only text columns after it)");
   const auto samples = dir.write("s.csv", "sample,a,batch\ns1,1,p1\n");
   ReadOptions unknown_s = options();
   unknown_s.sample_info = {"site"};
   REQUIRE(error_of([&] { pare::read_table(samples, unknown_s); }) ==
-          samples + ":1: no column named \"site\" for --sample-info (the header has: \"sample\", \"a\", \"batch\")");
+          samples + ":1: no column named \"site\" for `sample_info` (the header has: \"sample\", \"a\", \"batch\")");
   ReadOptions id_s = options();
   id_s.sample_info = {"sample"};
   REQUIRE(error_of([&] { pare::read_table(samples, id_s); }) ==
-          samples + ":1:1: --sample-info names \"sample\", the id column (the first column holds the ids; name "
+          samples + ":1:1: `sample_info` names \"sample\", the id column (the first column holds the ids; name "
                     "only text columns after it)");
 }

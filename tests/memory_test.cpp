@@ -207,7 +207,7 @@ TEST_CASE("memory: a cache folder that cannot be written is an output error", "[
     FAIL("no error");
   } catch (const pare::Error& e) {
     REQUIRE(e.kind() == pare::ErrorKind::kOutput);
-    REQUIRE(std::string(e.what()).find("--cache-dir") != std::string::npos);
+    REQUIRE(std::string(e.what()).find("`cache_dir`") != std::string::npos);
   }
 }
 

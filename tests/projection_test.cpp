@@ -525,7 +525,7 @@ TEST_CASE("K out of range is a usage error naming the limit", "[projection]") {
         INFO(message);
         REQUIRE(e.kind() == pare::ErrorKind::kUsage);
         REQUIRE(message.find("min(samples, features) = 6") != std::string::npos);
-        REQUIRE(message.find("components " + std::to_string(k)) != std::string::npos);
+        REQUIRE(message.find("`components` " + std::to_string(k)) != std::string::npos);
       }
     }
   }

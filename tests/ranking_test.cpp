@@ -61,11 +61,11 @@ std::vector<std::pair<std::string, const std::vector<double>*>> score_vectors(
       {"f_bonferroni", &s.f_bonferroni},
       {"variance", &s.variance},
       {"missing_rate", &s.missing_rate}};
-  if (!s.counts.empty()) {
-    v.push_back({"counts", &s.counts});
-    v.push_back({"counts_p", &s.counts_p});
-    v.push_back({"counts_q", &s.counts_q});
-    v.push_back({"counts_bonferroni", &s.counts_bonferroni});
+  if (!s.chi2_counts.empty()) {
+    v.push_back({"counts", &s.chi2_counts});
+    v.push_back({"counts_p", &s.chi2_counts_p});
+    v.push_back({"counts_q", &s.chi2_counts_q});
+    v.push_back({"counts_bonferroni", &s.chi2_counts_bonferroni});
   }
   return v;
 }
@@ -439,15 +439,15 @@ TEST_CASE("score_features counts chi-square on sklearn's test_chi2 example", "[r
   options.counts_chi2 = true;
   options.threads = 1;
   const FeatureScores s = pare::score_features(m, all_columns(m), classes, options);
-  REQUIRE(s.counts.size() == 3);
-  INFO("counts = " << s.counts[0] << ", " << s.counts[1] << ", " << s.counts[2]);
-  CHECK(rel_diff(s.counts[0], 123.0 / 17.0) <= 1e-12);
-  CHECK(s.counts[1] == 0.0);
-  CHECK(rel_diff(s.counts[2], 3.0 / 7.0) <= 1e-12);
-  INFO("p = " << s.counts_p[0] << ", " << s.counts_p[1] << ", " << s.counts_p[2]);
-  CHECK(rel_diff(s.counts_p[0], 0.0268458) <= 2e-6);
-  CHECK(s.counts_p[1] == 1.0);
-  CHECK(rel_diff(s.counts_p[2], 0.8071178) <= 1e-6);
+  REQUIRE(s.chi2_counts.size() == 3);
+  INFO("counts = " << s.chi2_counts[0] << ", " << s.chi2_counts[1] << ", " << s.chi2_counts[2]);
+  CHECK(rel_diff(s.chi2_counts[0], 123.0 / 17.0) <= 1e-12);
+  CHECK(s.chi2_counts[1] == 0.0);
+  CHECK(rel_diff(s.chi2_counts[2], 3.0 / 7.0) <= 1e-12);
+  INFO("p = " << s.chi2_counts_p[0] << ", " << s.chi2_counts_p[1] << ", " << s.chi2_counts_p[2]);
+  CHECK(rel_diff(s.chi2_counts_p[0], 0.0268458) <= 2e-6);
+  CHECK(s.chi2_counts_p[1] == 1.0);
+  CHECK(rel_diff(s.chi2_counts_p[2], 0.8071178) <= 1e-6);
   // Two classes have one sample each. Classes of any size are scored (SPEC §9; this test once
   // expected F 0 and few_values here): 4 observed values > 3 classes, so F is defined. By hand:
   // class means 2, 9, 3 about the mean 17/4: between = 2.25^2 + 4.75^2 + 2 * 1.25^2 = 30.75,
@@ -460,9 +460,9 @@ TEST_CASE("score_features counts chi-square on sklearn's test_chi2 example", "[r
   CHECK(rel_diff(s.f[0], 30.75 / 2 / 18) <= 1e-14);
   CHECK(rel_diff(s.f_p[0], 0.6076436202502001) <= 1e-12);
   // BH over the three counts p-values, checked against the step-up definition by hand.
-  const double p0 = s.counts_p[0], p2 = s.counts_p[2];
-  CHECK(rel_diff(s.counts_q[0], p0 * 3) <= 1e-15);
-  CHECK(rel_diff(s.counts_q[2], std::min(1.0, p2 * 3 / 2)) <= 1e-15);
+  const double p0 = s.chi2_counts_p[0], p2 = s.chi2_counts_p[2];
+  CHECK(rel_diff(s.chi2_counts_q[0], p0 * 3) <= 1e-15);
+  CHECK(rel_diff(s.chi2_counts_q[2], std::min(1.0, p2 * 3 / 2)) <= 1e-15);
 
   // A gap is left out of the class sums and of the class shares (observed cells only, as
   // sklearn.feature_selection.chi2 on the observed rows): a fifth sample of class "0" with a
@@ -471,8 +471,8 @@ TEST_CASE("score_features counts chi-square on sklearn's test_chi2 example", "[r
   gap << 2, 9, 6, 0, std::numeric_limits<float>::quiet_NaN();
   const FeatureScores sg =
       pare::score_features(gap, all_columns(gap), classes_of({"0", "1", "2", "2", "0"}), options);
-  INFO("with a gap: " << sg.counts[0]);
-  CHECK(rel_diff(sg.counts[0], 123.0 / 17.0) <= 1e-12);
+  INFO("with a gap: " << sg.chi2_counts[0]);
+  CHECK(rel_diff(sg.chi2_counts[0], 123.0 / 17.0) <= 1e-12);
   CHECK(sg.missing_rate[0] == Approx(0.2).epsilon(1e-15));
 
   // Negative values are an input error for the counts statistic.
@@ -644,8 +644,8 @@ TEST_CASE("score_features flags degenerate features and never returns NaN",
     CHECK((s.flags[2] & pare::kScoreConstant) != 0);
     CHECK(s.missing_rate[2] == 1.0);
     CHECK(s.variance[2] == 0.0);
-    CHECK(s.counts[2] == 0.0);
-    CHECK(s.counts_p[2] == 1.0);
+    CHECK(s.chi2_counts[2] == 0.0);
+    CHECK(s.chi2_counts_p[2] == 1.0);
     // One observed value in class b: 0 1 2 3 | 4 | 8 9 10 11. This test once expected every
     // score 0 and few_values here; classes of any size are scored now (SPEC §9). F by hand: class
     // means 1.5, 4, 9.5 about 48/9; between = 4 (1.5 - 48/9)^2 + (4 - 48/9)^2 + 4 (9.5 - 48/9)^2
@@ -926,9 +926,9 @@ TEST_CASE("score_features with an infinite value: rank-based scores only",
   options.counts_chi2 = true;
   Matrix pos = m.leftCols(2);
   const FeatureScores c = pare::score_features(pos, all_columns(pos), classes, options);
-  CHECK(c.counts[0] == 0.0);
-  CHECK(c.counts_p[0] == 1.0);
-  CHECK(c.counts[1] > 0.0);
+  CHECK(c.chi2_counts[0] == 0.0);
+  CHECK(c.chi2_counts_p[0] == 1.0);
+  CHECK(c.chi2_counts[1] > 0.0);
 }
 
 // ---- score_features: thread count does not change the output (SPEC §5) ----------------------
@@ -992,7 +992,7 @@ TEST_CASE("rank_order sorts descending and keeps input order on ties", "[ranking
   s.chi2 = {1, 1, 1, 1, 1, 1};
   s.f = {2.0, std::numeric_limits<double>::infinity(), 2.0, 0.0, 5.0, 2.0};
   s.variance = {3, 3, 1, 2, 3, 0};
-  s.counts = {0, 9, 0, 9, 9, 0};
+  s.chi2_counts = {0, 9, 0, 9, 9, 0};
   s.chi2_p.assign(p, 1);
   s.chi2_q.assign(p, 1);
   s.f_p.assign(p, 1);

@@ -49,7 +49,7 @@ struct FeatureScores {
   std::vector<double> chi2, chi2_p, chi2_q, chi2_bonferroni;
   std::vector<int> chi2_df;
   std::vector<double> f, f_p, f_q, f_bonferroni;
-  std::vector<double> counts, counts_p, counts_q, counts_bonferroni;  ///< when counts_chi2
+  std::vector<double> chi2_counts, chi2_counts_p, chi2_counts_q, chi2_counts_bonferroni;  ///< when counts_chi2
   std::vector<double> variance, missing_rate;
   std::vector<std::uint8_t> flags;
   /// Per feature, bit (1 << Criterion) set when that criterion's score could be computed; read it
