@@ -29,16 +29,22 @@ using namespace internal::html;
 namespace {
 
 // The missing rate of every input feature, with the missing filter's cut when it ran.
-ReportHistogram missing_histogram(const Reduction& r, const ReduceOptions& o, bool selection) {
-  const std::size_t p = r.decisions.size();
+// The frame of a missing-rate histogram (scan and reduce draw the same one).
+ReportHistogram missing_rate_frame(const char* title) {
   ReportHistogram miss;
   miss.id = "missing";
-  miss.title = "Missing rate of every input feature";
+  miss.title = title;
   miss.axis = "missing rate (fraction of samples without a value)";
   miss.lo = 0;
   miss.hi = 1;
   miss.bin_width = 0.02;
   miss.cut_keeps_equal_above = false;
+  return miss;
+}
+
+ReportHistogram missing_histogram(const Reduction& r, const ReduceOptions& o, bool selection) {
+  const std::size_t p = r.decisions.size();
+  ReportHistogram miss = missing_rate_frame("Missing rate of every input feature");
   miss.values.reserve(p);
   for (std::size_t j = 0; j < p; ++j) miss.values.push_back(r.raw_stats[j].missing_rate());
   std::int64_t miss_dropped = 0;
@@ -272,14 +278,7 @@ void add_screen(ReportData& d, const SampleScreen& s, const std::vector<std::str
 
 void add_profile(ReportData& d, const FeatureTable& t, const Profile& pf) {
   const std::size_t p = pf.features.size();
-  ReportHistogram miss;
-  miss.id = "missing";
-  miss.title = "Missing rate of every feature";
-  miss.axis = "missing rate (fraction of samples without a value)";
-  miss.lo = 0;
-  miss.hi = 1;
-  miss.bin_width = 0.02;
-  miss.cut_keeps_equal_above = false;
+  ReportHistogram miss = missing_rate_frame("Missing rate of every feature");
   miss.dropped_label = "flagged mostly missing";
   miss.kept_label = "others";
   std::int64_t flagged = 0;
