@@ -234,6 +234,152 @@ __attribute__((target("avx512f,avx512bw,avx512dq,avx512vnni"))) void screen_vnni
   }
 }
 
+// Sample quad t of a candidate's codes as 16-bit values, repeated in every 64-bit lane.
+__attribute__((target("avx2"))) inline __m256i quad16_of(const std::uint8_t* row, Eigen::Index t) {
+  std::int32_t quad;
+  std::memcpy(&quad, row + 4 * t, sizeof quad);
+  return _mm256_broadcastq_epi64(_mm_cvtepu8_epi16(_mm_cvtsi32_si128(quad)));
+}
+
+// The bounds of 8 kept features (from `base`) with a candidate, given their integer products: the
+// operations of bound_of in the same order, lane by lane (no fused multiply-add: the target has
+// none), so the survivors are the portable loop's.
+__attribute__((target("avx2"))) inline void bounds_avx2(const ScreenKept& kept, Eigen::Index base, __m256i product,
+                                                        const ScreenNorms& nb, float cut, int c, Eigen::Index valid,
+                                                        ScreenSurvivors& out) {
+  const __m256i offset = _mm256_loadu_si256(reinterpret_cast<const __m256i*>(kept.offset() + base));
+  const __m256 p = _mm256_mul_ps(_mm256_cvtepi32_ps(_mm256_sub_epi32(product, offset)),
+                                 _mm256_mul_ps(_mm256_loadu_ps(kept.scale() + base), _mm256_set1_ps(nb.scale)));
+  __m256 slack = _mm256_mul_ps(_mm256_loadu_ps(kept.coded() + base), _mm256_set1_ps(nb.error));
+  slack = _mm256_add_ps(slack, _mm256_mul_ps(_mm256_loadu_ps(kept.error() + base), _mm256_set1_ps(nb.subset)));
+  slack = _mm256_add_ps(slack, _mm256_mul_ps(_mm256_loadu_ps(kept.rest() + base), _mm256_set1_ps(nb.rest)));
+  const __m256 bound = _mm256_add_ps(_mm256_andnot_ps(_mm256_set1_ps(-0.0f), p), slack);
+  // Not below the cut (a NaN bound is kept, as `!(bound < cut)` keeps it).
+  auto hit = static_cast<unsigned>(_mm256_movemask_ps(_mm256_cmp_ps(bound, _mm256_set1_ps(cut), _CMP_NLT_UQ)));
+  hit &= (1u << valid) - 1u;
+  if (!hit) return;
+  alignas(32) float products[8];
+  _mm256_store_ps(products, p);
+  while (hit) {
+    const int lane = __builtin_ctz(hit);
+    hit &= hit - 1;
+    out[static_cast<std::size_t>(c)].push_back(ScreenHit{static_cast<std::int32_t>(base + lane), products[lane]});
+  }
+}
+
+// One group of 16 kept features against two candidates per pass (AVX2, no VNNI): the codes
+// widened to 16 bits and multiplied in pairs into 32-bit lanes (_mm256_madd_epi16: exact, |u k|
+// <= 255 x 127), each feature's two lanes added at the end.
+__attribute__((target("avx2"))) void screen_avx2(const ScreenKept& kept, const ScreenBlock& block, float cut,
+                                                 Eigen::Index first, int width, Eigen::Index g0, Eigen::Index g1,
+                                                 ScreenSurvivors& out) {
+  const Eigen::Index quads = kept.quads();
+  for (int c = 0; c < width; c += 2) {
+    const int d = std::min(c + 1, width - 1);  // the second candidate (c again at an odd end)
+    const std::uint8_t *row_c = block.row(first + c), *row_d = block.row(first + d);
+    const ScreenNorms &norms_c = block.norms(first + c), &norms_d = block.norms(first + d);
+    for (Eigen::Index g = g0; g < g1; ++g) {
+      __m256i a0 = _mm256_setzero_si256(), a1 = a0, a2 = a0, a3 = a0, b0 = a0, b1 = a0, b2 = a0, b3 = a0;
+      const std::int8_t* codes = kept.group(g);
+      for (Eigen::Index t = 0; t < quads; ++t) {
+        const std::int8_t* q = codes + t * 64;
+        const __m256i k0 = _mm256_cvtepi8_epi16(_mm_loadu_si128(reinterpret_cast<const __m128i*>(q)));
+        const __m256i k1 = _mm256_cvtepi8_epi16(_mm_loadu_si128(reinterpret_cast<const __m128i*>(q + 16)));
+        const __m256i k2 = _mm256_cvtepi8_epi16(_mm_loadu_si128(reinterpret_cast<const __m128i*>(q + 32)));
+        const __m256i k3 = _mm256_cvtepi8_epi16(_mm_loadu_si128(reinterpret_cast<const __m128i*>(q + 48)));
+        const __m256i u = quad16_of(row_c, t), v = quad16_of(row_d, t);
+        a0 = _mm256_add_epi32(a0, _mm256_madd_epi16(k0, u));
+        a1 = _mm256_add_epi32(a1, _mm256_madd_epi16(k1, u));
+        a2 = _mm256_add_epi32(a2, _mm256_madd_epi16(k2, u));
+        a3 = _mm256_add_epi32(a3, _mm256_madd_epi16(k3, u));
+        b0 = _mm256_add_epi32(b0, _mm256_madd_epi16(k0, v));
+        b1 = _mm256_add_epi32(b1, _mm256_madd_epi16(k1, v));
+        b2 = _mm256_add_epi32(b2, _mm256_madd_epi16(k2, v));
+        b3 = _mm256_add_epi32(b3, _mm256_madd_epi16(k3, v));
+      }
+      // a0 holds features 0-3 as lane pairs, a1 4-7: hadd gives 0 1 4 5 | 2 3 6 7, the permute
+      // 0 .. 7.
+      const Eigen::Index base = g * 16;
+      const Eigen::Index valid = std::min<Eigen::Index>(16, kept.size() - base);
+      if (valid <= 0) break;
+      constexpr int kOrder = 0xD8;  // 64-bit lanes 0, 2, 1, 3
+      const __m256i low_c = _mm256_permute4x64_epi64(_mm256_hadd_epi32(a0, a1), kOrder);
+      const __m256i high_c = _mm256_permute4x64_epi64(_mm256_hadd_epi32(a2, a3), kOrder);
+      bounds_avx2(kept, base, low_c, norms_c, cut, c, std::min<Eigen::Index>(8, valid), out);
+      if (valid > 8) bounds_avx2(kept, base + 8, high_c, norms_c, cut, c, valid - 8, out);
+      if (d != c) {
+        const __m256i low_d = _mm256_permute4x64_epi64(_mm256_hadd_epi32(b0, b1), kOrder);
+        const __m256i high_d = _mm256_permute4x64_epi64(_mm256_hadd_epi32(b2, b3), kOrder);
+        bounds_avx2(kept, base, low_d, norms_d, cut, d, std::min<Eigen::Index>(8, valid), out);
+        if (valid > 8) bounds_avx2(kept, base + 8, high_d, norms_d, cut, d, valid - 8, out);
+      }
+    }
+  }
+}
+
+// The same with SSE2 (every x86-64 processor), for the baseline level: one candidate at a time,
+// the codes sign-extended by unpacking (SSE2 has no byte-to-word extension) and multiplied in
+// pairs (_mm_madd_epi16), the bounds 4 features at a time in bound_of's order.
+inline __m128i pair_sums(__m128i a, __m128i b) {  // lanes (0 + 1, 2 + 3) of a, then of b
+  const __m128 fa = _mm_castsi128_ps(a), fb = _mm_castsi128_ps(b);
+  return _mm_add_epi32(_mm_castps_si128(_mm_shuffle_ps(fa, fb, _MM_SHUFFLE(2, 0, 2, 0))),
+                       _mm_castps_si128(_mm_shuffle_ps(fa, fb, _MM_SHUFFLE(3, 1, 3, 1))));
+}
+
+void bounds_sse2(const ScreenKept& kept, Eigen::Index base, __m128i product, const ScreenNorms& nb, float cut, int c,
+                 Eigen::Index valid, ScreenSurvivors& out) {
+  const __m128i offset = _mm_loadu_si128(reinterpret_cast<const __m128i*>(kept.offset() + base));
+  const __m128 p = _mm_mul_ps(_mm_cvtepi32_ps(_mm_sub_epi32(product, offset)),
+                              _mm_mul_ps(_mm_loadu_ps(kept.scale() + base), _mm_set1_ps(nb.scale)));
+  __m128 slack = _mm_mul_ps(_mm_loadu_ps(kept.coded() + base), _mm_set1_ps(nb.error));
+  slack = _mm_add_ps(slack, _mm_mul_ps(_mm_loadu_ps(kept.error() + base), _mm_set1_ps(nb.subset)));
+  slack = _mm_add_ps(slack, _mm_mul_ps(_mm_loadu_ps(kept.rest() + base), _mm_set1_ps(nb.rest)));
+  const __m128 bound = _mm_add_ps(_mm_andnot_ps(_mm_set1_ps(-0.0f), p), slack);
+  auto hit = static_cast<unsigned>(_mm_movemask_ps(_mm_cmpnlt_ps(bound, _mm_set1_ps(cut))));
+  hit &= (1u << valid) - 1u;
+  if (!hit) return;
+  alignas(16) float products[4];
+  _mm_store_ps(products, p);
+  while (hit) {
+    const int lane = __builtin_ctz(hit);
+    hit &= hit - 1;
+    out[static_cast<std::size_t>(c)].push_back(ScreenHit{static_cast<std::int32_t>(base + lane), products[lane]});
+  }
+}
+
+void screen_sse2(const ScreenKept& kept, const ScreenBlock& block, float cut, Eigen::Index first, int width,
+                 Eigen::Index g0, Eigen::Index g1, ScreenSurvivors& out) {
+  const Eigen::Index quads = kept.quads();
+  for (int c = 0; c < width; ++c) {
+    const std::uint8_t* row = block.row(first + c);
+    const ScreenNorms& nb = block.norms(first + c);
+    for (Eigen::Index g = g0; g < g1; ++g) {
+      const Eigen::Index base = g * 16;
+      const Eigen::Index valid = std::min<Eigen::Index>(16, kept.size() - base);
+      if (valid <= 0) break;
+      __m128i acc[8];
+      for (auto& a : acc) a = _mm_setzero_si128();
+      const std::int8_t* codes = kept.group(g);
+      for (Eigen::Index t = 0; t < quads; ++t) {
+        std::int32_t quad;
+        std::memcpy(&quad, row + 4 * t, sizeof quad);
+        // u0 u1 u2 u3 u0 u1 u2 u3 as 16-bit values.
+        const __m128i u = _mm_unpacklo_epi64(_mm_unpacklo_epi8(_mm_cvtsi32_si128(quad), _mm_setzero_si128()),
+                                             _mm_unpacklo_epi8(_mm_cvtsi32_si128(quad), _mm_setzero_si128()));
+        for (int h = 0; h < 4; ++h) {  // features 4h .. 4h + 3
+          const __m128i k = _mm_loadu_si128(reinterpret_cast<const __m128i*>(codes + t * 64 + 16 * h));
+          const __m128i lo = _mm_srai_epi16(_mm_unpacklo_epi8(k, k), 8), hi = _mm_srai_epi16(_mm_unpackhi_epi8(k, k), 8);
+          acc[2 * h] = _mm_add_epi32(acc[2 * h], _mm_madd_epi16(lo, u));
+          acc[2 * h + 1] = _mm_add_epi32(acc[2 * h + 1], _mm_madd_epi16(hi, u));
+        }
+      }
+      for (int h = 0; h < 4 && 4 * h < valid; ++h)
+        bounds_sse2(kept, base + 4 * h, pair_sums(acc[2 * h], acc[2 * h + 1]), nb, cut, c,
+                    std::min<Eigen::Index>(4, valid - 4 * h), out);
+    }
+  }
+}
+
 bool cpu_has_vnni() {
   static const bool has = __builtin_cpu_supports("avx512f") && __builtin_cpu_supports("avx512bw") &&
                           __builtin_cpu_supports("avx512dq") && __builtin_cpu_supports("avx512vnni");
@@ -249,6 +395,15 @@ bool screen_uses_vnni() {
   // Only with the AVX-512 kernels running (kernels::force_level can choose a lower level).
   return vnni_allowed.load(std::memory_order_relaxed) && cpu_has_vnni() &&
          kernels::active_level() == kernels::Level::kAvx512;
+#else
+  return false;
+#endif
+}
+
+bool screen_uses_avx2() {
+#ifdef PARE_SCREEN_VNNI
+  return vnni_allowed.load(std::memory_order_relaxed) && !screen_uses_vnni() &&
+         kernels::active_level() != kernels::Level::kBaseline;
 #else
   return false;
 #endif
@@ -278,6 +433,14 @@ void screen_pairs(const ScreenKept& kept, const ScreenBlock& block, float cut, E
 #ifdef PARE_SCREEN_VNNI
   if (screen_uses_vnni()) {
     screen_vnni(kept, block, cut, first, width, g0, g1, out);
+    return;
+  }
+  if (screen_uses_avx2()) {
+    screen_avx2(kept, block, cut, first, width, g0, g1, out);
+    return;
+  }
+  if (vnni_allowed.load(std::memory_order_relaxed)) {
+    screen_sse2(kept, block, cut, first, width, g0, g1, out);
     return;
   }
 #endif

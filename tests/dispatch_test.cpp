@@ -5,19 +5,17 @@
 // valued 0 to 16), arranged into matrices of the shapes the products meet. The kernels' results
 // are also checked against their definition (a sum in increasing order, each product rounded
 // before it is added), computed here by plain loops, and against Eigen's products.
-#include "kernels/kernels.h"
-
-#include <Eigen/Core>
-
 #include <cmath>    // std::abs, std::sqrt, std::nan
 #include <cstdint>  // std::int8_t, std::int32_t
 #include <cstring>  // std::memcmp
 #include <string>   // std::string
 #include <vector>   // std::vector
 
+#include <Eigen/Core>
 #include <catch2/catch.hpp>
 
 #include "internal/pair_screen.h"
+#include "kernels/kernels.h"
 #include "support/cli_run.h"
 #include "support/public_data.h"
 #include "support/temp_dir.h"
@@ -74,7 +72,10 @@ M digit_matrix(const Digits& d, Index n, Index p, Index first = 0) {
   for (Index j = 0; j < p; ++j)
     for (Index i = 0; i < n; ++i)
       m(i, j) = static_cast<typename M::Scalar>(
-          (d.pixels[static_cast<std::size_t>((first + i + j / 64) % images)][static_cast<std::size_t>(j % 64)] - 8) / 4);
+          (d.pixels[static_cast<std::size_t>((first + i + j / 64) % images)]
+                   [static_cast<std::size_t>(j % 64)] -
+           8) /
+          4);
   return m;
 }
 
@@ -106,12 +107,13 @@ TEST_CASE("dispatch: the kernels give the same bits at every level, as defined",
   // Shapes of the PCA's products: X is n x p (1,000 samples, a Gram piece of 2,048 features).
   const Index n = 1000, p = 2048, l = 60;
   const MatF x = digit_matrix<MatF>(d, n, p);
-  const MatF y = digit_matrix<MatF>(d, n, l, 500);       // X^T Y: n x l
-  const MatF b = digit_matrix<MatF>(d, p, l, 900);       // X B: p x l
-  const MatD yd = digit_matrix<MatD>(d, n, l, 1200);     // double X^T Y
-  const MatD sym = digit_matrix<MatD>(d, n, n, 300);     // a symmetric matrix, lower triangle used
+  const MatF y = digit_matrix<MatF>(d, n, l, 500);    // X^T Y: n x l
+  const MatF b = digit_matrix<MatF>(d, p, l, 900);    // X B: p x l
+  const MatD yd = digit_matrix<MatD>(d, n, l, 1200);  // double X^T Y
+  const MatD sym = digit_matrix<MatD>(d, n, n, 300);  // a symmetric matrix, lower triangle used
   const MatD q = digit_matrix<MatD>(d, n, l, 77);
-  const MatF odd_a = digit_matrix<MatF>(d, 37, 301, 11), odd_b = digit_matrix<MatF>(d, 301, 13, 1500);
+  const MatF odd_a = digit_matrix<MatF>(d, 37, 301, 11),
+             odd_b = digit_matrix<MatF>(d, 301, 13, 1500);
   const MatF odd_c = digit_matrix<MatF>(d, 301, 5, 222);
 
   struct Results {
@@ -133,8 +135,8 @@ TEST_CASE("dispatch: the kernels give the same bits at every level, as defined",
       const Index r0 = 128, h = 128, r1 = r0 + h;
       r.gram.assign(static_cast<std::size_t>(h * r1), std::nanf(""));
       kernels::Operand rows = kernels::columns(x.data() + r0, n);
-      kernels::gemm(kernels::Shape{h, r1, p, true, r0}, rows, kernels::transposed(kernels::columns(x.data(), n)),
-                    r.gram.data(), h, false);
+      kernels::gemm(kernels::Shape{h, r1, p, true, r0}, rows,
+                    kernels::transposed(kernels::columns(x.data(), n)), r.gram.data(), h, false);
       for (Index j = 0; j < r1; ++j)
         for (Index i = 0; i < h; ++i) {
           const float v = r.gram[static_cast<std::size_t>(i + j * h)];
@@ -153,8 +155,9 @@ TEST_CASE("dispatch: the kernels give the same bits at every level, as defined",
         kernels::gemm(kernels::Shape{n, l, 256}, kernels::columns(x.data() + c0 * n, n),
                       kernels::columns(b.data() + c0, p), r.times.data(), n, true);
       for (Index i = 0; i < n; i += 53)
-        for (Index j = 0; j < l; j += 7) REQUIRE(r.times[static_cast<std::size_t>(i + j * n)] ==
-                                                 defined_entry<float>(x, b, i, j, p, 0.0f));
+        for (Index j = 0; j < l; j += 7)
+          REQUIRE(r.times[static_cast<std::size_t>(i + j * n)] ==
+                  defined_entry<float>(x, b, i, j, p, 0.0f));
     }
     // W = X^T Y (p x l), computed internally as (Y^T X)^T.
     {
@@ -163,8 +166,9 @@ TEST_CASE("dispatch: the kernels give the same bits at every level, as defined",
                     kernels::columns(y.data(), n), r.times_t.data(), p, false);
       const MatF xt = x.transpose();
       for (Index i = 0; i < p; i += 61)
-        for (Index j = 0; j < l; j += 11) REQUIRE(r.times_t[static_cast<std::size_t>(i + j * p)] ==
-                                                  defined_entry<float>(xt, y, i, j, n, 0.0f));
+        for (Index j = 0; j < l; j += 11)
+          REQUIRE(r.times_t[static_cast<std::size_t>(i + j * p)] ==
+                  defined_entry<float>(xt, y, i, j, n, 0.0f));
     }
     // In double from the float X, and a symmetric matrix from its lower triangle.
     {
@@ -173,16 +177,19 @@ TEST_CASE("dispatch: the kernels give the same bits at every level, as defined",
                     kernels::columns(yd.data(), n), r.times_t_d.data(), p, false);
       const MatD xt = x.transpose().cast<double>();
       for (Index i = 0; i < p; i += 61)
-        for (Index j = 0; j < l; j += 11) REQUIRE(r.times_t_d[static_cast<std::size_t>(i + j * p)] ==
-                                                  defined_entry<double>(xt, yd, i, j, n, 0.0));
+        for (Index j = 0; j < l; j += 11)
+          REQUIRE(r.times_t_d[static_cast<std::size_t>(i + j * p)] ==
+                  defined_entry<double>(xt, yd, i, j, n, 0.0));
       kernels::Operand s = kernels::columns(sym.data(), n);
       s.lower_symmetric = true;
       r.symmetric.assign(static_cast<std::size_t>(n * l), 0.0);
-      kernels::gemm(kernels::Shape{n, l, n}, s, kernels::columns(q.data(), n), r.symmetric.data(), n, false);
+      kernels::gemm(kernels::Shape{n, l, n}, s, kernels::columns(q.data(), n), r.symmetric.data(),
+                    n, false);
       const MatD full = sym.selfadjointView<Eigen::Lower>();
       for (Index i = 0; i < n; i += 97)
-        for (Index j = 0; j < l; j += 13) REQUIRE(r.symmetric[static_cast<std::size_t>(i + j * n)] ==
-                                                  defined_entry<double>(full, q, i, j, n, 0.0));
+        for (Index j = 0; j < l; j += 13)
+          REQUIRE(r.symmetric[static_cast<std::size_t>(i + j * n)] ==
+                  defined_entry<double>(full, q, i, j, n, 0.0));
       // The lower triangle of X X^T in double (the dense PCA's Gram matrix), accumulated.
       r.gram_d.assign(static_cast<std::size_t>(256 * 256), 1.0);
       kernels::gemm(kernels::Shape{256, 256, p, true, 0}, kernels::columns(x.data(), n),
@@ -191,7 +198,8 @@ TEST_CASE("dispatch: the kernels give the same bits at every level, as defined",
       const MatD xdt = xd.transpose();
       for (Index j = 0; j < 256; j += 17)
         for (Index i = j; i < 256; i += 19)
-          REQUIRE(r.gram_d[static_cast<std::size_t>(i + j * 256)] == defined_entry<double>(xd, xdt, i, j, p, 1.0));
+          REQUIRE(r.gram_d[static_cast<std::size_t>(i + j * 256)] ==
+                  defined_entry<double>(xd, xdt, i, j, p, 1.0));
     }
     // Sizes that leave partial tiles on every side, accumulated into C.
     {
@@ -200,10 +208,12 @@ TEST_CASE("dispatch: the kernels give the same bits at every level, as defined",
                     kernels::columns(odd_b.data(), 301), r.odd.data(), 37, true);
       for (Index i = 0; i < 37; ++i)
         for (Index j = 0; j < 13; ++j)
-          REQUIRE(r.odd[static_cast<std::size_t>(i + j * 37)] == defined_entry<float>(odd_a, odd_b, i, j, 301, 0.5f));
+          REQUIRE(r.odd[static_cast<std::size_t>(i + j * 37)] ==
+                  defined_entry<float>(odd_a, odd_b, i, j, 301, 0.5f));
       // A transposed A (computed as (B^T A^T)^T), accumulated.
       r.odd_t.assign(static_cast<std::size_t>(13 * 5), 0.25f);
-      kernels::gemm(kernels::Shape{13, 5, 301}, kernels::transposed(kernels::columns(odd_b.data(), 301)),
+      kernels::gemm(kernels::Shape{13, 5, 301},
+                    kernels::transposed(kernels::columns(odd_b.data(), 301)),
                     kernels::columns(odd_c.data(), 301), r.odd_t.data(), 13, true);
       const MatF odd_bt = odd_b.transpose();
       for (Index i = 0; i < 13; ++i)
@@ -219,7 +229,8 @@ TEST_CASE("dispatch: the kernels give the same bits at every level, as defined",
       r.stats.push_back(kernels::column_stats(col.data(), col.size() - 1));
       r.moments.push_back(kernels::moments(x.col(j).data(), n - 1));
       const kernels::Moments& m = r.moments.back();
-      r.dots.push_back(kernels::centered_dot(x.col(j).data(), m.mean, x.col((j + 64) % p).data(), 0.25, n));
+      r.dots.push_back(
+          kernels::centered_dot(x.col(j).data(), m.mean, x.col((j + 64) % p).data(), 0.25, n));
     }
     all.push_back(std::move(r));
   }
@@ -247,7 +258,8 @@ TEST_CASE("dispatch: the kernels give the same bits at every level, as defined",
   const MatD times_t_abs = xd.cwiseAbs().transpose() * y.cast<double>().cwiseAbs();
   for (Index j = 0; j < l; ++j) {
     for (Index i = 0; i < n; ++i)
-      REQUIRE(std::abs(r.times[static_cast<std::size_t>(i + j * n)] - times_ref(i, j)) <= 2e-4 * times_abs(i, j));
+      REQUIRE(std::abs(r.times[static_cast<std::size_t>(i + j * n)] - times_ref(i, j)) <=
+              2e-4 * times_abs(i, j));
     for (Index i = 0; i < p; ++i)
       REQUIRE(std::abs(r.times_t[static_cast<std::size_t>(i + j * p)] - times_t_ref(i, j)) <=
               2e-4 * times_t_abs(i, j));
@@ -270,7 +282,72 @@ TEST_CASE("dispatch: the kernels give the same bits at every level, as defined",
   for (const kernels::Level level : levels()) {
     const AtLevel at(level);
     REQUIRE(kernels::dot_i8(u.data(), v.data(), 4096) == expected);
-    REQUIRE(kernels::dot_i8(u.data() + 3, v.data() + 1, 4000) == kernels::dot_i8(v.data() + 1, u.data() + 3, 4000));
+    REQUIRE(kernels::dot_i8(u.data() + 3, v.data() + 1, 4000) ==
+            kernels::dot_i8(v.data() + 1, u.data() + 3, 4000));
+  }
+}
+
+TEST_CASE("dispatch: the pair screen finds the same pairs at every level", "[dispatch]") {
+  // Pruning's 8-bit first look (internal/pair_screen.h): the portable loop, the SSE2 kernel
+  // (baseline), the AVX2 kernel and the VNNI kernel (AVX-512, where the processor has VNNI) must
+  // list the same pairs with the same products. Columns: 200 pixel columns over 1,000 images,
+  // standardised; S is the first 169 samples (as pruning chooses for 1,000 samples at --max-corr
+  // 0.9).
+  const Digits d = read_digits();
+  if (!d.data.present) return;
+  const Index n = 1000, m = 169, count = 200;
+  const MatD x = digit_matrix<MatD>(d, n, count, 40);
+  std::vector<std::vector<float>> z;
+  for (Index j = 0; j < count; ++j) {
+    const double mean = x.col(j).mean();
+    const double norm = (x.col(j).array() - mean).matrix().norm();
+    std::vector<float> col(static_cast<std::size_t>(n));
+    for (Index i = 0; i < n; ++i)
+      col[static_cast<std::size_t>(i)] = static_cast<float>((x(i, j) - mean) / norm);
+    z.push_back(col);
+  }
+  pare::internal::ScreenBlock block;
+  block.reset(m, count);
+  for (Index b = 0; b < count; ++b) {
+    double rest = 0;
+    for (Index i = m; i < n; ++i)
+      rest += double(z[static_cast<std::size_t>(b)][static_cast<std::size_t>(i)]) *
+              double(z[static_cast<std::size_t>(b)][static_cast<std::size_t>(i)]);
+    block.set(b, z[static_cast<std::size_t>(b)].data(), std::sqrt(rest));
+  }
+  pare::internal::ScreenKept kept(block.padded());
+  for (Index b = 0; b < count - 3; ++b) kept.append(block, b);  // 197 kept: a partial last group
+  std::vector<std::vector<std::pair<std::int64_t, float>>> found;
+  std::vector<std::string> names;
+  for (int run = -1; run < static_cast<int>(levels().size()); ++run) {
+    // Run -1: the portable loop.
+    const kernels::Level level =
+        run < 0 ? kernels::Level::kBaseline : levels()[static_cast<std::size_t>(run)];
+    const AtLevel at(level);
+    pare::internal::screen_allow_vnni(run >= 0);
+    names.push_back(run < 0 ? "portable" : kernels::level_name(level));
+    INFO("kernel " << names.back());
+    REQUIRE(pare::internal::screen_uses_avx2() == (run >= 0 && level != kernels::Level::kBaseline &&
+                                                   !pare::internal::screen_uses_vnni()));
+    std::vector<std::pair<std::int64_t, float>> pairs;
+    for (float cut : {0.2f, 0.5f, 0.8f})
+      for (Index first = 0; first < count; first += pare::internal::kScreenTile) {
+        const int width =
+            static_cast<int>(std::min<Index>(pare::internal::kScreenTile, count - first));
+        pare::internal::ScreenSurvivors tile;
+        pare::internal::screen_pairs(kept, block, cut, first, width, 0, 5, tile);
+        pare::internal::screen_pairs(kept, block, cut, first, width, 5, kept.groups(), tile);
+        for (int c = 0; c < width; ++c)
+          for (const auto& hit : tile[static_cast<std::size_t>(c)])
+            pairs.emplace_back((first + c) * 1000 + hit.k, hit.product);
+      }
+    found.push_back(std::move(pairs));
+  }
+  pare::internal::screen_allow_vnni(true);
+  REQUIRE(found[0].size() > 1000);  // the pairs of a column with itself, and many more
+  for (std::size_t k = 1; k < found.size(); ++k) {
+    INFO(names[k] << " against the portable loop");
+    REQUIRE(found[k] == found[0]);
   }
 }
 
@@ -321,8 +398,9 @@ TEST_CASE("dispatch: pare reduce writes the same files at every level", "[dispat
       {"tall", 1797, 5, {"--components", "12", "--max-corr", "0.3"}},
       {"dense", 1797, 1, {"--components", "10"}},
   };
-  const std::vector<std::string> files = {"ranking.tsv", "selection-log.tsv", "reduced.csv", "scores.csv",
-                                          "loadings.tsv", "explained.tsv",     "samples.tsv"};
+  const std::vector<std::string> files = {"ranking.tsv", "selection-log.tsv", "reduced.csv",
+                                          "scores.csv",  "loadings.tsv",      "explained.tsv",
+                                          "samples.tsv"};
   for (const Case& c : cases) {
     INFO("case " << c.name);
     const std::string data = dir.write(c.name + ".csv", digits_table(d, c.rows, c.images));
@@ -333,7 +411,8 @@ TEST_CASE("dispatch: pare reduce writes the same files at every level", "[dispat
       // The pair screen's VNNI loop runs only with the AVX-512 kernels.
       if (level != kernels::Level::kAvx512) REQUIRE_FALSE(pare::internal::screen_uses_vnni());
       const std::string out = dir.file(c.name + "-" + kernels::level_name(level));
-      std::vector<std::string> args = {"reduce", data, "--label", "digit", "--threads", "2", "--out", out};
+      std::vector<std::string> args = {"reduce",    data, "--label", "digit",
+                                       "--threads", "2",  "--out",   out};
       args.insert(args.end(), c.options.begin(), c.options.end());
       const pare::test::Run r = pare::test::run(args);
       INFO(r.err << r.out);

@@ -3,9 +3,9 @@
 // the same bits whatever --threads is and whichever instruction-set level runs.
 #pragma once
 
-#include <Eigen/Core>
-
 #include <algorithm>  // std::min
+
+#include <Eigen/Core>
 
 #include "kernels/kernels.h"
 
@@ -28,7 +28,8 @@ void product_tn(const MatA& a, const MatB& b, MatC& c, int threads) {
 #pragma omp parallel for schedule(dynamic, 1) num_threads(threads)
   for (Eigen::Index k = 0; k < pieces; ++k) {
     const Eigen::Index start = k * kProductPiece, width = std::min(kProductPiece, p - start);
-    kernels::gemm(kernels::Shape{width, l, n}, kernels::transposed(kernels::columns(a_data + start * lda, lda)), right,
+    kernels::gemm(kernels::Shape{width, l, n},
+                  kernels::transposed(kernels::columns(a_data + start * lda, lda)), right,
                   c_data + start, ldc, false);
   }
 }

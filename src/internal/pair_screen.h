@@ -13,8 +13,8 @@
 //   |r| <= s_a s_b |q_a . q_b| + |s_a q_a| |e_b| + |e_a| |b_S| + |a_R| |b_R|
 // holds without any assumption on the data; the norms are computed in double and rounded up. On
 // processors with AVX-512 VNNI the integer products run 64 per instruction, four times the float
-// rate; elsewhere a portable loop computes the same integers, so the pairs found never depend on
-// the processor.
+// rate; with AVX2, 16 per instruction (16-bit products summed in pairs), with SSE2 8; elsewhere a
+// portable loop computes the same integers, so the pairs found never depend on the processor.
 #pragma once
 
 #include <Eigen/Core>
@@ -121,8 +121,11 @@ float screen_bound(const ScreenKept& kept, Eigen::Index k, const ScreenBlock& bl
 float screen_second_bound(const ScreenKept& kept, const ScreenBlock& block, Eigen::Index b, const ScreenHit& hit);
 
 /// Whether screen_pairs uses the VNNI kernel: on a processor with AVX-512 VNNI while the AVX-512
-/// kernels run (kernels::active_level); `allow = false` forces the portable loop (for tests).
+/// kernels run (kernels::active_level). Otherwise it uses an AVX2 kernel while the AVX2 or AVX-512
+/// kernels run (screen_uses_avx2), else SSE2 on x86-64 and a portable loop elsewhere; all find
+/// the same pairs. `allow = false` forces the portable loop (for tests).
 bool screen_uses_vnni();
+bool screen_uses_avx2();
 void screen_allow_vnni(bool allow);
 
 }  // namespace pare::internal

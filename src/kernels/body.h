@@ -5,7 +5,7 @@
 // one level can stand in for another's at link time (kernels.h). The arithmetic must not depend
 // on the width: see kernels.h, and keep it so when editing.
 #if !defined(PARE_KERNEL_LEVEL) || !defined(PARE_KERNEL_TABLE)
-#error "define PARE_KERNEL_LEVEL and PARE_KERNEL_TABLE before including kernels/body.h"
+#  error "define PARE_KERNEL_LEVEL and PARE_KERNEL_TABLE before including kernels/body.h"
 #endif
 
 #include <cstddef>  // std::ptrdiff_t, std::size_t
@@ -54,9 +54,9 @@ constexpr Index kTileRows = 2 * Simd<T>::kWidth;
 template <typename T>
 constexpr Index kBlockK = 256;
 template <typename T>
-constexpr Index kBlockM = (sizeof(T) == 4 ? 192 : 96) / kTileRows<T> * kTileRows<T>;
+constexpr Index kBlockM = (sizeof(T) == 4 ? 192 : 96) / kTileRows<T>* kTileRows<T>;
 template <typename T>
-constexpr Index kBlockN = 480 / kTileCols * kTileCols;
+constexpr Index kBlockN = 480 / kTileCols* kTileCols;
 
 // 64-byte aligned scratch memory.
 class Buffer {
@@ -88,12 +88,14 @@ inline S element(const S* d, Index rs, Index cs, bool symmetric, Index i, Index 
 // Rows i0 .. i0 + rows - 1 and terms l0 .. l0 + kc - 1 of A, as panels of kTileRows rows, each
 // kc x kTileRows values term by term (k-major); rows past the end are zero.
 template <typename T, typename S>
-void pack_a(const S* d, Index rs, Index cs, bool symmetric, Index i0, Index rows, Index l0, Index kc, T* out) {
+void pack_a(const S* d, Index rs, Index cs, bool symmetric, Index i0, Index rows, Index l0,
+            Index kc, T* out) {
   constexpr Index mr = kTileRows<T>;
   for (Index p = 0; p < rows; p += mr) {
     const Index h = lesser(mr, rows - p);
     T* panel = out + (p / mr) * kc * mr;
-    if (h < mr) std::memset(static_cast<void*>(panel), 0, static_cast<std::size_t>(kc * mr) * sizeof(T));
+    if (h < mr)
+      std::memset(static_cast<void*>(panel), 0, static_cast<std::size_t>(kc * mr) * sizeof(T));
     if (!symmetric && rs == 1 && h == mr) {
       // A fixed count, so the copy is a few vector moves (a variable one becomes `rep movs`,
       // whose start-up cost exceeds a copy this short many times over).
@@ -133,12 +135,14 @@ void pack_a(const S* d, Index rs, Index cs, bool symmetric, Index i0, Index rows
 // Terms l0 .. l0 + kc - 1 and columns j0 .. j0 + cols - 1 of B, as panels of kTileCols columns,
 // each kc x kTileCols values term by term; columns past the end are zero.
 template <typename T, typename S>
-void pack_b(const S* d, Index rs, Index cs, bool symmetric, Index l0, Index kc, Index j0, Index cols, T* out) {
+void pack_b(const S* d, Index rs, Index cs, bool symmetric, Index l0, Index kc, Index j0,
+            Index cols, T* out) {
   constexpr Index nr = kTileCols;
   for (Index q = 0; q < cols; q += nr) {
     const Index w = lesser(nr, cols - q);
     T* panel = out + (q / nr) * kc * nr;
-    if (w < nr) std::memset(static_cast<void*>(panel), 0, static_cast<std::size_t>(kc * nr) * sizeof(T));
+    if (w < nr)
+      std::memset(static_cast<void*>(panel), 0, static_cast<std::size_t>(kc * nr) * sizeof(T));
     if (!symmetric && rs == 1) {
       // Strided reads (one stream per column), contiguous writes.
       for (Index l = 0; l < kc; ++l) {
@@ -169,17 +173,21 @@ void pack_b(const S* d, Index rs, Index cs, bool symmetric, Index l0, Index kc, 
 template <typename T>
 void pack_a_operand(const Operand& a, Index i0, Index rows, Index l0, Index kc, T* out) {
   if (a.single)
-    pack_a(static_cast<const float*>(a.data), a.row_stride, a.col_stride, a.lower_symmetric, i0, rows, l0, kc, out);
+    pack_a(static_cast<const float*>(a.data), a.row_stride, a.col_stride, a.lower_symmetric, i0,
+           rows, l0, kc, out);
   else
-    pack_a(static_cast<const double*>(a.data), a.row_stride, a.col_stride, a.lower_symmetric, i0, rows, l0, kc, out);
+    pack_a(static_cast<const double*>(a.data), a.row_stride, a.col_stride, a.lower_symmetric, i0,
+           rows, l0, kc, out);
 }
 
 template <typename T>
 void pack_b_operand(const Operand& b, Index l0, Index kc, Index j0, Index cols, T* out) {
   if (b.single)
-    pack_b(static_cast<const float*>(b.data), b.row_stride, b.col_stride, b.lower_symmetric, l0, kc, j0, cols, out);
+    pack_b(static_cast<const float*>(b.data), b.row_stride, b.col_stride, b.lower_symmetric, l0, kc,
+           j0, cols, out);
   else
-    pack_b(static_cast<const double*>(b.data), b.row_stride, b.col_stride, b.lower_symmetric, l0, kc, j0, cols, out);
+    pack_b(static_cast<const double*>(b.data), b.row_stride, b.col_stride, b.lower_symmetric, l0,
+           kc, j0, cols, out);
 }
 
 // One register tile: C (kTileRows x kTileCols, leading dimension ldc) = C (when `load`, else 0)
@@ -188,8 +196,8 @@ void pack_b_operand(const Operand& b, Index l0, Index kc, Index j0, Index cols, 
 // panel (kPacked: b(l, j) = b[l * kTileCols + j]) or read in place from a column-major operand
 // (b(l, j) = b[l + j * ldb]).
 template <typename T, bool kPacked>
-inline void tile(Index kc, const T* __restrict ap, const T* __restrict b, Index ldb, T* __restrict c, Index ldc,
-                 bool load) {
+inline void tile(Index kc, const T* __restrict ap, const T* __restrict b, Index ldb,
+                 T* __restrict c, Index ldc, bool load) {
   using V = typename Simd<T>::Vector;
   constexpr int w = Simd<T>::kWidth;
   V lo[kTileCols], hi[kTileCols];
@@ -254,11 +262,13 @@ void gemm_blocked(const Product<T>& pr) {
   }
   // B is read in place when it is column-major and of the working type (its columns then stream
   // through the tile); otherwise, and for a last panel of fewer than kTileCols columns, packed.
-  const bool in_place = pr.b.row_stride == 1 && !pr.b.lower_symmetric && pr.b.single == (sizeof(T) == 4);
+  const bool in_place =
+      pr.b.row_stride == 1 && !pr.b.lower_symmetric && pr.b.single == (sizeof(T) == 4);
   const T* const b_values = static_cast<const T*>(pr.b.data);
   // Only as much scratch as the shape needs (small products are common).
   const Index kc_most = lesser(kcb, k);
-  const Index mc_most = lesser(mcb, (m + mr - 1) / mr * mr), nc_most = lesser(ncb, (n + nr - 1) / nr * nr);
+  const Index mc_most = lesser(mcb, (m + mr - 1) / mr * mr),
+              nc_most = lesser(ncb, (n + nr - 1) / nr * nr);
   const Buffer a_buffer(static_cast<std::size_t>(mc_most * kc_most) * sizeof(T));
   const Buffer b_buffer(static_cast<std::size_t>(kc_most * nc_most) * sizeof(T));
   T* const ap = a_buffer.as<T>();
@@ -269,9 +279,11 @@ void gemm_blocked(const Product<T>& pr) {
     const bool load = pr.accumulate || pc > 0;
     for (Index jc = 0; jc < n; jc += ncb) {
       const Index nc = lesser(ncb, n - jc);
-      if (!wanted(m - 1, jc)) break;  // this block of columns and every later one is above the triangle
+      if (!wanted(m - 1, jc))
+        break;  // this block of columns and every later one is above the triangle
       const Index full_panels = in_place ? nc / nr : 0;
-      pack_b_operand(pr.b, pc, kc, jc + full_panels * nr, nc - full_panels * nr, bp + full_panels * kc * nr);
+      pack_b_operand(pr.b, pc, kc, jc + full_panels * nr, nc - full_panels * nr,
+                     bp + full_panels * kc * nr);
       for (Index ic = 0; ic < m; ic += mcb) {
         const Index mc = lesser(mcb, m - ic);
         if (!wanted(ic + mc - 1, jc)) continue;
@@ -279,7 +291,8 @@ void gemm_blocked(const Product<T>& pr) {
         for (Index jr = 0; jr < nc; jr += nr) {
           const Index cols = lesser(nr, nc - jr), j0 = jc + jr;
           const bool direct = jr / nr < full_panels;
-          const T* bpanel = direct ? b_values + pc + j0 * pr.b.col_stride : bp + (jr / nr) * kc * nr;
+          const T* bpanel =
+              direct ? b_values + pc + j0 * pr.b.col_stride : bp + (jr / nr) * kc * nr;
           for (Index ir = 0; ir < mc; ir += mr) {
             const Index rows = lesser(mr, mc - ir), i0 = ic + ir;
             if (!wanted(i0 + rows - 1, j0)) continue;
@@ -298,7 +311,8 @@ void gemm_blocked(const Product<T>& pr) {
             if (load)
               for (Index j = 0; j < nr; ++j)
                 for (Index i = 0; i < mr; ++i)
-                  edge[i + j * mr] = i < rows && j < cols && wanted(i0 + i, j0 + j) ? ct[i * crs + j * ccs] : T(0);
+                  edge[i + j * mr] =
+                      i < rows && j < cols && wanted(i0 + i, j0 + j) ? ct[i * crs + j * ccs] : T(0);
             if (direct)
               tile<T, false>(kc, apanel, bpanel, pr.b.col_stride, edge, mr, load);
             else
@@ -318,7 +332,8 @@ void gemm_blocked(const Product<T>& pr) {
 // instead of A (m x k), scattered either way, and reads A^T in place. Every entry is the same
 // sum in the same order in both forms (x y = y x exactly).
 template <typename T>
-void gemm_impl(const Shape& s, const Operand& a, const Operand& b, T* c, Index ldc, bool accumulate) {
+void gemm_impl(const Shape& s, const Operand& a, const Operand& b, T* c, Index ldc,
+               bool accumulate) {
   const bool plain = !s.lower && !a.lower_symmetric && !b.lower_symmetric;
   const bool a_transposed = a.row_stride != 1 && a.col_stride == 1;
   const bool a_working = a.single == (sizeof(T) == 4);
@@ -331,7 +346,8 @@ void gemm_impl(const Shape& s, const Operand& a, const Operand& b, T* c, Index l
     if (accumulate)
       for (Index i = 0; i < m; ++i)
         for (Index j = 0; j < n; ++j) ct[j + i * n] = c[i + j * ldc];
-    gemm_blocked(Product<T>{n, m, s.k, false, 0, transposed(b), transposed(a), ct, 1, n, accumulate});
+    gemm_blocked(
+        Product<T>{n, m, s.k, false, 0, transposed(b), transposed(a), ct, 1, n, accumulate});
     for (Index j = 0; j < n; ++j)
       for (Index i = 0; i < m; ++i) c[i + j * ldc] = ct[j + i * n];
     return;
@@ -339,11 +355,13 @@ void gemm_impl(const Shape& s, const Operand& a, const Operand& b, T* c, Index l
   gemm_blocked(Product<T>{s.m, s.n, s.k, s.lower, s.diagonal, a, b, c, 1, ldc, accumulate});
 }
 
-void gemm_f32(const Shape& s, const Operand& a, const Operand& b, float* c, Index ldc, bool accumulate) {
+void gemm_f32(const Shape& s, const Operand& a, const Operand& b, float* c, Index ldc,
+              bool accumulate) {
   gemm_impl<float>(s, a, b, c, ldc, accumulate);
 }
 
-void gemm_f64(const Shape& s, const Operand& a, const Operand& b, double* c, Index ldc, bool accumulate) {
+void gemm_f64(const Shape& s, const Operand& a, const Operand& b, double* c, Index ldc,
+              bool accumulate) {
   gemm_impl<double>(s, a, b, c, ldc, accumulate);
 }
 
@@ -422,8 +440,12 @@ Stats stats_impl(const T* data, std::size_t size) {
   return s;
 }
 
-Stats column_stats_f32(const float* x, std::size_t size) { return stats_impl(x, size); }
-Stats column_stats_f64(const double* x, std::size_t size) { return stats_impl(x, size); }
+Stats column_stats_f32(const float* x, std::size_t size) {
+  return stats_impl(x, size);
+}
+Stats column_stats_f64(const double* x, std::size_t size) {
+  return stats_impl(x, size);
+}
 
 Moments moments_impl(const float* x, Index n) {
   double sums[kLanes] = {};
@@ -452,7 +474,8 @@ double centered_dot_impl(const float* a, double mean_a, const float* b, double m
   Index i = 0;
   for (; i + kLanes <= n; i += kLanes)
     for (int l = 0; l < kLanes; ++l)
-      sums[l] += (static_cast<double>(a[i + l]) - mean_a) * (static_cast<double>(b[i + l]) - mean_b);
+      sums[l] +=
+          (static_cast<double>(a[i + l]) - mean_a) * (static_cast<double>(b[i + l]) - mean_b);
   for (int l = 0; i < n; ++i, ++l)
     sums[l] += (static_cast<double>(a[i]) - mean_a) * (static_cast<double>(b[i]) - mean_b);
   return combine(sums);
@@ -461,8 +484,8 @@ double centered_dot_impl(const float* a, double mean_a, const float* b, double m
 // Plane rotations of column pairs: for each k < count, columns first + k and first + k + 1
 // (x, y) become (c x - s y, s x + c y), in that order. Element by element, so the width of the
 // vectors changes nothing; rows are taken in chunks that stay in cache through the sequence.
-void rotate_columns_impl(double* a, Index ld, Index rows, Index first, const double* c, const double* s,
-                         Index count) {
+void rotate_columns_impl(double* a, Index ld, Index rows, Index first, const double* c,
+                         const double* s, Index count) {
   constexpr Index kChunk = 64;
   for (Index r0 = 0; r0 < rows; r0 += kChunk) {
     const Index h = lesser(kChunk, rows - r0);
@@ -482,7 +505,8 @@ void rotate_columns_impl(double* a, Index ld, Index rows, Index first, const dou
 // Integer products: exact, so any order gives the same sum.
 std::int32_t dot_i8_impl(const std::int8_t* x, const std::int8_t* y, Index n) {
   std::int32_t sum = 0;
-  for (Index i = 0; i < n; ++i) sum += static_cast<std::int32_t>(x[i]) * static_cast<std::int32_t>(y[i]);
+  for (Index i = 0; i < n; ++i)
+    sum += static_cast<std::int32_t>(x[i]) * static_cast<std::int32_t>(y[i]);
   return sum;
 }
 

@@ -45,8 +45,12 @@ struct Operand {
 };
 
 /// A column-major matrix with leading dimension `ld`.
-inline Operand columns(const float* data, std::ptrdiff_t ld) { return Operand{data, true, 1, ld, false}; }
-inline Operand columns(const double* data, std::ptrdiff_t ld) { return Operand{data, false, 1, ld, false}; }
+inline Operand columns(const float* data, std::ptrdiff_t ld) {
+  return Operand{data, true, 1, ld, false};
+}
+inline Operand columns(const double* data, std::ptrdiff_t ld) {
+  return Operand{data, false, 1, ld, false};
+}
 /// The transpose of `o`.
 inline Operand transposed(Operand o) {
   const std::ptrdiff_t r = o.row_stride;
@@ -67,9 +71,11 @@ struct Shape {
 /// A m x k and B k x n. Each computed entry starts from 0 (or its value in C) and adds the k
 /// products a_il b_lj, each rounded to float, one at a time in increasing l. Entries outside
 /// the shape are not written.
-void gemm(const Shape& shape, const Operand& a, const Operand& b, float* c, std::ptrdiff_t ldc, bool accumulate);
+void gemm(const Shape& shape, const Operand& a, const Operand& b, float* c, std::ptrdiff_t ldc,
+          bool accumulate);
 /// The same in double; float operands are converted (exactly) to double.
-void gemm(const Shape& shape, const Operand& a, const Operand& b, double* c, std::ptrdiff_t ldc, bool accumulate);
+void gemm(const Shape& shape, const Operand& a, const Operand& b, double* c, std::ptrdiff_t ldc,
+          bool accumulate);
 
 /// Statistics of one column over its non-NaN values (pare::ColumnStats, see stats.h for the
 /// method): 8 interleaved lanes of sums, combined in a fixed order.
@@ -95,7 +101,7 @@ std::int32_t dot_i8(const std::int8_t* x, const std::int8_t* y, std::ptrdiff_t n
 /// Plane rotations of the column-major matrix `a` (leading dimension ld, `rows` rows): for k = 0,
 /// 1, ..., count - 1 in turn, columns x = first + k and y = first + k + 1 become c_k x - s_k y and
 /// s_k x + c_k y (a <- a G_k, G_k = [c_k s_k; -s_k c_k] in that plane).
-void rotate_columns(double* a, std::ptrdiff_t ld, std::ptrdiff_t rows, std::ptrdiff_t first, const double* c,
-                    const double* s, std::ptrdiff_t count);
+void rotate_columns(double* a, std::ptrdiff_t ld, std::ptrdiff_t rows, std::ptrdiff_t first,
+                    const double* c, const double* s, std::ptrdiff_t count);
 
 }  // namespace pare::kernels

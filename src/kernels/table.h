@@ -14,8 +14,8 @@ struct Table {
   Moments (*moments)(const float*, std::ptrdiff_t);
   double (*centered_dot)(const float*, double, const float*, double, std::ptrdiff_t);
   std::int32_t (*dot_i8)(const std::int8_t*, const std::int8_t*, std::ptrdiff_t);
-  void (*rotate_columns)(double*, std::ptrdiff_t, std::ptrdiff_t, std::ptrdiff_t, const double*, const double*,
-                         std::ptrdiff_t);
+  void (*rotate_columns)(double*, std::ptrdiff_t, std::ptrdiff_t, std::ptrdiff_t, const double*,
+                         const double*, std::ptrdiff_t);
 };
 
 extern const Table baseline_table;
