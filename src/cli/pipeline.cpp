@@ -40,15 +40,16 @@ PipelineResult reduce_and_write(const InputOptions& input, const CommonOptions& 
                                 const std::vector<std::string>& command_line, std::ostream& out,
                                 LoadedData* kept = nullptr) {
   const bool supervised = options.select && options.reduce.relevance && (!input.label.empty() || !input.labels.empty());
-  LoadedData loaded = load_data(data_request(input, common, supervised), common);
+  const DataRequest request = data_request(input, common, supervised);
+  LoadedData loaded = load_data(request, common);
   // (`project` selects nothing, so the note is only for `reduce`)
   if (!common.quiet && !loaded.table.has_labels() && options.select)
     out << "pare reduce: no labels given, so features are ranked by variance and the supervised steps "
            "(relevance, --fdr) are skipped\n";
-  const RunRecord record = run_record(data_request(input, common, supervised), loaded, command_line, common.seed);
+  const RunRecord record = run_record(request, loaded, command_line, common.seed);
   options.seed = common.seed;
   options.threads = common.threads;
-  options.memory = read_options_from(input, common).memory;
+  options.memory = request.read.memory;
   const PipelineResult result = reduce_to_folder(loaded.table, options, record, common.out);
   if (!common.quiet) out << cli_words(reduce_summary(loaded.table, result, record, common.out));
   if (kept) *kept = std::move(loaded);
