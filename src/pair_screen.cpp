@@ -9,7 +9,7 @@
 
 #if defined(__x86_64__) && (defined(__GNUC__) || defined(__clang__))
 #include <immintrin.h>
-#define PARE_SCREEN_VNNI 1
+#define PARE_PAIR_CODE_X86 1
 #endif
 
 namespace pare::internal {
@@ -26,8 +26,8 @@ std::atomic<bool> vnni_allowed{true};
 
 }  // namespace
 
-ScreenNorms code_subset(const float* z, Eigen::Index m, Eigen::Index padded, double rest, std::int8_t* q) {
-  ScreenNorms out;
+PairCodeNorms pair_code_subset(const float* z, Eigen::Index m, Eigen::Index padded, double rest, std::int8_t* q) {
+  PairCodeNorms out;
   out.rest = up(rest);
   float top = 0;
   for (Eigen::Index i = 0; i < m; ++i) top = std::max(top, std::abs(z[i]));
@@ -51,27 +51,28 @@ ScreenNorms code_subset(const float* z, Eigen::Index m, Eigen::Index padded, dou
   return out;
 }
 
-void ScreenBlock::reset(Eigen::Index rows, Eigen::Index count, Eigen::Index rows2) {
+void PairCodeBlock::reset(Eigen::Index rows, Eigen::Index count, Eigen::Index rows2) {
   rows_ = rows;
   padded_ = (rows + 3) / 4 * 4;
   rows2_ = rows2;
   padded2_ = (rows2 + 63) / 64 * 64;
   codes_.resize(static_cast<std::size_t>(padded_ * count));
   codes2_.resize(static_cast<std::size_t>(padded2_ * count));
-  norms_.assign(static_cast<std::size_t>(count), ScreenNorms{});
-  norms2_.assign(static_cast<std::size_t>(count), ScreenNorms{});
+  norms_.assign(static_cast<std::size_t>(count), PairCodeNorms{});
+  norms2_.assign(static_cast<std::size_t>(count), PairCodeNorms{});
 }
 
-void ScreenBlock::set(Eigen::Index b, const float* z, double rest, double rest2) {
+void PairCodeBlock::set(Eigen::Index b, const float* z, double rest, double rest2) {
   auto* row = codes_.data() + b * padded_;
   auto* q = reinterpret_cast<std::int8_t*>(row);
-  norms_[static_cast<std::size_t>(b)] = code_subset(z, rows_, padded_, rest, q);
+  norms_[static_cast<std::size_t>(b)] = pair_code_subset(z, rows_, padded_, rest, q);
   for (Eigen::Index i = 0; i < padded_; ++i) row[i] = static_cast<std::uint8_t>(q[i] + 128);
   if (rows2_ > 0)
-    norms2_[static_cast<std::size_t>(b)] = code_subset(z + rows_, rows2_, padded2_, rest2, codes2_.data() + b * padded2_);
+    norms2_[static_cast<std::size_t>(b)] =
+        pair_code_subset(z + rows_, rows2_, padded2_, rest2, codes2_.data() + b * padded2_);
 }
 
-void ScreenKept::append(const ScreenBlock& block, Eigen::Index b) {
+void PairCodeKept::append(const PairCodeBlock& block, Eigen::Index b) {
   const Eigen::Index k = size_++;
   const Eigen::Index g = k / 16, lane = k % 16;
   // Whole pairs of groups, so the kernel can always read two.
@@ -91,7 +92,7 @@ void ScreenKept::append(const ScreenBlock& block, Eigen::Index b) {
     codes2_.insert(codes2_.end(), block.row2(b), block.row2(b) + padded2_);
     norms2_.push_back(block.norms2(b));
   }
-  const ScreenNorms& nb = block.norms(b);
+  const PairCodeNorms& nb = block.norms(b);
   const auto at = static_cast<std::size_t>(k);
   scale_[at] = nb.scale;
   coded_[at] = nb.coded;
@@ -103,20 +104,20 @@ void ScreenKept::append(const ScreenBlock& block, Eigen::Index b) {
 namespace {
 
 // s_k s_b (q_k . q_b) from the integer product of the kept codes with the candidate's plus 128.
-inline float signed_product(const ScreenKept& kept, Eigen::Index k, std::int32_t product, const ScreenNorms& nb) {
+inline float signed_product(const PairCodeKept& kept, Eigen::Index k, std::int32_t product, const PairCodeNorms& nb) {
   return static_cast<float>(product - kept.offset()[k]) * (kept.scale()[k] * nb.scale);
 }
 
 // The bound for kept feature k and a candidate, given the integer product of the kept codes with
 // the candidate's codes plus 128.
-inline float bound_of(const ScreenKept& kept, Eigen::Index k, std::int32_t product, const ScreenNorms& nb) {
+inline float bound_of(const PairCodeKept& kept, Eigen::Index k, std::int32_t product, const PairCodeNorms& nb) {
   const float p = signed_product(kept, k, product, nb);
   const float slack = kept.coded()[k] * nb.error + kept.error()[k] * nb.subset + kept.rest()[k] * nb.rest;
   return std::abs(p) + slack;
 }
 
 // The integer product of kept feature k's codes with candidate b's.
-std::int32_t product_of(const ScreenKept& kept, Eigen::Index k, const ScreenBlock& block, Eigen::Index b) {
+std::int32_t product_of(const PairCodeKept& kept, Eigen::Index k, const PairCodeBlock& block, Eigen::Index b) {
   const std::int8_t* codes = kept.group(k / 16) + (k % 16) * 4;
   const std::uint8_t* u = block.row(b);
   std::int32_t product = 0;
@@ -125,18 +126,19 @@ std::int32_t product_of(const ScreenKept& kept, Eigen::Index k, const ScreenBloc
   return product;
 }
 
-void screen_portable(const ScreenKept& kept, const ScreenBlock& block, float cut, Eigen::Index first, int width,
-                     Eigen::Index g0, Eigen::Index g1, ScreenSurvivors& out) {
+void find_portable(const PairCodeKept& kept, const PairCodeBlock& block, float cut, Eigen::Index first, int width,
+                   Eigen::Index g0, Eigen::Index g1, PairCodeSurvivors& out) {
   for (int c = 0; c < width; ++c)
     for (Eigen::Index k = g0 * 16; k < std::min(kept.size(), g1 * 16); ++k) {
-      const ScreenNorms& nb = block.norms(first + c);
+      const PairCodeNorms& nb = block.norms(first + c);
       const std::int32_t product = product_of(kept, k, block, first + c);
       if (!(bound_of(kept, k, product, nb) < cut))
-        out[static_cast<std::size_t>(c)].push_back(ScreenHit{static_cast<std::int32_t>(k), signed_product(kept, k, product, nb)});
+        out[static_cast<std::size_t>(c)].push_back(
+            PairCodeHit{static_cast<std::int32_t>(k), signed_product(kept, k, product, nb)});
     }
 }
 
-#ifdef PARE_SCREEN_VNNI
+#ifdef PARE_PAIR_CODE_X86
 
 // Sample quad t of a candidate's codes, in every 32-bit lane.
 __attribute__((target("avx512f"))) inline __m512i quad_of(const std::uint8_t* row, Eigen::Index t) {
@@ -147,17 +149,17 @@ __attribute__((target("avx512f"))) inline __m512i quad_of(const std::uint8_t* ro
 
 // Two groups of 16 kept features against up to 8 candidates per pass: 16 accumulators, each
 // sample quad two loads and eight broadcasts for 16 VNNI products of 64 byte pairs.
-__attribute__((target("avx512f,avx512bw,avx512dq,avx512vnni"))) void screen_vnni(const ScreenKept& kept,
-                                                                         const ScreenBlock& block, float cut,
-                                                                         Eigen::Index first, int width, Eigen::Index g0,
-                                                                         Eigen::Index g1, ScreenSurvivors& out) {
+__attribute__((target("avx512f,avx512bw,avx512dq,avx512vnni"))) void find_vnni(const PairCodeKept& kept,
+                                                                       const PairCodeBlock& block, float cut,
+                                                                       Eigen::Index first, int width, Eigen::Index g0,
+                                                                       Eigen::Index g1, PairCodeSurvivors& out) {
   const Eigen::Index quads = kept.quads();
-  const std::uint8_t* rows[kScreenTile];
-  __m512 scale_b[kScreenTile], error_b[kScreenTile], subset_b[kScreenTile], rest_b[kScreenTile];
-  for (int c = 0; c < kScreenTile; ++c) {
+  const std::uint8_t* rows[kPairCodeTile];
+  __m512 scale_b[kPairCodeTile], error_b[kPairCodeTile], subset_b[kPairCodeTile], rest_b[kPairCodeTile];
+  for (int c = 0; c < kPairCodeTile; ++c) {
     const Eigen::Index b = first + std::min(c, width - 1);
     rows[c] = block.row(b);
-    const ScreenNorms& nb = block.norms(b);
+    const PairCodeNorms& nb = block.norms(b);
     scale_b[c] = _mm512_set1_ps(nb.scale);
     error_b[c] = _mm512_set1_ps(nb.error);
     subset_b[c] = _mm512_set1_ps(nb.subset);
@@ -200,7 +202,7 @@ __attribute__((target("avx512f,avx512bw,avx512dq,avx512vnni"))) void screen_vnni
       a7 = _mm512_dpbusd_epi32(a7, u, x);
       b7 = _mm512_dpbusd_epi32(b7, u, y);
     }
-    const __m512i acc[2][kScreenTile] = {{a0, a1, a2, a3, a4, a5, a6, a7}, {b0, b1, b2, b3, b4, b5, b6, b7}};
+    const __m512i acc[2][kPairCodeTile] = {{a0, a1, a2, a3, a4, a5, a6, a7}, {b0, b1, b2, b3, b4, b5, b6, b7}};
     for (int h = 0; h < 2 && g + h < g1; ++h) {
       const Eigen::Index base = (g + h) * 16;
       const Eigen::Index valid = std::min<Eigen::Index>(16, kept.size() - base);
@@ -226,7 +228,8 @@ __attribute__((target("avx512f,avx512bw,avx512dq,avx512vnni"))) void screen_vnni
           while (hit) {
             const int lane = __builtin_ctz(hit);
             hit &= hit - 1;
-            out[static_cast<std::size_t>(c)].push_back(ScreenHit{static_cast<std::int32_t>(base + lane), products[lane]});
+            out[static_cast<std::size_t>(c)].push_back(
+                PairCodeHit{static_cast<std::int32_t>(base + lane), products[lane]});
           }
         }
       }
@@ -244,9 +247,9 @@ __attribute__((target("avx2"))) inline __m256i quad16_of(const std::uint8_t* row
 // The bounds of 8 kept features (from `base`) with a candidate, given their integer products: the
 // operations of bound_of in the same order, lane by lane (no fused multiply-add: the target has
 // none), so the survivors are the portable loop's.
-__attribute__((target("avx2"))) inline void bounds_avx2(const ScreenKept& kept, Eigen::Index base, __m256i product,
-                                                        const ScreenNorms& nb, float cut, int c, Eigen::Index valid,
-                                                        ScreenSurvivors& out) {
+__attribute__((target("avx2"))) inline void bounds_avx2(const PairCodeKept& kept, Eigen::Index base, __m256i product,
+                                                        const PairCodeNorms& nb, float cut, int c, Eigen::Index valid,
+                                                        PairCodeSurvivors& out) {
   const __m256i offset = _mm256_loadu_si256(reinterpret_cast<const __m256i*>(kept.offset() + base));
   const __m256 p = _mm256_mul_ps(_mm256_cvtepi32_ps(_mm256_sub_epi32(product, offset)),
                                  _mm256_mul_ps(_mm256_loadu_ps(kept.scale() + base), _mm256_set1_ps(nb.scale)));
@@ -263,21 +266,21 @@ __attribute__((target("avx2"))) inline void bounds_avx2(const ScreenKept& kept, 
   while (hit) {
     const int lane = __builtin_ctz(hit);
     hit &= hit - 1;
-    out[static_cast<std::size_t>(c)].push_back(ScreenHit{static_cast<std::int32_t>(base + lane), products[lane]});
+    out[static_cast<std::size_t>(c)].push_back(PairCodeHit{static_cast<std::int32_t>(base + lane), products[lane]});
   }
 }
 
 // One group of 16 kept features against two candidates per pass (AVX2, no VNNI): the codes
 // widened to 16 bits and multiplied in pairs into 32-bit lanes (_mm256_madd_epi16: exact, |u k|
 // <= 255 x 127), each feature's two lanes added at the end.
-__attribute__((target("avx2"))) void screen_avx2(const ScreenKept& kept, const ScreenBlock& block, float cut,
-                                                 Eigen::Index first, int width, Eigen::Index g0, Eigen::Index g1,
-                                                 ScreenSurvivors& out) {
+__attribute__((target("avx2"))) void find_avx2(const PairCodeKept& kept, const PairCodeBlock& block, float cut,
+                                               Eigen::Index first, int width, Eigen::Index g0, Eigen::Index g1,
+                                               PairCodeSurvivors& out) {
   const Eigen::Index quads = kept.quads();
   for (int c = 0; c < width; c += 2) {
     const int d = std::min(c + 1, width - 1);  // the second candidate (c again at an odd end)
     const std::uint8_t *row_c = block.row(first + c), *row_d = block.row(first + d);
-    const ScreenNorms &norms_c = block.norms(first + c), &norms_d = block.norms(first + d);
+    const PairCodeNorms &norms_c = block.norms(first + c), &norms_d = block.norms(first + d);
     for (Eigen::Index g = g0; g < g1; ++g) {
       __m256i a0 = _mm256_setzero_si256(), a1 = a0, a2 = a0, a3 = a0, b0 = a0, b1 = a0, b2 = a0, b3 = a0;
       const std::int8_t* codes = kept.group(g);
@@ -326,8 +329,8 @@ inline __m128i pair_sums(__m128i a, __m128i b) {  // lanes (0 + 1, 2 + 3) of a, 
                        _mm_castps_si128(_mm_shuffle_ps(fa, fb, _MM_SHUFFLE(3, 1, 3, 1))));
 }
 
-void bounds_sse2(const ScreenKept& kept, Eigen::Index base, __m128i product, const ScreenNorms& nb, float cut, int c,
-                 Eigen::Index valid, ScreenSurvivors& out) {
+void bounds_sse2(const PairCodeKept& kept, Eigen::Index base, __m128i product, const PairCodeNorms& nb, float cut,
+                 int c, Eigen::Index valid, PairCodeSurvivors& out) {
   const __m128i offset = _mm_loadu_si128(reinterpret_cast<const __m128i*>(kept.offset() + base));
   const __m128 p = _mm_mul_ps(_mm_cvtepi32_ps(_mm_sub_epi32(product, offset)),
                               _mm_mul_ps(_mm_loadu_ps(kept.scale() + base), _mm_set1_ps(nb.scale)));
@@ -343,16 +346,16 @@ void bounds_sse2(const ScreenKept& kept, Eigen::Index base, __m128i product, con
   while (hit) {
     const int lane = __builtin_ctz(hit);
     hit &= hit - 1;
-    out[static_cast<std::size_t>(c)].push_back(ScreenHit{static_cast<std::int32_t>(base + lane), products[lane]});
+    out[static_cast<std::size_t>(c)].push_back(PairCodeHit{static_cast<std::int32_t>(base + lane), products[lane]});
   }
 }
 
-void screen_sse2(const ScreenKept& kept, const ScreenBlock& block, float cut, Eigen::Index first, int width,
-                 Eigen::Index g0, Eigen::Index g1, ScreenSurvivors& out) {
+void find_sse2(const PairCodeKept& kept, const PairCodeBlock& block, float cut, Eigen::Index first, int width,
+               Eigen::Index g0, Eigen::Index g1, PairCodeSurvivors& out) {
   const Eigen::Index quads = kept.quads();
   for (int c = 0; c < width; ++c) {
     const std::uint8_t* row = block.row(first + c);
-    const ScreenNorms& nb = block.norms(first + c);
+    const PairCodeNorms& nb = block.norms(first + c);
     for (Eigen::Index g = g0; g < g1; ++g) {
       const Eigen::Index base = g * 16;
       const Eigen::Index valid = std::min<Eigen::Index>(16, kept.size() - base);
@@ -390,8 +393,8 @@ bool cpu_has_vnni() {
 
 }  // namespace
 
-bool screen_uses_vnni() {
-#ifdef PARE_SCREEN_VNNI
+bool pair_code_uses_vnni() {
+#ifdef PARE_PAIR_CODE_X86
   // Only with the AVX-512 kernels running (kernels::force_level can choose a lower level).
   return vnni_allowed.load(std::memory_order_relaxed) && cpu_has_vnni() &&
          kernels::active_level() == kernels::Level::kAvx512;
@@ -400,51 +403,52 @@ bool screen_uses_vnni() {
 #endif
 }
 
-bool screen_uses_avx2() {
-#ifdef PARE_SCREEN_VNNI
-  return vnni_allowed.load(std::memory_order_relaxed) && !screen_uses_vnni() &&
+bool pair_code_uses_avx2() {
+#ifdef PARE_PAIR_CODE_X86
+  return vnni_allowed.load(std::memory_order_relaxed) && !pair_code_uses_vnni() &&
          kernels::active_level() != kernels::Level::kBaseline;
 #else
   return false;
 #endif
 }
 
-void screen_allow_vnni(bool allow) { vnni_allowed.store(allow); }
+void pair_code_allow_vnni(bool allow) { vnni_allowed.store(allow); }
 
-float screen_second_bound(const ScreenKept& kept, const ScreenBlock& block, Eigen::Index b, const ScreenHit& hit) {
+float pair_code_second_bound(const PairCodeKept& kept, const PairCodeBlock& block, Eigen::Index b,
+                             const PairCodeHit& hit) {
   const Eigen::Index k = hit.k;
   const std::int8_t* x = kept.row2(k);
   const std::int8_t* y = block.row2(b);
   const std::int32_t product = kernels::dot_i8(x, y, block.padded2());
-  const ScreenNorms &n1 = block.norms(b), &n2k = kept.norms2(k), &n2b = block.norms2(b);
+  const PairCodeNorms &n1 = block.norms(b), &n2k = kept.norms2(k), &n2b = block.norms2(b);
   const float p = hit.product + static_cast<float>(product) * (n2k.scale * n2b.scale);
   const float slack = kept.coded()[k] * n1.error + kept.error()[k] * n1.subset + n2k.coded * n2b.error +
                       n2k.error * n2b.subset + n2k.rest * n2b.rest;
   return std::abs(p) + slack;
 }
 
-float screen_bound(const ScreenKept& kept, Eigen::Index k, const ScreenBlock& block, Eigen::Index b) {
+float pair_code_bound(const PairCodeKept& kept, Eigen::Index k, const PairCodeBlock& block, Eigen::Index b) {
   return bound_of(kept, k, product_of(kept, k, block, b), block.norms(b));
 }
 
-void screen_pairs(const ScreenKept& kept, const ScreenBlock& block, float cut, Eigen::Index first, int width,
-                  Eigen::Index g0, Eigen::Index g1, ScreenSurvivors& out) {
+void pair_code_find(const PairCodeKept& kept, const PairCodeBlock& block, float cut, Eigen::Index first, int width,
+                    Eigen::Index g0, Eigen::Index g1, PairCodeSurvivors& out) {
   if (width <= 0 || g1 <= g0) return;
-#ifdef PARE_SCREEN_VNNI
-  if (screen_uses_vnni()) {
-    screen_vnni(kept, block, cut, first, width, g0, g1, out);
+#ifdef PARE_PAIR_CODE_X86
+  if (pair_code_uses_vnni()) {
+    find_vnni(kept, block, cut, first, width, g0, g1, out);
     return;
   }
-  if (screen_uses_avx2()) {
-    screen_avx2(kept, block, cut, first, width, g0, g1, out);
+  if (pair_code_uses_avx2()) {
+    find_avx2(kept, block, cut, first, width, g0, g1, out);
     return;
   }
   if (vnni_allowed.load(std::memory_order_relaxed)) {
-    screen_sse2(kept, block, cut, first, width, g0, g1, out);
+    find_sse2(kept, block, cut, first, width, g0, g1, out);
     return;
   }
 #endif
-  screen_portable(kept, block, cut, first, width, g0, g1, out);
+  find_portable(kept, block, cut, first, width, g0, g1, out);
 }
 
 }  // namespace pare::internal

@@ -7,6 +7,7 @@
 #include <algorithm>  // std::min, std::max, std::stable_sort
 #include <cmath>      // std::sqrt, std::hypot, std::abs
 #include <limits>     // std::numeric_limits
+#include <utility>    // std::move
 #include <vector>     // std::vector
 
 #include "internal/columns.h"
@@ -319,6 +320,294 @@ class RitzPairs {
   bool ok_ = true;
 };
 
+// Centres and scales `x` in place, column by column, in double, recording out.center and
+// out.scale; returns the squared Frobenius norm of the result. On disk a thread gives back a 2 MiB
+// window when its walk leaves it (releasing each column would drop the window its next column is
+// in).
+double standardise_columns(MatrixRef x, const ProjectionOptions& o, int threads, Projection& out) {
+  const Index n = x.rows(), p = x.cols();
+  VecD squares(p);
+#pragma omp parallel num_threads(threads)
+  {
+    internal::WindowWalk walk(static_cast<std::size_t>(n) * sizeof(float));
+#pragma omp for schedule(dynamic, 64)
+    for (Index j = 0; j < p; ++j) {
+      float* col = x.col(j).data();
+      double mean = 0;
+      if (o.center) {
+        double sum = 0;
+        for (Index i = 0; i < n; ++i) sum += static_cast<double>(col[i]);
+        mean = sum / static_cast<double>(n);
+      }
+      double ss = 0;
+      for (Index i = 0; i < n; ++i) {
+        const double d = static_cast<double>(col[i]) - mean;
+        ss += d * d;
+      }
+      double sd = 1;
+      if (o.scale) {
+        sd = std::sqrt(ss / static_cast<double>(n - 1));
+        if (!(sd > 0)) sd = 1;  // a constant column stays all zero
+      }
+      for (Index i = 0; i < n; ++i) col[i] = static_cast<float>((static_cast<double>(col[i]) - mean) / sd);
+      out.center(j) = mean;
+      out.scale(j) = sd;
+      double stored = 0;
+      for (Index i = 0; i < n; ++i) stored += static_cast<double>(col[i]) * static_cast<double>(col[i]);
+      squares(j) = stored;
+      walk.visited(col);
+    }
+  }
+  double frobenius2 = 0;
+  for (Index j = 0; j < p; ++j) frobenius2 += squares(j);
+  return frobenius2;
+}
+
+// The leading singular values with the scores (U Sigma, n x k) and loadings (V, p x k) before the
+// sign convention.
+struct Factors {
+  VecD sigma;
+  MatD scores, loadings;
+};
+
+// The exact eigendecomposition of the short side's Gram matrix, in double.
+Factors dense_pca(const ConstMatrixRef& x, bool wide, Index k, int threads, Projection& out) {
+  const Index p = x.cols();
+  out.method = "dense";
+  out.precision = "double";
+  out.residual = 0;
+  Factors f;
+  const MatD g = gram(x, wide, threads);
+  Eigen::SelfAdjointEigenSolver<MatD> es(g);
+  if (es.info() != Eigen::Success) throw Error(ErrorKind::kOther, "PCA: the eigensolver failed");
+  MatD vectors = es.eigenvectors().rightCols(k).rowwise().reverse();
+  f.sigma = es.eigenvalues().tail(k).reverse().cwiseMax(0.0).cwiseSqrt();
+  if (wide) {
+    const MatD w = times_t<double>(x, vectors, threads);  // X^T U = V Sigma
+    f.loadings = MatD::Zero(p, k);
+    for (Index c = 0; c < k; ++c) {
+      const double norm = w.col(c).norm();
+      if (norm > 0) f.loadings.col(c) = w.col(c) / norm;
+    }
+    f.scores = vectors * f.sigma.asDiagonal();
+  } else {
+    f.loadings = vectors;
+    f.scores = times<double>(x, f.loadings, threads);
+  }
+  return f;
+}
+
+// The short side's Gram operator M = X X^T (wide) or X^T X (tall), applied as two products with X
+// (in float or double), never formed; or, with `use_gram` (wide, float), formed once in double
+// and applied as one product.
+class GramOperator {
+ public:
+  GramOperator(const ConstMatrixRef& x, bool wide, bool use_float, bool use_gram, int threads)
+      : x_(x), wide_(wide), use_float_(use_float), use_gram_(use_gram), threads_(threads) {
+    if (use_gram_) g_lower_ = gram_wide_float(x_, threads_);
+  }
+
+  // M Q.
+  MatD apply(const MatD& q) const {
+    if (use_gram_) {
+      // G Q with G symmetric, its lower triangle stored.
+      const Index n = x_.rows();
+      kernels::Operand g = kernels::columns(g_lower_.data(), n);
+      g.lower_symmetric = true;
+      MatD y(n, q.cols());
+      kernels::gemm(kernels::Shape{n, q.cols(), n}, g, kernels::columns(q.data(), n), y.data(), n, false);
+      return y;
+    }
+    if (use_float_) {
+      const MatF qf = q.cast<float>();
+      const MatF y = wide_ ? times<float>(x_, times_t<float>(x_, qf, threads_), threads_)
+                           : times_t<float>(x_, times<float>(x_, qf, threads_), threads_);
+      return y.cast<double>();
+    }
+    return wide_ ? times<double>(x_, times_t<double>(x_, q, threads_), threads_)
+                 : times_t<double>(x_, times<double>(x_, q, threads_), threads_);
+  }
+
+ private:
+  const ConstMatrixRef& x_;
+  bool wide_, use_float_, use_gram_;
+  int threads_;
+  MatD g_lower_;  // with use_gram: the lower triangle of X X^T
+};
+
+// The first block of the Krylov space: `block` normal columns from the seed, orthonormalised.
+MatD start_block(Index m, Index block, std::uint64_t seed) {
+  internal::Rng rng(seed, 0x5043);
+  MatD start(m, block);
+  for (Index c = 0; c < block; ++c)
+    for (Index i = 0; i < m; ++i) start(i, c) = rng.normal();
+  return orthonormal_columns(start);
+}
+
+// One block Krylov iteration: `y` = M times the newest block is orthogonalised against every
+// block of the basis (two passes), its coefficients extend T by a block row and column, and the
+// QR of the remainder gives the next block and its R factor (the residuals' source).
+struct KrylovStep {
+  MatD next;  // the next block, orthonormal and orthogonal to the basis
+  MatD r;     // R = next^T y for the orthogonalised y
+};
+
+KrylovStep extend_basis(const std::vector<MatD>& basis, MatD& t, MatD y, Index block) {
+  const Index b = static_cast<Index>(basis.size());
+  MatD coef = MatD::Zero(b * block, block);
+  for (int pass = 0; pass < 2; ++pass)
+    for (Index j = 0; j < b; ++j) {
+      const MatD c = mul_tn(basis[static_cast<std::size_t>(j)], y);
+      y -= mul(basis[static_cast<std::size_t>(j)], c);
+      coef.middleRows(j * block, block) += c;
+    }
+  MatD grown = MatD::Zero(b * block, b * block);
+  grown.topLeftCorner((b - 1) * block, (b - 1) * block) = t;
+  grown.rightCols(block) = coef;
+  grown.bottomRows(block) = coef.transpose();
+  const MatD diagonal = coef.bottomRows(block);
+  grown.bottomRightCorner(block, block) = (diagonal + diagonal.transpose()) / 2;
+  t.swap(grown);
+
+  KrylovStep step;
+  step.next = orthonormal_columns(y);
+  step.r = mul_tn(step.next, y);
+  // Guard against a nearly invariant space: make the new block orthogonal again.
+  for (Index j = 0; j < b; ++j)
+    step.next -= mul(basis[static_cast<std::size_t>(j)], mul_tn(basis[static_cast<std::size_t>(j)], step.next));
+  step.next = orthonormal_columns(step.next);
+  return step;
+}
+
+// The convergence test: the largest residual ||R s_last|| of the leading k Ritz pairs relative to
+// the largest Ritz value, s_last the last `block` rows of a Ritz vector's coordinates (largest
+// first) on a basis of b blocks.
+double ritz_residual(const RitzPairs& pairs, const MatD& r, Index b, Index block, Index k) {
+  const VecD& theta = pairs.values();
+  const MatD tail = pairs.rows(b * block - block, block, k);
+  double worst = 0;
+  const double top = std::max(theta(0), 1e-300);
+  for (Index c = 0; c < k; ++c) worst = std::max(worst, (r * tail.col(c)).norm() / top);
+  return worst;
+}
+
+// The leading `block` Ritz vectors (m x block): the basis times their coordinates.
+MatD ritz_vectors(const RitzPairs& pairs, const std::vector<MatD>& basis, Index m, Index block) {
+  const auto b = static_cast<Index>(basis.size());
+  const MatD svec = pairs.rows(0, b * block, block);
+  MatD ritz = MatD::Zero(m, block);
+  for (Index j = 0; j < b; ++j)
+    kernels::gemm(kernels::Shape{m, block, block}, operand(basis[static_cast<std::size_t>(j)]),
+                  kernels::columns(svec.data() + j * block, svec.rows()), ritz.data(), m, true);
+  return ritz;
+}
+
+// The final Rayleigh-Ritz step in double: the SVD of X^T U (wide) or X U (tall) on the Ritz space.
+Factors rayleigh_ritz(const ConstMatrixRef& x, const MatD& ritz, bool wide, Index k, int threads) {
+  Factors f;
+  if (wide) {
+    const Triplets svd = leading_svd(times_t<double>(x, ritz, threads), k);  // of X^T U, p x block
+    f.sigma = svd.sigma;
+    f.loadings = svd.u;
+    f.scores = mul(ritz, svd.v) * f.sigma.asDiagonal();
+  } else {
+    const Triplets svd = leading_svd(times<double>(x, ritz, threads), k);  // of X U, n x block
+    f.sigma = svd.sigma;
+    f.scores = svd.u * f.sigma.asDiagonal();
+    f.loadings = mul(ritz, svd.v);
+  }
+  return f;
+}
+
+enum class KrylovEnd {
+  kConverged,     // the factors are set
+  kExhausted,     // the space cannot grow to meet the tolerance: compute densely instead
+  kNotConverged,  // max_iterations reached: out.status says how far it got
+};
+
+// Block Krylov (block Lanczos with full reorthogonalisation) on the short side's Gram operator
+// M = X X^T (wide) or X^T X (tall). Each new block is M times the last one, orthogonalised against
+// all earlier blocks; the coefficients give the Rayleigh quotient T = Q^T M Q directly, and the QR
+// factor R of the remainder gives the exact residual of every Ritz pair (theta, Q s): ||R s_last||
+// (Golub & Van Loan, Matrix Computations, 4th ed., §10.3.6). A block Krylov space reaches a given
+// accuracy in far fewer passes over the data than subspace (power) iteration, and each pass is two
+// matrix products that run at GEMM speed, which is why it beats both Lanczos with single vectors
+// (memory-bound matrix-vector products) and randomized subspace iteration here (see
+// notebooks-free-docs/numerics.md). Large matrices iterate with float32 products; the final
+// Rayleigh-Ritz step is in double.
+KrylovEnd krylov_pca(const ConstMatrixRef& x, const ProjectionOptions& o, Index block, int threads, Projection& out,
+                     Factors& f) {
+  const Index n = x.rows(), p = x.cols(), m = std::min(n, p), k = o.components;
+  const bool wide = n <= p;
+  out.method = "block Krylov";
+  const bool use_float =
+      o.float_products || static_cast<double>(n) * static_cast<double>(p) > static_cast<double>(Index{1} << 24);
+  out.precision = use_float ? "float" : "double";
+  const double tolerance = use_float ? std::max(o.tolerance, 3e-5) : o.tolerance;
+  // A wide matrix of up to 32 blocks' worth of samples: its Gram matrix X X^T is formed once
+  // (n^2 p / 2 products), which costs less than the two products per Krylov block (2 n p b each)
+  // of the usual eight or more blocks (n / 2 < 16 b); the blocks then multiply by the n x n Gram
+  // matrix.
+  const bool use_gram = use_float && wide && n <= 32 * block;
+  if (use_gram) out.method = "block Krylov on the Gram matrix";
+  const GramOperator op(x, wide, use_float, use_gram, threads);
+
+  std::vector<MatD> basis{start_block(m, block, o.seed)};
+  MatD t(0, 0);
+  ProgressStep progress("PCA", 0, "blocks");  // how many it takes is not known in advance
+  for (int it = 1; it <= o.max_iterations; ++it) {
+    progress.add(1);
+    const Index b = static_cast<Index>(basis.size());
+    KrylovStep step = extend_basis(basis, t, op.apply(basis.back()), block);
+    const RitzPairs pairs(t);
+    if (!pairs.ok()) throw Error(ErrorKind::kOther, "PCA: the eigensolver failed");
+    const double worst = ritz_residual(pairs, step.r, b, block, k);
+    out.iterations = it;
+    out.residual = worst;
+    const bool exhausted = (b + 1) * block > m;
+    // Another whole block no longer fits beside the basis (b blocks, under m columns), so the
+    // Krylov space cannot grow to meet the tolerance: compute exactly instead. By now the
+    // iteration has cost about as much as the dense method.
+    if (worst > tolerance && exhausted) return KrylovEnd::kExhausted;
+    if (worst <= tolerance) {
+      f = rayleigh_ritz(x, ritz_vectors(pairs, basis, m, block), wide, k, threads);
+      return KrylovEnd::kConverged;
+    }
+    basis.push_back(std::move(step.next));
+  }
+  // A status, not an error: the caller decides (a run stops, the sample screen goes without).
+  out.converged = false;
+  out.status = "PCA did not converge: after " + std::to_string(o.max_iterations) +
+               " Krylov blocks the largest relative residual is " + std::to_string(out.residual) + " (tolerance " +
+               std::to_string(tolerance) + ")";
+  out.iterations = o.max_iterations;
+  return KrylovEnd::kNotConverged;
+}
+
+// Sign convention (SPEC §4): the loading of largest magnitude is positive in every component.
+// Then the factors go into `out` with the variance each component explains.
+void orient_and_explain(Factors f, double frobenius2, Index n, Projection& out) {
+  const Index p = f.loadings.rows(), k = f.sigma.size();
+  for (Index c = 0; c < k; ++c) {
+    Index at = 0;
+    for (Index j = 1; j < p; ++j)
+      if (std::abs(f.loadings(j, c)) > std::abs(f.loadings(at, c))) at = j;
+    if (f.loadings(at, c) < 0) {
+      f.loadings.col(c) *= -1;
+      f.scores.col(c) *= -1;
+    }
+  }
+  const VecD& sigma = f.sigma;
+  out.singular_values = sigma;
+  out.scores = std::move(f.scores);
+  out.loadings = std::move(f.loadings);
+  out.eigenvalues = sigma.array().square() / static_cast<double>(n - 1);
+  out.ratio = frobenius2 > 0 ? VecD(sigma.array().square() / frobenius2) : VecD(VecD::Zero(k));
+  out.cumulative.resize(k);
+  double running = 0;
+  for (Index c = 0; c < k; ++c) out.cumulative(c) = running += out.ratio(c);
+}
+
 }  // namespace
 
 Projection truncated_pca(MatrixRef x, const ProjectionOptions& o) {
@@ -333,230 +622,26 @@ Projection truncated_pca(MatrixRef x, const ProjectionOptions& o) {
   Projection out;
   out.center = VecD::Zero(p);
   out.scale = VecD::Ones(p);
-
-  // Centre and scale in place, column by column, in double. On disk a thread gives back a 2 MiB
-  // window when its walk leaves it (releasing each column would drop the window its next
-  // column is in).
-  VecD squares(p);
-#pragma omp parallel num_threads(threads)
-  {
-  internal::WindowWalk walk(static_cast<std::size_t>(n) * sizeof(float));
-#pragma omp for schedule(dynamic, 64)
-  for (Index j = 0; j < p; ++j) {
-    float* col = x.col(j).data();
-    double mean = 0;
-    if (o.center) {
-      double sum = 0;
-      for (Index i = 0; i < n; ++i) sum += static_cast<double>(col[i]);
-      mean = sum / static_cast<double>(n);
-    }
-    double ss = 0;
-    for (Index i = 0; i < n; ++i) {
-      const double d = static_cast<double>(col[i]) - mean;
-      ss += d * d;
-    }
-    double sd = 1;
-    if (o.scale) {
-      sd = std::sqrt(ss / static_cast<double>(n - 1));
-      if (!(sd > 0)) sd = 1;  // a constant column stays all zero
-    }
-    for (Index i = 0; i < n; ++i) col[i] = static_cast<float>((static_cast<double>(col[i]) - mean) / sd);
-    out.center(j) = mean;
-    out.scale(j) = sd;
-    double stored = 0;
-    for (Index i = 0; i < n; ++i) stored += static_cast<double>(col[i]) * static_cast<double>(col[i]);
-    squares(j) = stored;
-    walk.visited(col);
-  }
-  }
-  double frobenius2 = 0;
-  for (Index j = 0; j < p; ++j) frobenius2 += squares(j);
+  const double frobenius2 = standardise_columns(x, o, threads, out);
   out.total_variance = frobenius2 / static_cast<double>(n - 1);
 
   const bool wide = n <= p;
   const Index block = std::min(m, k + std::max<std::int64_t>(0, o.oversample));
-  VecD sigma;
-  MatD scores, loadings;
-
-  // The exact eigendecomposition of the short side's Gram matrix, in double.
-  auto dense = [&] {
-    out.method = "dense";
-    out.precision = "double";
-    out.residual = 0;
-    const MatD g = gram(x, wide, threads);
-    Eigen::SelfAdjointEigenSolver<MatD> es(g);
-    if (es.info() != Eigen::Success) throw Error(ErrorKind::kOther, "PCA: the eigensolver failed");
-    MatD vectors = es.eigenvectors().rightCols(k).rowwise().reverse();
-    sigma = es.eigenvalues().tail(k).reverse().cwiseMax(0.0).cwiseSqrt();
-    if (wide) {
-      const MatD w = times_t<double>(x, vectors, threads);  // X^T U = V Sigma
-      loadings = MatD::Zero(p, k);
-      for (Index c = 0; c < k; ++c) {
-        const double norm = w.col(c).norm();
-        if (norm > 0) loadings.col(c) = w.col(c) / norm;
-      }
-      scores = vectors * sigma.asDiagonal();
-    } else {
-      loadings = vectors;
-      scores = times<double>(x, loadings, threads);
-    }
-  };
-
+  Factors f;
   if (m <= 256 || 2 * block >= m) {
-    dense();  // small side
+    f = dense_pca(x, wide, k, threads, out);  // small side
   } else {
-    // Block Krylov (block Lanczos with full reorthogonalisation) on the short side's Gram operator
-    // M = X X^T (wide) or X^T X (tall), applied as two products, never formed. Each new block is
-    // M times the last one, orthogonalised against all earlier blocks; the coefficients give the
-    // Rayleigh quotient T = Q^T M Q directly, and the QR factor R of the remainder gives the exact
-    // residual of every Ritz pair (theta, Q s): ||R s_last|| (Golub & Van Loan, Matrix Computations,
-    // 4th ed., §10.3.6). A block Krylov space reaches a given accuracy in far fewer passes over the
-    // data than subspace (power) iteration, and each pass is two matrix products that run at GEMM
-    // speed, which is why it beats both Lanczos with single vectors (memory-bound matrix-vector
-    // products) and randomized subspace iteration here (see notebooks-free-docs/numerics.md).
-    // Large matrices iterate with float32 products; the final Rayleigh-Ritz step is in double.
-    out.method = "block Krylov";
-    const bool use_float =
-        o.float_products || static_cast<double>(n) * static_cast<double>(p) > static_cast<double>(Index{1} << 24);
-    out.precision = use_float ? "float" : "double";
-    const double tolerance = use_float ? std::max(o.tolerance, 3e-5) : o.tolerance;
-    // A wide matrix of up to 32 blocks' worth of samples: its Gram matrix X X^T is formed once
-    // (n^2 p / 2 products), which costs less than the two products per Krylov block (2 n p b each)
-    // of the usual eight or more blocks (n / 2 < 16 b); the blocks then multiply by the n x n Gram
-    // matrix.
-    const bool use_gram = use_float && wide && n <= 32 * block;
-    MatD g_lower;
-    if (use_gram) {
-      out.method = "block Krylov on the Gram matrix";
-      g_lower = gram_wide_float(x, threads);
-    }
-    auto apply_m = [&](const MatD& q) -> MatD {
-      if (use_gram) {
-        // G Q with G symmetric, its lower triangle stored.
-        kernels::Operand g = kernels::columns(g_lower.data(), n);
-        g.lower_symmetric = true;
-        MatD y(n, q.cols());
-        kernels::gemm(kernels::Shape{n, q.cols(), n}, g, kernels::columns(q.data(), n), y.data(), n, false);
-        return y;
-      }
-      if (use_float) {
-        const MatF qf = q.cast<float>();
-        const MatF y = wide ? times<float>(x, times_t<float>(x, qf, threads), threads)
-                            : times_t<float>(x, times<float>(x, qf, threads), threads);
-        return y.cast<double>();
-      }
-      return wide ? times<double>(x, times_t<double>(x, q, threads), threads)
-                  : times_t<double>(x, times<double>(x, q, threads), threads);
-    };
-
-    internal::Rng rng(o.seed, 0x5043);
-    MatD start(m, block);
-    for (Index c = 0; c < block; ++c)
-      for (Index i = 0; i < m; ++i) start(i, c) = rng.normal();
-    std::vector<MatD> basis{orthonormal_columns(start)};
-    MatD t(0, 0);
-    MatD ritz;  // m x block: the leading Ritz vectors
-    bool converged = false, fall_back = false;
-    ProgressStep progress("PCA", 0, "blocks");  // how many it takes is not known in advance
-    for (int it = 1; it <= o.max_iterations; ++it) {
-      progress.add(1);
-      const Index b = static_cast<Index>(basis.size());
-      MatD y = apply_m(basis.back());
-      MatD coef = MatD::Zero(b * block, block);
-      for (int pass = 0; pass < 2; ++pass)
-        for (Index j = 0; j < b; ++j) {
-          const MatD c = mul_tn(basis[static_cast<std::size_t>(j)], y);
-          y -= mul(basis[static_cast<std::size_t>(j)], c);
-          coef.middleRows(j * block, block) += c;
-        }
-      MatD grown = MatD::Zero(b * block, b * block);
-      grown.topLeftCorner((b - 1) * block, (b - 1) * block) = t;
-      grown.rightCols(block) = coef;
-      grown.bottomRows(block) = coef.transpose();
-      const MatD diagonal = coef.bottomRows(block);
-      grown.bottomRightCorner(block, block) = (diagonal + diagonal.transpose()) / 2;
-      t.swap(grown);
-
-      MatD q_next = orthonormal_columns(y);
-      const MatD r = mul_tn(q_next, y);
-      // Guard against a nearly invariant space: make the new block orthogonal again.
-      for (Index j = 0; j < b; ++j)
-        q_next -= mul(basis[static_cast<std::size_t>(j)], mul_tn(basis[static_cast<std::size_t>(j)], q_next));
-      q_next = orthonormal_columns(q_next);
-
-      const RitzPairs pairs(t);
-      if (!pairs.ok()) throw Error(ErrorKind::kOther, "PCA: the eigensolver failed");
-      const VecD& theta = pairs.values();
-      // The residuals need the last `block` rows of the leading Ritz vectors (largest first).
-      const MatD tail = pairs.rows(b * block - block, block, k);
-      double worst = 0;
-      const double top = std::max(theta(0), 1e-300);
-      for (Index c = 0; c < k; ++c) worst = std::max(worst, (r * tail.col(c)).norm() / top);
-      out.iterations = it;
-      out.residual = worst;
-      const bool exhausted = (b + 1) * block > m;
-      if (worst > tolerance && exhausted) {
-        // Another whole block no longer fits beside the basis (b blocks, under m columns), so the
-        // Krylov space cannot grow to meet the tolerance: compute exactly instead. By now the
-        // iteration has cost about as much as the dense method.
-        fall_back = true;
+    switch (krylov_pca(x, o, block, threads, out, f)) {
+      case KrylovEnd::kConverged:
         break;
-      }
-      if (worst <= tolerance) {
-        const MatD svec = pairs.rows(0, b * block, block);  // the leading `block` Ritz vectors
-        ritz = MatD::Zero(m, block);
-        for (Index j = 0; j < b; ++j)
-          kernels::gemm(kernels::Shape{m, block, block}, operand(basis[static_cast<std::size_t>(j)]),
-                        kernels::columns(svec.data() + j * block, svec.rows()), ritz.data(), m, true);
-        converged = true;
+      case KrylovEnd::kExhausted:
+        f = dense_pca(x, wide, k, threads, out);
         break;
-      }
-      basis.push_back(std::move(q_next));
-    }
-    if (fall_back) {
-      basis.clear();
-      basis.shrink_to_fit();
-      dense();
-    } else if (!converged) {
-      // A status, not an error: the caller decides (a run stops, the sample screen goes without).
-      out.converged = false;
-      out.status = "PCA did not converge: after " + std::to_string(o.max_iterations) +
-                   " Krylov blocks the largest relative residual is " + std::to_string(out.residual) +
-                   " (tolerance " + std::to_string(tolerance) + ")";
-      out.iterations = o.max_iterations;
-      return out;
-    } else if (wide) {
-      // Final Rayleigh-Ritz in double: the SVD of X^T U (wide) or X U (tall) on the Ritz space.
-      const Triplets svd = leading_svd(times_t<double>(x, ritz, threads), k);  // of X^T U, p x block
-      sigma = svd.sigma;
-      loadings = svd.u;
-      scores = mul(ritz, svd.v) * sigma.asDiagonal();
-    } else {
-      const Triplets svd = leading_svd(times<double>(x, ritz, threads), k);  // of X U, n x block
-      sigma = svd.sigma;
-      scores = svd.u * sigma.asDiagonal();
-      loadings = mul(ritz, svd.v);
+      case KrylovEnd::kNotConverged:
+        return out;
     }
   }
-
-  // Sign convention (SPEC §4): the loading of largest magnitude is positive in every component.
-  for (Index c = 0; c < k; ++c) {
-    Index at = 0;
-    for (Index j = 1; j < p; ++j)
-      if (std::abs(loadings(j, c)) > std::abs(loadings(at, c))) at = j;
-    if (loadings(at, c) < 0) {
-      loadings.col(c) *= -1;
-      scores.col(c) *= -1;
-    }
-  }
-  out.singular_values = sigma;
-  out.scores = std::move(scores);
-  out.loadings = std::move(loadings);
-  out.eigenvalues = sigma.array().square() / static_cast<double>(n - 1);
-  out.ratio = frobenius2 > 0 ? VecD(sigma.array().square() / frobenius2) : VecD(VecD::Zero(k));
-  out.cumulative.resize(k);
-  double running = 0;
-  for (Index c = 0; c < k; ++c) out.cumulative(c) = running += out.ratio(c);
+  orient_and_explain(std::move(f), frobenius2, n, out);
   return out;
 }
 

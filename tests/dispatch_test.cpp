@@ -271,7 +271,7 @@ TEST_CASE("dispatch: the kernels give the same bits at every level, as defined",
     for (Index i = 0; i < p; ++i)
       REQUIRE(std::abs(r.times_t_d[static_cast<std::size_t>(i + j * p)] - times_t_d_ref(i, j)) <=
               1e-12 * times_t_d_abs(i, j));
-  // The integer dot product of the pair screen's second look: exact.
+  // The integer dot product of pruning's 8-bit second look (internal/pair_screen.h): exact.
   std::vector<std::int8_t> u(4096), v(4096);
   for (std::size_t i = 0; i < u.size(); ++i) {
     u[i] = static_cast<std::int8_t>(8 * d.pixels[i / 64][i % 64] - 64);
@@ -287,7 +287,7 @@ TEST_CASE("dispatch: the kernels give the same bits at every level, as defined",
   }
 }
 
-TEST_CASE("dispatch: the pair screen finds the same pairs at every level", "[dispatch]") {
+TEST_CASE("dispatch: pruning's 8-bit pair bound finds the same pairs at every level", "[dispatch]") {
   // Pruning's 8-bit first look (internal/pair_screen.h): the portable loop, the SSE2 kernel
   // (baseline), the AVX2 kernel and the VNNI kernel (AVX-512, where the processor has VNNI) must
   // list the same pairs with the same products. Columns: 200 pixel columns over 1,000 images,
@@ -306,7 +306,7 @@ TEST_CASE("dispatch: the pair screen finds the same pairs at every level", "[dis
       col[static_cast<std::size_t>(i)] = static_cast<float>((x(i, j) - mean) / norm);
     z.push_back(col);
   }
-  pare::internal::ScreenBlock block;
+  pare::internal::PairCodeBlock block;
   block.reset(m, count);
   for (Index b = 0; b < count; ++b) {
     double rest = 0;
@@ -315,7 +315,7 @@ TEST_CASE("dispatch: the pair screen finds the same pairs at every level", "[dis
               double(z[static_cast<std::size_t>(b)][static_cast<std::size_t>(i)]);
     block.set(b, z[static_cast<std::size_t>(b)].data(), std::sqrt(rest));
   }
-  pare::internal::ScreenKept kept(block.padded());
+  pare::internal::PairCodeKept kept(block.padded());
   for (Index b = 0; b < count - 3; ++b) kept.append(block, b);  // 197 kept: a partial last group
   std::vector<std::vector<std::pair<std::int64_t, float>>> found;
   std::vector<std::string> names;
@@ -324,26 +324,26 @@ TEST_CASE("dispatch: the pair screen finds the same pairs at every level", "[dis
     const kernels::Level level =
         run < 0 ? kernels::Level::kBaseline : levels()[static_cast<std::size_t>(run)];
     const AtLevel at(level);
-    pare::internal::screen_allow_vnni(run >= 0);
+    pare::internal::pair_code_allow_vnni(run >= 0);
     names.push_back(run < 0 ? "portable" : kernels::level_name(level));
     INFO("kernel " << names.back());
-    REQUIRE(pare::internal::screen_uses_avx2() == (run >= 0 && level != kernels::Level::kBaseline &&
-                                                   !pare::internal::screen_uses_vnni()));
+    REQUIRE(pare::internal::pair_code_uses_avx2() == (run >= 0 && level != kernels::Level::kBaseline &&
+                                                      !pare::internal::pair_code_uses_vnni()));
     std::vector<std::pair<std::int64_t, float>> pairs;
     for (float cut : {0.2f, 0.5f, 0.8f})
-      for (Index first = 0; first < count; first += pare::internal::kScreenTile) {
+      for (Index first = 0; first < count; first += pare::internal::kPairCodeTile) {
         const int width =
-            static_cast<int>(std::min<Index>(pare::internal::kScreenTile, count - first));
-        pare::internal::ScreenSurvivors tile;
-        pare::internal::screen_pairs(kept, block, cut, first, width, 0, 5, tile);
-        pare::internal::screen_pairs(kept, block, cut, first, width, 5, kept.groups(), tile);
+            static_cast<int>(std::min<Index>(pare::internal::kPairCodeTile, count - first));
+        pare::internal::PairCodeSurvivors tile;
+        pare::internal::pair_code_find(kept, block, cut, first, width, 0, 5, tile);
+        pare::internal::pair_code_find(kept, block, cut, first, width, 5, kept.groups(), tile);
         for (int c = 0; c < width; ++c)
           for (const auto& hit : tile[static_cast<std::size_t>(c)])
             pairs.emplace_back((first + c) * 1000 + hit.k, hit.product);
       }
     found.push_back(std::move(pairs));
   }
-  pare::internal::screen_allow_vnni(true);
+  pare::internal::pair_code_allow_vnni(true);
   REQUIRE(found[0].size() > 1000);  // the pairs of a column with itself, and many more
   for (std::size_t k = 1; k < found.size(); ++k) {
     INFO(names[k] << " against the portable loop");
@@ -408,8 +408,8 @@ TEST_CASE("dispatch: pare reduce writes the same files at every level", "[dispat
     for (const kernels::Level level : levels()) {
       INFO("level " << kernels::level_name(level));
       const AtLevel at(level);
-      // The pair screen's VNNI loop runs only with the AVX-512 kernels.
-      if (level != kernels::Level::kAvx512) REQUIRE_FALSE(pare::internal::screen_uses_vnni());
+      // The VNNI loop of pruning's 8-bit pair bound runs only with the AVX-512 kernels.
+      if (level != kernels::Level::kAvx512) REQUIRE_FALSE(pare::internal::pair_code_uses_vnni());
       const std::string out = dir.file(c.name + "-" + kernels::level_name(level));
       std::vector<std::string> args = {"reduce",    data, "--label", "digit",
                                        "--threads", "2",  "--out",   out};

@@ -14,9 +14,9 @@
 
 namespace {
 
-using pare::internal::ScreenBlock;
-using pare::internal::ScreenKept;
-using pare::internal::ScreenSurvivors;
+using pare::internal::PairCodeBlock;
+using pare::internal::PairCodeKept;
+using pare::internal::PairCodeSurvivors;
 
 // Columns of n samples in several shapes: Gaussian, heavy-tailed (log-normal, sd 2 on the log
 // scale), integer counts with many ties, mostly zero with a few large values, one huge outlier,
@@ -85,10 +85,10 @@ TEST_CASE("pair screen: the 8-bit bound is never below |r|, and the kernels agre
   const Eigen::Index n = 300, m = 61;  // S = the first m rows, rounded up to 64 codes
   const int count = 84;
   const Standardised s = standardise(columns(n, count, 11));
-  ScreenBlock block;
+  PairCodeBlock block;
   block.reset(m, count);
   for (int b = 0; b < count; ++b) block.set(b, s.z[static_cast<std::size_t>(b)].data(), rest_norm(s.zd[static_cast<std::size_t>(b)], m));
-  ScreenKept kept(block.padded());
+  PairCodeKept kept(block.padded());
   for (int b = 0; b < count; ++b) kept.append(block, b);
   REQUIRE(kept.size() == count);
 
@@ -97,7 +97,7 @@ TEST_CASE("pair screen: the 8-bit bound is never below |r|, and the kernels agre
     for (int b = 0; b < count; ++b) {
       double r = 0;
       for (Eigen::Index i = 0; i < n; ++i) r += s.zd[static_cast<std::size_t>(k)][static_cast<std::size_t>(i)] * s.zd[static_cast<std::size_t>(b)][static_cast<std::size_t>(i)];
-      const double bound = pare::internal::screen_bound(kept, k, block, b);
+      const double bound = pare::internal::pair_code_bound(kept, k, block, b);
       INFO("kept " << k << ", candidate " << b << ", |r| " << std::abs(r) << ", bound " << bound);
       REQUIRE(bound >= std::abs(r) - 1e-6);
       tightest = std::min(tightest, bound - std::abs(r));
@@ -114,13 +114,13 @@ TEST_CASE("pair screen: the 8-bit bound is never below |r|, and the kernels agre
     std::vector<std::int64_t> found[2];  // candidate * 1000 + kept
     std::vector<float> products[2];
     for (int path = 0; path < 2; ++path) {
-      pare::internal::screen_allow_vnni(path == 0);
-      for (Eigen::Index first = 0; first < count; first += pare::internal::kScreenTile) {
-        const int width = static_cast<int>(std::min<Eigen::Index>(pare::internal::kScreenTile, count - first));
-        ScreenSurvivors tile;
+      pare::internal::pair_code_allow_vnni(path == 0);
+      for (Eigen::Index first = 0; first < count; first += pare::internal::kPairCodeTile) {
+        const int width = static_cast<int>(std::min<Eigen::Index>(pare::internal::kPairCodeTile, count - first));
+        PairCodeSurvivors tile;
         // In two chunks of groups, as pruning calls it.
-        pare::internal::screen_pairs(kept, block, cut, first, width, 0, 3, tile);
-        pare::internal::screen_pairs(kept, block, cut, first, width, 3, kept.groups(), tile);
+        pare::internal::pair_code_find(kept, block, cut, first, width, 0, 3, tile);
+        pare::internal::pair_code_find(kept, block, cut, first, width, 3, kept.groups(), tile);
         for (int c = 0; c < width; ++c)
           for (const auto& hit : tile[static_cast<std::size_t>(c)]) {
             found[path].push_back((first + c) * 1000 + hit.k);
@@ -128,14 +128,14 @@ TEST_CASE("pair screen: the 8-bit bound is never below |r|, and the kernels agre
           }
       }
     }
-    pare::internal::screen_allow_vnni(true);
-    INFO("cut " << cut << (pare::internal::screen_uses_vnni() ? " (VNNI kernel)" : " (portable loop only)"));
+    pare::internal::pair_code_allow_vnni(true);
+    INFO("cut " << cut << (pare::internal::pair_code_uses_vnni() ? " (VNNI kernel)" : " (portable loop only)"));
     REQUIRE(found[0] == found[1]);
     REQUIRE(products[0] == products[1]);
     std::size_t expected = 0, at = 0;
     for (int b = 0; b < count; ++b)
       for (int k = 0; k < count; ++k) {
-        const float bound = pare::internal::screen_bound(kept, k, block, b);
+        const float bound = pare::internal::pair_code_bound(kept, k, block, b);
         const bool listed = at < found[1].size() && found[1][at] == b * 1000 + k;
         if (listed) ++at;
         if (std::abs(bound - cut) < 1e-5f) continue;  // too close to call from outside
@@ -151,27 +151,27 @@ TEST_CASE("pair screen: the second look's bound over S and S2 is never below |r|
   const Eigen::Index n = 400, m = 57, m2 = 70;  // S: rows 0..56, S2: rows 57..126
   const int count = 60;
   const Standardised s = standardise(columns(n, count, 29));
-  ScreenBlock block;
+  PairCodeBlock block;
   block.reset(m, count, m2);
   for (int b = 0; b < count; ++b) {
     const auto& z = s.zd[static_cast<std::size_t>(b)];
     block.set(b, s.z[static_cast<std::size_t>(b)].data(), rest_norm(z, m), rest_norm(z, m + m2));
   }
-  ScreenKept kept(block.padded());
+  PairCodeKept kept(block.padded());
   for (int b = 0; b < count; ++b) kept.append(block, b);
   std::int64_t pairs = 0, tighter = 0;
-  for (Eigen::Index first = 0; first < count; first += pare::internal::kScreenTile) {
-    const int width = static_cast<int>(std::min<Eigen::Index>(pare::internal::kScreenTile, count - first));
-    ScreenSurvivors tile;
-    pare::internal::screen_pairs(kept, block, -1.0f, first, width, 0, kept.groups(), tile);  // every pair
+  for (Eigen::Index first = 0; first < count; first += pare::internal::kPairCodeTile) {
+    const int width = static_cast<int>(std::min<Eigen::Index>(pare::internal::kPairCodeTile, count - first));
+    PairCodeSurvivors tile;
+    pare::internal::pair_code_find(kept, block, -1.0f, first, width, 0, kept.groups(), tile);  // every pair
     for (int c = 0; c < width; ++c) {
       const Eigen::Index b = first + c;
       REQUIRE(tile[static_cast<std::size_t>(c)].size() == static_cast<std::size_t>(count));
       for (const auto& hit : tile[static_cast<std::size_t>(c)]) {
         double r = 0;
         for (Eigen::Index i = 0; i < n; ++i) r += s.zd[static_cast<std::size_t>(hit.k)][static_cast<std::size_t>(i)] * s.zd[static_cast<std::size_t>(b)][static_cast<std::size_t>(i)];
-        const float first_bound = pare::internal::screen_bound(kept, hit.k, block, b);
-        const float second = pare::internal::screen_second_bound(kept, block, b, hit);
+        const float first_bound = pare::internal::pair_code_bound(kept, hit.k, block, b);
+        const float second = pare::internal::pair_code_second_bound(kept, block, b, hit);
         INFO("kept " << hit.k << ", candidate " << b << ", |r| " << std::abs(r) << ", bounds " << first_bound << ", " << second);
         REQUIRE(second >= std::abs(r) - 1e-6);
         ++pairs;
@@ -188,7 +188,7 @@ TEST_CASE("pair screen: constant and all-zero subsets code to zero with zero all
   const Eigen::Index m = 13;
   std::vector<float> zero(static_cast<std::size_t>(m), 0.0f);
   std::vector<std::int8_t> q(16, 5);
-  const auto norms = pare::internal::code_subset(zero.data(), m, 16, 0.5, q.data());
+  const auto norms = pare::internal::pair_code_subset(zero.data(), m, 16, 0.5, q.data());
   REQUIRE(norms.scale == 0.0f);
   REQUIRE(norms.coded == 0.0f);
   REQUIRE(norms.error == 0.0f);
@@ -199,7 +199,7 @@ TEST_CASE("pair screen: constant and all-zero subsets code to zero with zero all
   // The largest value codes to exactly 127 and the error norm is what is left over.
   std::vector<float> z{0.5f, -0.3f, 0.1f, 0.0f};
   std::vector<std::int8_t> c(4);
-  const auto n4 = pare::internal::code_subset(z.data(), 4, 4, 0.0, c.data());
+  const auto n4 = pare::internal::pair_code_subset(z.data(), 4, 4, 0.0, c.data());
   REQUIRE(c[0] == 127);
   REQUIRE(c[1] == -76);  // -0.3 / (0.5 / 127) = -76.2
   REQUIRE(c[2] == 25);   // 25.4

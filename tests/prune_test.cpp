@@ -290,9 +290,9 @@ TEST_CASE("prune: the sequential walk on planted groups, several shapes, blocks 
             const PruneResult two = prune(m, cand, max_corr, max_kept, block, 2);
             require_identical(one, two);
             // The first look's portable loop, as on a processor without AVX-512 VNNI.
-            pare::internal::screen_allow_vnni(false);
+            pare::internal::pair_code_allow_vnni(false);
             const PruneResult portable = prune(m, cand, max_corr, max_kept, block, 2);
-            pare::internal::screen_allow_vnni(true);
+            pare::internal::pair_code_allow_vnni(true);
             require_identical(one, portable);
           }
         }

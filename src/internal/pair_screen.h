@@ -15,6 +15,10 @@
 // processors with AVX-512 VNNI the integer products run 64 per instruction, four times the float
 // rate; with AVX2, 16 per instruction (16-bit products summed in pairs), with SSE2 8; elsewhere a
 // portable loop computes the same integers, so the pairs found never depend on the processor.
+//
+// Names: PairCode* and pair_code_* are this 8-bit coding of feature pairs (the codes, the bound
+// and the pairs it cannot rule out); they have nothing to do with the sample outlier screen
+// (pare/outliers.h, SampleScreen).
 #pragma once
 
 #include <Eigen/Core>
@@ -28,7 +32,7 @@
 namespace pare::internal {
 
 /// The quantities of one feature the bound needs.
-struct ScreenNorms {
+struct PairCodeNorms {
   float scale = 0;   ///< s = max |z_S| / 127
   float coded = 0;   ///< |s q|, rounded up
   float error = 0;   ///< |z_S - s q|, rounded up
@@ -39,13 +43,13 @@ struct ScreenNorms {
 
 /// Codes `z` (the m subset values of a standardised column) into `q` (m values in [-127, 127],
 /// then zeros up to `padded`); `rest` is |z_R|, passed through. Returns the norms.
-ScreenNorms code_subset(const float* z, Eigen::Index m, Eigen::Index padded, double rest, std::int8_t* q);
+PairCodeNorms pair_code_subset(const float* z, Eigen::Index m, Eigen::Index padded, double rest, std::int8_t* q);
 
 /// The candidates of one block: each one's codes plus 128 (so unsigned), a row of `padded` bytes.
 /// With a second look, also the codes of the next `rows2` samples S2 (signed, a row of `padded2`
 /// bytes), for the pairs the first look cannot rule out: the same bound over S and S2 with
 /// Cauchy-Schwarz on the rest R2 only.
-class ScreenBlock {
+class PairCodeBlock {
  public:
   void reset(Eigen::Index rows, Eigen::Index count, Eigen::Index rows2 = 0);
   /// Codes candidate `b` (thread-safe for distinct b) from its standardised column `z` (at least
@@ -55,23 +59,23 @@ class ScreenBlock {
   Eigen::Index padded2() const { return padded2_; }
   const std::uint8_t* row(Eigen::Index b) const { return codes_.data() + b * padded_; }
   const std::int8_t* row2(Eigen::Index b) const { return codes2_.data() + b * padded2_; }
-  const ScreenNorms& norms(Eigen::Index b) const { return norms_[static_cast<std::size_t>(b)]; }
-  const ScreenNorms& norms2(Eigen::Index b) const { return norms2_[static_cast<std::size_t>(b)]; }
+  const PairCodeNorms& norms(Eigen::Index b) const { return norms_[static_cast<std::size_t>(b)]; }
+  const PairCodeNorms& norms2(Eigen::Index b) const { return norms2_[static_cast<std::size_t>(b)]; }
 
  private:
   Eigen::Index rows_ = 0, padded_ = 0, rows2_ = 0, padded2_ = 0;
   std::vector<std::uint8_t> codes_;
   std::vector<std::int8_t> codes2_;
-  std::vector<ScreenNorms> norms_, norms2_;
+  std::vector<PairCodeNorms> norms_, norms2_;
 };
 
 /// The kept features, interleaved in groups of 16 for the product: for group g and sample quad t,
 /// 64 bytes hold the 4 codes of samples 4t..4t+3 of each of the group's 16 features.
-class ScreenKept {
+class PairCodeKept {
  public:
-  explicit ScreenKept(Eigen::Index padded) : padded_(padded) {}
+  explicit PairCodeKept(Eigen::Index padded) : padded_(padded) {}
   /// Appends candidate `b` of `block` (with its second-look codes when `block` has them).
-  void append(const ScreenBlock& block, Eigen::Index b);
+  void append(const PairCodeBlock& block, Eigen::Index b);
   Eigen::Index size() const { return size_; }
   Eigen::Index groups() const { return (size_ + 15) / 16; }
   Eigen::Index quads() const { return padded_ / 4; }
@@ -85,7 +89,7 @@ class ScreenKept {
   const float* rest() const { return rest_.data(); }
   const std::int32_t* offset() const { return offset_.data(); }  ///< 128 sum q
   const std::int8_t* row2(Eigen::Index k) const { return codes2_.data() + k * padded2_; }
-  const ScreenNorms& norms2(Eigen::Index k) const { return norms2_[static_cast<std::size_t>(k)]; }
+  const PairCodeNorms& norms2(Eigen::Index k) const { return norms2_[static_cast<std::size_t>(k)]; }
 
  private:
   Eigen::Index padded_, size_ = 0, padded2_ = 0;
@@ -93,39 +97,40 @@ class ScreenKept {
   std::vector<float> scale_, coded_, error_, rest_;
   std::vector<std::int32_t> offset_;
   std::vector<std::int8_t> codes2_;
-  std::vector<ScreenNorms> norms2_;
+  std::vector<PairCodeNorms> norms2_;
 };
 
-/// At most this many candidates per call of screen_pairs.
-inline constexpr int kScreenTile = 8;
+/// At most this many candidates per call of pair_code_find.
+inline constexpr int kPairCodeTile = 8;
 /// A pair the first look cannot rule out: the kept position and s_k s_b (q_k . q_b).
-struct ScreenHit {
+struct PairCodeHit {
   std::int32_t k;
   float product;
 };
 /// For each candidate of a tile, the pairs whose bound is not below `cut`.
-using ScreenSurvivors = std::array<std::vector<ScreenHit>, kScreenTile>;
+using PairCodeSurvivors = std::array<std::vector<PairCodeHit>, kPairCodeTile>;
 
 /// Appends to `out[c]`, in increasing order, every kept feature k in groups [g0, g1) whose bound
-/// with candidate `first + c` (c < width <= kScreenTile) is not below `cut`.
-void screen_pairs(const ScreenKept& kept, const ScreenBlock& block, float cut, Eigen::Index first, int width,
-                  Eigen::Index g0, Eigen::Index g1, ScreenSurvivors& out);
+/// with candidate `first + c` (c < width <= kPairCodeTile) is not below `cut`.
+void pair_code_find(const PairCodeKept& kept, const PairCodeBlock& block, float cut, Eigen::Index first, int width,
+                    Eigen::Index g0, Eigen::Index g1, PairCodeSurvivors& out);
 
-/// The bound for kept feature k and candidate b (what screen_pairs compares with `cut`, up to the
+/// The bound for kept feature k and candidate b (what pair_code_find compares with `cut`, up to the
 /// rounding of its last float operations).
-float screen_bound(const ScreenKept& kept, Eigen::Index k, const ScreenBlock& block, Eigen::Index b);
+float pair_code_bound(const PairCodeKept& kept, Eigen::Index k, const PairCodeBlock& block, Eigen::Index b);
 
 /// The bound for a pair the first look kept (`hit`), over S and S2 with Cauchy-Schwarz on the rest
 /// past S2: |product + s2_k s2_b (q2_k . q2_b)| plus the coding allowances of S and S2 plus
 /// |z_k,R2| |z_b,R2|.
-float screen_second_bound(const ScreenKept& kept, const ScreenBlock& block, Eigen::Index b, const ScreenHit& hit);
+float pair_code_second_bound(const PairCodeKept& kept, const PairCodeBlock& block, Eigen::Index b,
+                             const PairCodeHit& hit);
 
-/// Whether screen_pairs uses the VNNI kernel: on a processor with AVX-512 VNNI while the AVX-512
+/// Whether pair_code_find uses the VNNI kernel: on a processor with AVX-512 VNNI while the AVX-512
 /// kernels run (kernels::active_level). Otherwise it uses an AVX2 kernel while the AVX2 or AVX-512
-/// kernels run (screen_uses_avx2), else SSE2 on x86-64 and a portable loop elsewhere; all find
+/// kernels run (pair_code_uses_avx2), else SSE2 on x86-64 and a portable loop elsewhere; all find
 /// the same pairs. `allow = false` forces the portable loop (for tests).
-bool screen_uses_vnni();
-bool screen_uses_avx2();
-void screen_allow_vnni(bool allow);
+bool pair_code_uses_vnni();
+bool pair_code_uses_avx2();
+void pair_code_allow_vnni(bool allow);
 
 }  // namespace pare::internal
