@@ -450,14 +450,21 @@ void read_records(const std::string& path, const internal::InputText& input, con
   if (any_failure(chunks)) rethrow_first(path, chunks);
 }
 
+// The option that named the label column, as messages name it.
+std::string label_option(const ReadOptions& options) { return options.label_is_target ? "`target`" : "`label`"; }
+
 // The label column's field, or -1 (throws when a required one is missing).
 std::int64_t label_field_of(const std::string& path, const Header& h, const ReadOptions& options) {
   if (options.label_column.empty()) return -1;
   for (std::size_t j = 1; j < h.fields.size(); ++j)
     if (h.fields[j] == options.label_column) return static_cast<std::int64_t>(j);
+  if (!options.label_optional && !h.fields.empty() && h.fields[0] == options.label_column)
+    throw_input_error({path, 1, h.columns[0]},
+                      label_option(options) + " names " + in_quotes(options.label_column) + ", the id column",
+                      "the first column holds the sample ids; name a column after it");
   if (!options.label_optional)
     throw_input_error({path, 1},
-                      "no column named " + in_quotes(options.label_column) + " for `label`",
+                      "no column named " + in_quotes(options.label_column) + " for " + label_option(options),
                       header_names_hint(h.fields));
   return -1;
 }
@@ -624,7 +631,7 @@ struct FeatureRecords {
     }
     if (label_line == 0) t.label_name.clear();  // (an optional label line that is not there)
     if (!label_row.empty() && label_line == 0 && !options.label_optional)
-      throw_input_error({path}, "no line starts with " + in_quotes(label_row) + " for `label`",
+      throw_input_error({path}, "no line starts with " + in_quotes(label_row) + " for " + label_option(options),
                         "with `layout` rows=features the labels are a line whose first field is "
                         "that name");
   }
@@ -738,8 +745,9 @@ void check_info_options(const ReadOptions& options) {
         names.begin() + static_cast<std::ptrdiff_t>(i))
       throw_usage_error(std::string(option) + " names " + in_quotes(names[i]) + " twice", "give each column once");
     if (by_sample && names[i] == options.label_column)
-      throw_usage_error(std::string(option) + " names " + in_quotes(names[i]) + ", the `label` column",
-                        "the labels are carried already; leave it out of `sample_info`");
+      throw_usage_error(std::string(option) + " names " + in_quotes(names[i]) + ", the " + label_option(options) +
+                            " column",
+                        "it is carried already; leave it out of `sample_info`");
   }
 }
 

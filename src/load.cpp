@@ -1,11 +1,16 @@
 #include "pare/load.h"
 
-#include <algorithm>  // std::find, std::binary_search
+#include <fast_float/fast_float.h>
+
+#include <algorithm>  // std::find, std::binary_search, std::all_of
 #include <chrono>     // std::chrono::steady_clock
+#include <cmath>      // std::isfinite
+#include <limits>     // std::numeric_limits
 #include <cstdlib>    // std::strtod
 #include <future>     // std::async
 
 #include "internal/sha256.h"
+#include "internal/text_fields.h"
 #include "pare/error.h"
 
 namespace pare {
@@ -39,8 +44,8 @@ void check_label_shapes(const FeatureTable& table, std::vector<std::string>& war
     if (name.empty() || end != name.c_str() + name.size()) return;
   }
   warnings.push_back("the labels are " + std::to_string(k) + " distinct numbers among " + std::to_string(n) +
-                     " samples: pare scores classes, so a continuous measurement gives a meaningless ranking "
-                     "(group it into a few classes first)");
+                     " samples: as labels they are that many classes, which gives a meaningless ranking "
+                     "(score a continuous measurement with `target` instead, or group it into a few classes)");
 }
 
 // Leaves out the samples without a label and those of small classes, and says what it did.
@@ -76,6 +81,59 @@ void leave_out(const DataRequest& request, LoadedData& loaded) {
   }
 }
 
+using internal::in_quotes;
+
+// Moves the label column to FeatureTable::target and parses it as numbers (a value that is not a
+// finite number is an error, not a gap). A supervised run leaves out the samples without a value;
+// another keeps them, with NaN.
+void take_target(const SampleSheet& sheet, bool supervised, const MemoryBudget& budget, LoadedData& loaded) {
+  FeatureTable& table = loaded.table;
+  if (supervised) loaded.left_out = leave_out_samples(table, 0, budget);
+  loaded.left_out.target = true;
+  const auto& missing = loaded.left_out.unlabelled;
+  if (!missing.empty())
+    loaded.warnings.push_back(std::to_string(missing.size()) + " sample" + (missing.size() == 1 ? "" : "s") +
+                              " without a target value left out (" + missing.front() +
+                              (missing.size() > 1 ? ", ..." : "") + "; plan.json lists them)");
+  const std::string& source = table.labels_source.empty() ? table.source : table.labels_source;
+  const std::string name = table.label_name.empty() ? std::string("target") : table.label_name;
+  std::vector<double> target(table.labels.size());
+  for (std::size_t i = 0; i < table.labels.size(); ++i) {
+    const std::string& text = table.labels[i];
+    if (text.empty()) {
+      target[i] = std::numeric_limits<double>::quiet_NaN();
+      continue;
+    }
+    const char* end = text.data() + text.size();
+    double v = 0;
+    const auto parsed = fast_float::from_chars(text.data(), end, v);
+    if (parsed.ec != std::errc() || parsed.ptr != end || !std::isfinite(v)) {
+      Location where{source};
+      if (!sheet.path.empty())
+        for (std::size_t k = 0; k < sheet.ids.size(); ++k)
+          if (sheet.ids[k] == table.sample_ids[i]) where.line = sheet.lines[k];
+      throw_input_error(where,
+                        "the target " + in_quotes(name) + " of sample " + in_quotes(table.sample_ids[i]) + " is " +
+                            in_quotes(text) + ", not a finite number",
+                        "a target is a measurement; for classes use a label instead");
+    }
+    target[i] = v;
+  }
+  if (!supervised) {
+    table.target = std::move(target);
+    table.labels.clear();
+    return;
+  }
+  if (target.size() < 3)
+    throw_input_error({source}, "the target " + in_quotes(name) + " has " + std::to_string(target.size()) +
+                                    " sample" + (target.size() == 1 ? "" : "s") + " with a value; scoring needs at least 3");
+  if (std::all_of(target.begin(), target.end(), [&](double v) { return v == target.front(); }))
+    throw_input_error({source}, "the target " + in_quotes(name) + " has one value (" + table.labels.front() +
+                                    ") in every sample used; scoring against it means nothing");
+  table.target = std::move(target);
+  table.labels.clear();
+}
+
 }  // namespace
 
 const char* layout_name(Layout layout) {
@@ -105,7 +163,10 @@ LoadedData load_data(const DataRequest& request) {
   loaded.samples_read = table.n_samples();
   if (!request.samples.empty()) restrict_to_list(table, list, options.memory);
   if (!request.labels.empty()) attach_labels(table, sheet);
-  if (request.supervised && table.has_labels()) leave_out(request, loaded);
+  if (request.target && table.has_labels())
+    take_target(sheet, request.supervised, request.read.memory, loaded);
+  else if (request.supervised && table.has_labels())
+    leave_out(request, loaded);
   if (!request.mark_by.empty()) {
     const auto info = std::find(table.sample_info_names.begin(), table.sample_info_names.end(), request.mark_by);
     if (info != table.sample_info_names.end())
@@ -144,6 +205,7 @@ RunRecord run_record(const DataRequest& request, const LoadedData& loaded, std::
     record.sheet_column = loaded.table.label_name;
   }
   record.label = request.read.label_column;
+  record.target = request.target;
   record.na_tokens = request.read.na_tokens;
   record.allow_inf = request.read.allow_inf;
   record.seed = seed;

@@ -32,6 +32,7 @@ void screen_step(FeatureTable& table, const PipelineOptions& options, PipelineRe
   RunSamples& s = result.samples;
   s.ids = table.sample_ids;
   s.labels = table.labels;
+  s.target = table.target;
   s.label_name = table.label_name;
   s.info_names = table.sample_info_names;
   s.info = table.sample_info;

@@ -34,6 +34,7 @@ json internal::read_section(const RunRecord& run, const FeatureTable& t) {
   return {{"layout", layout_name(t.layout)},
           {"delimiter", delimiter_text(t.delimiter)},
           {"label", run.label},
+          {"target", run.target},
           {"na", run.na_tokens},
           {"allow_inf", run.allow_inf},
           {"feature_info", run.feature_info},
@@ -236,6 +237,8 @@ Plan load_plan(const std::string& path) {
   if (delimiter.size() != 1) bad_plan(path, "field read.delimiter must be one character");
   p.delimiter = delimiter[0];
   p.label = typed<std::string>(path, member(path, read, "label", "read"), "read.label", "a string");
+  if (const auto it = read.find("target"); it != read.end())
+    p.target = typed<bool>(path, *it, "read.target", "true or false");
   p.na_tokens = typed<std::vector<std::string>>(path, member(path, read, "na", "read"), "read.na", "an array of strings");
   p.allow_inf = typed<bool>(path, member(path, read, "allow_inf", "read"), "read.allow_inf", "true or false");
   for (const auto& [key, target] : {std::pair{"feature_info", &p.feature_info}, std::pair{"sample_info", &p.sample_info}})

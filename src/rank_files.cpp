@@ -66,7 +66,7 @@ ScanResult scan_to_folder(const FeatureTable& table, bool log2, const RunRecord&
                           percent(profile.options.mostly_missing) + "), " + thousands(profile.n_all_missing) +
                           " all missing; scan removes nothing.");
   add_profile(report, table, profile);
-  add_screen(report, scan.screen, table.sample_ids, table.labels, table.label_name, {});
+  add_screen(report, scan.screen, table.sample_ids, table.labels, table.label_name, {}, table.target);
   if (!run.marks.empty()) {
     report.sample_info.mark_name = run.mark_name;
     report.sample_info.marks = run.marks;
@@ -90,7 +90,8 @@ ScanResult scan_to_folder(const FeatureTable& table, bool log2, const RunRecord&
 
   OutputSet files(dir, {run.input_path});
   files.add("profile.tsv", profile_tsv(table, profile));
-  files.add("samples.tsv", samples_tsv(scan.screen, table.sample_ids, table.labels, table.label_name, {},
+  files.add("samples.tsv", samples_tsv(scan.screen, table.sample_ids, response_values(table.labels, table.target),
+                                       table.label_name, {},
                                        table.sample_info_names, table.sample_info));
   files.add("report.html", report_html(report));
   files.commit();
@@ -148,7 +149,8 @@ void check_rank_options(const RankOptions& o) {
   if (!(o.fdr > 0 && o.fdr <= 1)) throw_usage_error("`fdr` must be in (0, 1]");
   if (o.fdr < 1 && o.criterion == Criterion::kVariance)
     throw_usage_error("`fdr` needs a criterion with a test, and variance has none",
-                      "rank by mi, chi2, chi2-counts or f, or leave out `fdr`");
+                      "rank by a criterion with a test (mi, chi2, chi2-counts, f; spearman, pearson for a "
+                      "target), or leave out `fdr`");
   if (o.keep < 0) throw_usage_error("`keep` must be 0 (all) or more");
   if (o.score.bins < 2) throw_usage_error("`bins` must be 2 or more");
   if (o.score.neighbors < 1) throw_usage_error("`neighbors` must be 1 or more");
@@ -157,7 +159,10 @@ void check_rank_options(const RankOptions& o) {
 RankResult rank_to_folder(FeatureTable& table, const RankOptions& options, const RunRecord& run,
                           const std::string& dir, int threads) {
   check_rank_options(options);
-  require_two_classes(table);
+  if (table.has_target())
+    require_criterion_fits(options.criterion, true);
+  else
+    require_two_classes(table);
   if (options.log2) log2_transform(table, threads);
   RankResult rank;
   const auto start = std::chrono::steady_clock::now();
@@ -168,7 +173,8 @@ RankResult rank_to_folder(FeatureTable& table, const RankOptions& options, const
   const ClassCodes classes = encode_classes(table.labels);
   std::vector<std::int64_t> all(static_cast<std::size_t>(table.n_features()));
   for (std::size_t j = 0; j < all.size(); ++j) all[j] = static_cast<std::int64_t>(j);
-  rank.scores = score_features(table.values, all, classes, score);
+  rank.scores = table.has_target() ? score_against_target(table.values, all, table.target, score)
+                                   : score_features(table.values, all, classes, score);
   const FeatureScores& scores = rank.scores;
   require_some_scored(scores, criterion, table.source);
   rank.ranked = rank_order(scores, criterion);
@@ -189,8 +195,10 @@ RankResult rank_to_folder(FeatureTable& table, const RankOptions& options, const
   report.samples = table.n_samples();
   report.features = table.n_features();
   report.glance.push_back("Scored " + thousands(table.n_features()) + " features against " + table.label_name + " (" +
-                          std::to_string(classes.classes.size()) + " classes, " + thousands(table.n_samples()) +
-                          " samples) on " + (options.log2 ? "log2(x + 1) of the values" : "the values as read") +
+                          (table.has_target() ? std::string("a continuous target")
+                                              : std::to_string(classes.classes.size()) + " classes") +
+                          ", " + thousands(table.n_samples()) + " samples) on " +
+                          (options.log2 ? "log2(x + 1) of the values" : "the values as read") +
                           "; ranked by " + criterion_name(criterion) + ".");
   add_ranking(report, table, scores, rank.ranked, rank.kept, criterion, options.fdr, options.keep);
   std::vector<std::int64_t> top;
@@ -203,9 +211,12 @@ RankResult rank_to_folder(FeatureTable& table, const RankOptions& options, const
                        {"fdr", short_number(options.fdr)},
                        {"keep", std::to_string(options.keep)},
                        {"bins", std::to_string(score.bins)},
-                       {"mi_estimator", score.mi == MiEstimator::kKnn ? "knn" : "binned"},
+                       {"mi_estimator", score.mi == MiEstimator::kKnn || table.has_target() ? "knn" : "binned"},
                        {"neighbors", std::to_string(score.neighbors)},
                        {"min_class_size", std::to_string(run.left_out.min_class_size)}};
+  if (table.has_target()) std::erase_if(record.parameters, [](const auto& p) {
+    return p.first == "bins" || p.first == "min_class_size";
+  });
   record.timings = {{"read", run.read_seconds}, {"scoring", rank.seconds}};
   record.outputs = {"ranking.tsv", "report.html"};
 
@@ -226,19 +237,28 @@ std::string rank_summary(const FeatureTable& table, const RankOptions& options, 
   const bool counts = criterion == Criterion::kChi2Counts;
   std::ostringstream out;
   out << "pare rank: " << table.source << " - " << thousands(table.n_features()) << " features, "
-      << thousands(table.n_samples()) << " samples, " << encode_classes(table.labels).classes.size()
-      << " classes, ranked by " << criterion_name(criterion) << ", transform "
-      << (options.log2 ? "log2(x + 1)" : "none") << "\n";
+      << thousands(table.n_samples()) << " samples, "
+      << (table.has_target() ? std::string("a continuous target")
+                             : std::to_string(encode_classes(table.labels).classes.size()) + " classes")
+      << ", ranked by " << criterion_name(criterion) << ", transform " << (options.log2 ? "log2(x + 1)" : "none")
+      << "\n";
   out << left_out_summary(run.left_out, run.samples_read, table.n_samples(), run.sample_list_path);
-  out << "  classes: " << class_counts_text(table) << "\n";
+  out << response_line(table);
   std::vector<std::vector<std::string>> rows;
-  rows.push_back({"rank", "feature", "mi", "chi2", "chi2_q", "f", "f_q"});
+  if (scores.continuous) rows.push_back({"rank", "feature", "pearson_r", "pearson_q", "spearman_rho", "spearman_q", "mi"});
+  else rows.push_back({"rank", "feature", "mi", "chi2", "chi2_q", "f", "f_q"});
   if (counts) rows.front().insert(rows.front().end(), {"chi2_counts", "counts_q"});
   for (std::size_t r = 0; r < rank.kept.size() && r < 20; ++r) {
     const std::size_t i = rank.kept[r];
-    std::vector<std::string> row{std::to_string(r + 1), table.feature_names[static_cast<std::size_t>(scores.feature[i])],
-                                 short_number(scores.mi[i]), short_number(scores.chi2[i]),
-                                 short_number(scores.chi2_q[i]), short_number(scores.f[i]), short_number(scores.f_q[i])};
+    const std::string& name = table.feature_names[static_cast<std::size_t>(scores.feature[i])];
+    std::vector<std::string> row =
+        scores.continuous
+            ? std::vector<std::string>{std::to_string(r + 1), name, short_number(scores.pearson_r[i]),
+                                       short_number(scores.pearson_q[i]), short_number(scores.spearman_rho[i]),
+                                       short_number(scores.spearman_q[i]), short_number(scores.mi[i])}
+            : std::vector<std::string>{std::to_string(r + 1), name, short_number(scores.mi[i]),
+                                       short_number(scores.chi2[i]), short_number(scores.chi2_q[i]),
+                                       short_number(scores.f[i]), short_number(scores.f_q[i])};
     if (counts) {
       row.push_back(short_number(scores.chi2_counts[i]));
       row.push_back(short_number(scores.chi2_counts_q[i]));

@@ -43,7 +43,10 @@ Criterion parse_criterion(const std::string& name) {
   if (name == "chi2-counts") return Criterion::kChi2Counts;
   if (name == "f") return Criterion::kF;
   if (name == "variance") return Criterion::kVariance;
-  throw_usage_error("`rank_by` " + name + " is not one of mi, chi2, chi2-counts, f, variance");
+  if (name == "pearson") return Criterion::kPearson;
+  if (name == "spearman") return Criterion::kSpearman;
+  throw_usage_error("`rank_by` " + name + " is not one of mi, chi2, chi2-counts, f, variance (classes), "
+                    "pearson, spearman, mi, variance (a continuous target)");
 }
 
 const char* criterion_name(Criterion c) {
@@ -52,6 +55,8 @@ const char* criterion_name(Criterion c) {
     case Criterion::kChi2: return "chi2";
     case Criterion::kChi2Counts: return "chi2-counts";
     case Criterion::kF: return "f";
+    case Criterion::kPearson: return "pearson";
+    case Criterion::kSpearman: return "spearman";
     case Criterion::kVariance: break;
   }
   return "variance";
@@ -585,6 +590,8 @@ double criterion_score(const FeatureScores& s, Criterion c, std::size_t i) {
     case Criterion::kChi2: return s.chi2[i];
     case Criterion::kChi2Counts: return s.chi2_counts.empty() ? 0.0 : s.chi2_counts[i];
     case Criterion::kF: return s.f[i];
+    case Criterion::kPearson: return std::abs(s.pearson_r[i]);
+    case Criterion::kSpearman: return std::abs(s.spearman_rho[i]);
     case Criterion::kVariance: break;
   }
   return s.variance[i];
@@ -592,13 +599,37 @@ double criterion_score(const FeatureScores& s, Criterion c, std::size_t i) {
 
 double criterion_q(const FeatureScores& s, Criterion c, std::size_t i) {
   switch (c) {
-    case Criterion::kMi:
+    case Criterion::kMi: return s.continuous ? s.spearman_q[i] : s.chi2_q[i];
     case Criterion::kChi2: return s.chi2_q[i];
     case Criterion::kChi2Counts: return s.chi2_counts_q.empty() ? 1.0 : s.chi2_counts_q[i];
     case Criterion::kF: return s.f_q[i];
+    case Criterion::kPearson: return s.pearson_q[i];
+    case Criterion::kSpearman: return s.spearman_q[i];
     case Criterion::kVariance: break;
   }
   return 1.0;
+}
+
+bool criterion_fits(Criterion c, bool continuous) {
+  switch (c) {
+    case Criterion::kMi:
+    case Criterion::kVariance: return true;
+    case Criterion::kChi2:
+    case Criterion::kChi2Counts:
+    case Criterion::kF: return !continuous;
+    case Criterion::kPearson:
+    case Criterion::kSpearman: break;
+  }
+  return continuous;
+}
+
+void require_criterion_fits(Criterion c, bool continuous) {
+  if (criterion_fits(c, continuous)) return;
+  if (continuous)
+    throw_usage_error(std::string("`rank_by` ") + criterion_name(c) + " scores classes, not a continuous target",
+                      "rank a target by spearman, pearson, mi or variance");
+  throw_usage_error(std::string("`rank_by` ") + criterion_name(c) + " scores a continuous target, not classes",
+                    "rank classes by mi, chi2, chi2-counts, f or variance; a numeric column is a target with `target`");
 }
 
 bool criterion_defined(const FeatureScores& s, Criterion c, std::size_t i) {
@@ -633,6 +664,35 @@ std::string score_flag_names(std::uint8_t flags) {
   return out;
 }
 
+namespace {
+
+// ranking.tsv against a continuous target, after the header's `rank, feature, info...` in `out`.
+std::string ranking_tsv_continuous(const FeatureScores& s, std::span<const std::size_t> order,
+                                   const std::vector<std::string>& feature_names,
+                                   const std::vector<std::vector<std::string>>& info, std::string& out) {
+  out += "\tpearson_r\tpearson_p\tpearson_q\tspearman_rho\tspearman_p\tspearman_q\tmi\tvariance\tmissing_rate"
+         "\tindex\tflags\n";
+  for (std::size_t r = 0; r < order.size(); ++r) {
+    const std::size_t i = order[r];
+    out += std::to_string(r + 1);
+    out += '\t';
+    internal::append_field(out, feature_names[static_cast<std::size_t>(s.feature[i])], '\t');
+    for (const auto& column : info) {
+      out += '\t';
+      internal::append_field(out, column[static_cast<std::size_t>(s.feature[i])], '\t');
+    }
+    for (const double v : {s.pearson_r[i], s.pearson_p[i], s.pearson_q[i], s.spearman_rho[i], s.spearman_p[i],
+                           s.spearman_q[i], s.mi[i], s.variance[i], s.missing_rate[i]}) {
+      out += '\t';
+      internal::append_number(out, v);
+    }
+    out += '\t' + std::to_string(s.feature[i] + 1) + '\t' + score_flag_names(s.flags[i]) + '\n';
+  }
+  return std::move(out);
+}
+
+}  // namespace
+
 std::string ranking_tsv(const FeatureScores& s, std::span<const std::size_t> order,
                         const std::vector<std::string>& feature_names, bool with_counts,
                         const std::vector<std::string>& info_names,
@@ -642,6 +702,7 @@ std::string ranking_tsv(const FeatureScores& s, std::span<const std::size_t> ord
     out += '\t';
     internal::append_field(out, name, '\t');
   }
+  if (s.continuous) return ranking_tsv_continuous(s, order, feature_names, info, out);
   out += "\tmi\tchi2\tchi2_p\tchi2_q\tf\tf_p\tf_q\tvariance\tmissing_rate";
   if (with_counts) out += "\tchi2_counts\tchi2_counts_p\tchi2_counts_q";
   out += "\tchi2_bonferroni\tf_bonferroni";

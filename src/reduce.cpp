@@ -74,7 +74,8 @@ void check_reduce_options(const ReduceOptions& o) {
   if (o.threads < 0) throw_usage_error("`threads` must be 0 (all cores) or more");
   if (o.fdr < 1 && o.rank_by == Criterion::kVariance)
     throw_usage_error("`fdr` needs a criterion with a test, and variance has none",
-                      "rank by mi, chi2, chi2-counts or f, or leave out `fdr`");
+                      "rank by a criterion with a test (mi, chi2, chi2-counts or f for classes; spearman, pearson or "
+                      "mi for a target), or leave out `fdr`");
 }
 
 void log2_transform(FeatureTable& t, int threads) {
@@ -177,8 +178,9 @@ Reduction start_reduction(const FeatureTable& t, const ReduceOptions& o) {
   r.stats.resize(p);
   r.alive.resize(p);
   std::iota(r.alive.begin(), r.alive.end(), std::int64_t{0});
-  r.supervised = o.relevance && t.has_labels();
+  r.supervised = o.relevance && (t.has_labels() || t.has_target());
   r.criterion = r.supervised ? o.rank_by : Criterion::kVariance;
+  if (r.supervised) require_criterion_fits(o.rank_by, t.has_target());
   return r;
 }
 
@@ -294,13 +296,13 @@ void rank_relevance(const FeatureTable& t, const ReduceOptions& o, Reduction& r)
   const auto start = std::chrono::steady_clock::now();
   const std::size_t in = r.alive.size();
   if (r.supervised && !r.alive.empty()) {
-    const ClassCodes classes = encode_classes(t.labels);
     ScoreOptions so = o.score;
     so.threads = o.threads;
     so.counts_chi2 = o.rank_by == Criterion::kChi2Counts;
     std::vector<ColumnStats> alive_stats(r.alive.size());
     for (std::size_t a = 0; a < r.alive.size(); ++a) alive_stats[a] = r.stats[static_cast<std::size_t>(r.alive[a])];
-    r.scores = score_features(t.values, r.alive, classes, so, alive_stats);
+    r.scores = t.has_target() ? score_against_target(t.values, r.alive, t.target, so, alive_stats)
+                              : score_features(t.values, r.alive, encode_classes(t.labels), so, alive_stats);
     require_some_scored(r.scores, r.criterion, t.source);
     std::vector<std::int64_t> ordered;
     for (const std::size_t pos : rank_order(r.scores, r.criterion)) {
@@ -309,7 +311,8 @@ void rank_relevance(const FeatureTable& t, const ReduceOptions& o, Reduction& r)
       const double q = criterion_q(r.scores, r.criterion, pos);
       if (o.fdr < 1 && r.criterion != Criterion::kVariance && q > o.fdr)
         r.drop(j, Step::kRelevance,
-               std::string(internal::criterion_facts(r.criterion).short_test) + " q = " + g3(q) + " > " + g3(o.fdr));
+               std::string(internal::criterion_facts(r.criterion, r.scores.continuous).short_test) + " q = " + g3(q) +
+                   " > " + g3(o.fdr));
       else
         ordered.push_back(j);
     }
@@ -449,7 +452,10 @@ std::string selection_log_tsv(const FeatureTable& t, const Reduction& r) {
     internal::append_field(out, name, '\t');
   }
   out += "\tindex\tstatus\tstep\treason\trank";
-  if (r.supervised) out += "\tmi\tchi2\tchi2_p\tchi2_q\tf\tf_p\tf_q";
+  const bool continuous = r.scores.continuous;
+  if (r.supervised)
+    out += continuous ? "\tpearson_r\tpearson_p\tpearson_q\tspearman_rho\tspearman_p\tspearman_q\tmi"
+                      : "\tmi\tchi2\tchi2_p\tchi2_q\tf\tf_p\tf_q";
   if (counts) out += "\tchi2_counts\tchi2_counts_p\tchi2_counts_q";
   out += "\tvariance\tmissing_rate\n";
   for (std::size_t j = 0; j < r.decisions.size(); ++j) {
@@ -466,7 +472,11 @@ std::string selection_log_tsv(const FeatureTable& t, const Reduction& r) {
     const std::int64_t pos = r.score_of[j];
     const auto ps = static_cast<std::size_t>(pos);
     if (r.supervised) {
-      if (pos >= 0) {
+      if (pos >= 0 && continuous) {
+        for (double v : {r.scores.pearson_r[ps], r.scores.pearson_p[ps], r.scores.pearson_q[ps],
+                         r.scores.spearman_rho[ps], r.scores.spearman_p[ps], r.scores.spearman_q[ps], r.scores.mi[ps]})
+          append_tab_number(out, v);
+      } else if (pos >= 0) {
         for (double v : {r.scores.mi[ps], r.scores.chi2[ps], r.scores.chi2_p[ps], r.scores.chi2_q[ps],
                          r.scores.f[ps], r.scores.f_p[ps], r.scores.f_q[ps]})
           append_tab_number(out, v);

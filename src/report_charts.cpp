@@ -1,6 +1,6 @@
 // report.html's SVG drawing: axes and shapes, the selection funnel, the filter histograms, the
 // ranking bars, the scree plot and the samples on two components.
-#include <algorithm>  // std::max, std::min, std::sort
+#include <algorithm>  // std::clamp, std::max, std::min, std::sort
 #include <cmath>      // std::log10, std::pow, std::floor, std::ceil, std::isnan, std::isinf
 #include <map>        // std::map
 
@@ -416,16 +416,17 @@ std::string bars_svg(const std::vector<ReportBar>& bars, const std::string& axis
   for (std::size_t k = 0; k < bars.size(); ++k) {
     const ReportBar& b = bars[k];
     const double y = top + row * static_cast<double>(k);
+    const double printed = std::isnan(b.shown) ? b.value : b.shown;  // signed r: bar |r|
     s += std::string("<g class=\"") + cls + "\" data-rank=\"" + std::to_string(k + 1) +
          "\" data-name=\"" + esc(b.name) + "\" data-value=\"" + esc(b.raw_value) + "\"";
     if (show_q) s += " data-q=\"" + esc(b.raw_q) + "\"";
-    s += "><title>" + std::to_string(k + 1) + ". " + esc(b.name) + ": " + esc(g(b.value, 4)) +
+    s += "><title>" + std::to_string(k + 1) + ". " + esc(b.name) + ": " + esc(g(printed, 4)) +
          (show_q ? ", q = " + esc(g(b.q, 3)) : std::string()) +
          (b.hover.empty() ? "" : " \xE2\x80\x94 " + esc(b.hover)) + "</title>";
     text(s, left - 8, y + row / 2 + 4, esc_short(b.name, 30), "end");
     const double v = std::isinf(b.value) ? x.d1 : std::max(0.0, b.value);
     rect(s, x(0), y + 3, x(v) - x(0), row - 6, kBlue);
-    text(s, x(v) + 5, y + row / 2 + 4, "<tspan class=\"num\">" + esc(g(b.value)) + "</tspan>",
+    text(s, x(v) + 5, y + row / 2 + 4, "<tspan class=\"num\">" + esc(g(printed)) + "</tspan>",
          "start", "value");
     if (show_q)
       text(s, width - 12, y + row / 2 + 4, "<tspan class=\"num\">" + esc(g(b.q)) + "</tspan>",
@@ -495,8 +496,62 @@ std::string scree_svg(const ReportComponents& c) {
   return s;
 }
 
+std::string ramp_colour(double t) {
+  if (std::isnan(t)) t = 0.5;
+  t = std::clamp(t, 0.0, 1.0) * static_cast<double>(kRampStopCount - 1);
+  const auto k = std::min(static_cast<std::size_t>(t), kRampStopCount - 2);
+  const double f = t - static_cast<double>(k);
+  const auto channel = [](const char* hex, int at) {
+    return std::stoi(std::string(hex + 1 + 2 * at, 2), nullptr, 16);
+  };
+  static constexpr char kDigits[] = "0123456789ABCDEF";
+  std::string out = "#";
+  for (int at = 0; at < 3; ++at) {
+    const double a = channel(kRampStops[k], at), b = channel(kRampStops[k + 1], at);
+    const auto v = static_cast<int>(std::lround(a + f * (b - a)));
+    out += kDigits[v / 16];
+    out += kDigits[v % 16];
+  }
+  return out;
+}
+
+std::string ramp_swatch() {
+  std::string s = "<svg width=\"70\" height=\"12\" viewBox=\"0 0 70 12\" aria-hidden=\"true\">";
+  for (std::size_t k = 0; k < kRampStopCount; ++k)
+    s += "<rect x=\"" + std::to_string(10 * k) + "\" y=\"1\" width=\"10\" height=\"10\" fill=\"" +
+         kRampStops[k] + "\"/>";
+  return s + "</svg>";
+}
+
 Classes classes_of(const ReportSamples& d) {
   Classes c;
+  if (d.labels.empty() && !d.target.empty()) {
+    // A continuous target: each sample on the ramp, linear in its value over the target's range;
+    // samples without a value grey, in a group of their own.
+    for (const double v : d.target)
+      if (std::isfinite(v)) {
+        c.lo = std::isnan(c.lo) ? v : std::min(c.lo, v);
+        c.hi = std::isnan(c.hi) ? v : std::max(c.hi, v);
+      }
+    c.names = {d.label_name.empty() ? std::string("target") : d.label_name};
+    c.colours = {ramp_colour(0.5)};
+    c.counts = {0};
+    for (const double v : d.target) {
+      const bool has = std::isfinite(v);
+      if (!has && !c.has_missing) {
+        c.has_missing = true;
+        c.names.push_back("no value");
+        c.colours.push_back(kMissing);
+        c.counts.push_back(0);
+      }
+      c.of.push_back(has ? 0 : 1);
+      ++c.counts[has ? 0 : 1];
+      c.sample_colours.push_back(!has          ? std::string(kMissing)
+                                 : c.hi > c.lo ? ramp_colour((v - c.lo) / (c.hi - c.lo))
+                                               : ramp_colour(0.5));
+    }
+    return c;
+  }
   if (d.labels.empty()) {
     c.names = {"all samples"};
     c.counts = {static_cast<std::int64_t>(d.ids.size())};
@@ -587,15 +642,23 @@ std::string scatter_svg(const std::vector<double>& xs, const std::vector<double>
     std::string title = esc(d.ids[i]);
     if (!d.labels.empty())
       title += " \xC2\xB7 " + esc(d.labels[i].empty() ? "no label" : d.labels[i]);
+    if (d.labels.empty() && i < d.target.size())
+      title += " \xC2\xB7 " + esc(d.label_name.empty() ? "target" : d.label_name) + " " +
+               (std::isfinite(d.target[i]) ? esc(g(d.target[i], 4)) : std::string("no value"));
     if (!d.marks.empty())
       title +=
           " \xC2\xB7 " + esc(d.mark_name) + " " + esc(d.marks[i].empty() ? "missing" : d.marks[i]);
     if (d.screened) title += " \xC2\xB7 distance " + esc(g(d.distance[i]));
     if (flag) title += " \xC2\xB7 flagged outlier";
     if (!d.dropped.empty() && d.dropped[i]) title += " (dropped)";
+    // On the target's ramp every dot has its own colour, outlined so the lightest stay visible.
     s += "<circle cx=\"" + xy(x(xs[row])) + "\" cy=\"" + xy(y(ys[row])) + "\" r=\"" + xy(r) +
-         "\" fill=\"" + classes.colours[classes.of[i]] + "\" fill-opacity=\"0.8\"><title>" + title +
-         "</title></circle>";
+         "\" fill=\"" +
+         (classes.ramp() ? classes.sample_colours[i] : classes.colours[classes.of[i]]) +
+         "\" fill-opacity=\"0.8\"" +
+         (classes.ramp() ? std::string(" stroke=\"") + kAxis + "\" stroke-width=\"0.5\""
+                         : std::string()) +
+         "><title>" + title + "</title></circle>";
     if (flag) {
       rings += "<circle cx=\"" + xy(x(xs[row])) + "\" cy=\"" + xy(y(ys[row])) + "\" r=\"" +
                xy(r + 3) + "\" fill=\"none\" stroke=\"" + kInk + "\" stroke-width=\"1.5\"><title>" +

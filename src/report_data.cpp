@@ -18,9 +18,15 @@ namespace pare {
 
 namespace internal::html {
 
-const char* criterion_column(Criterion c) { return criterion_facts(c).column; }
-const char* criterion_q_column(Criterion c) { return criterion_facts(c).q_column; }
-const char* criterion_axis(Criterion c) { return criterion_facts(c).axis; }
+const char* criterion_column(Criterion c, bool continuous) {
+  return criterion_facts(c, continuous).column;
+}
+const char* criterion_q_column(Criterion c, bool continuous) {
+  return criterion_facts(c, continuous).q_column;
+}
+const char* criterion_axis(Criterion c, bool continuous) {
+  return criterion_facts(c, continuous).axis;
+}
 
 }  // namespace internal::html
 
@@ -235,10 +241,11 @@ void add_components(ReportData& d, const Projection& pr, const std::string& sour
 
 void add_screen(ReportData& d, const SampleScreen& s, const std::vector<std::string>& ids,
                 const std::vector<std::string>& labels, const std::string& label_name,
-                const std::vector<char>& dropped) {
+                const std::vector<char>& dropped, const std::vector<double>& target) {
   ReportSamples& r = d.sample_info;
   r.ids = ids;
   r.labels = labels;
+  r.target = target;
   r.label_name = label_name;
   r.missing_rate.clear();
   for (std::size_t i = 0; i < ids.size(); ++i) r.missing_rate.push_back(s.missing_rate(i));

@@ -138,6 +138,11 @@ std::string glance_samples(const ReportSamples& si, const Classes& classes,
       h += (k ? ", " : "") + esc(classes.names[k]) + " " + count(classes.counts[k]);
     if (classes.has_missing) h += "; " + count(classes.counts.back()) + " without a label";
     h += ")";
+  } else if (classes.ramp()) {
+    h += std::isnan(classes.lo) ? " (none with a value of " + esc(classes.names[0]) + ")"
+                                : " with " + esc(classes.names[0]) + " from " +
+                                      esc(g(classes.lo, 4)) + " to " + esc(g(classes.hi, 4));
+    if (classes.has_missing) h += " (" + count(classes.counts.back()) + " without a value)";
   }
   if (!si.screened) {
     h += "; not screened for outliers (" + esc(si.rule) + ").</li>";
@@ -169,8 +174,8 @@ std::string glance_section(const ReportData& d, const Classes& classes,
   if (!d.ranking.bars.empty()) {
     const ReportBar& b = d.ranking.bars.front();
     h += "<li>Leading feature: <strong>" + esc(b.name) + "</strong> (" + esc(d.ranking.criterion) +
-         " " + esc(g(b.value)) + (std::isnan(b.q) ? std::string() : ", q " + esc(g(b.q))) +
-         ").</li>";
+         " " + esc(g(std::isnan(b.shown) ? b.value : b.shown)) +
+         (std::isnan(b.q) ? std::string() : ", q " + esc(g(b.q))) + ").</li>";
   }
   if (!d.sample_info.ids.empty())
     h += glance_samples(d.sample_info, classes, flagged_names, dropped_names);
@@ -276,7 +281,14 @@ std::string components_section(const ReportData& d) {
       "variance of " +
       esc(d.components.source) +
       " carried by each component (bars) and by the first ones together (line).</p>";
-  if (d.chosen_with_labels && d.components.of_kept)
+  if (d.chosen_with_labels && d.components.of_kept && d.ranking.continuous)
+    h += "<p class=\"caution\">These features were selected using the target" +
+         (si.label_name.empty() ? std::string() : " (" + esc(si.label_name) + ")") +
+         ", so the samples are expected to line up by it on these components, and on the sample "
+         "plots below, even in data without a real relation: the pattern is not evidence by "
+         "itself. To test it, select on training samples only and apply the plan to held-out "
+         "ones.</p>";
+  else if (d.chosen_with_labels && d.components.of_kept)
     h += "<p class=\"caution\">These features were selected using the labels" +
          (si.label_name.empty() ? std::string() : " (" + esc(si.label_name) + ")") +
          ", so the classes are expected to separate on these components, and on the sample "
@@ -289,8 +301,20 @@ std::string components_section(const ReportData& d) {
 }
 
 // The legend of a samples plot: a dot per group with its size, and the ring of a flagged sample.
+// On a target's ramp: "<name>: low <the ramp> high" with the ends' values, and the samples without
+// a value.
 std::string scatter_legend(const Classes& c, bool rings, const std::string& heading) {
   std::string l = "<ul class=\"legend\">";
+  if (c.ramp()) {
+    l += "<li class=\"ramp\" data-lo=\"" + shortest(c.lo) + "\" data-hi=\"" + shortest(c.hi) +
+         "\"><strong>" + esc(c.names[0]) + ":</strong> low (" + esc(g(c.lo, 4)) + ") " +
+         ramp_swatch() + " high (" + esc(g(c.hi, 4)) + ")</li>";
+    if (c.has_missing)
+      l += "<li>" + swatch(kMissing, Mark::kDot) + " " + esc(c.names.back()) + " (" +
+           count(c.counts.back()) + ")</li>";
+    if (rings) l += "<li>" + swatch(kInk, Mark::kRing) + " flagged outlier</li>";
+    return l + "</ul>";
+  }
   if (!heading.empty()) l += "<li><strong>" + esc(heading) + ":</strong></li>";
   for (std::size_t k = 0; k < c.names.size(); ++k)
     l += "<li>" + swatch(c.colours[k].c_str(), Mark::kDot) + " " + esc(c.names[k]) + " (" +
@@ -312,8 +336,11 @@ std::string sample_scatters(const ReportData& d, const Classes& classes) {
   const bool marked = !si.marks.empty() && si.marks.size() == si.ids.size();
   std::string mark_note;
   const Classes marks = marked ? marks_of(si, mark_note) : Classes{};
+  const std::string coloured_by =
+      classes.ramp() ? "coloured by " + esc(classes.names[0]) + " (light: low, dark: high)"
+                     : std::string("coloured by class");
   std::string h =
-      "<p class=\"lead\">Each dot is a sample on the components above, coloured by class" +
+      "<p class=\"lead\">Each dot is a sample on the components above, " + coloured_by +
       std::string(marked ? " (left) and by " + esc(si.mark_name) + " (right)" : "") +
       std::string(si.screened ? "; a black ring marks a sample flagged as an outlier" : "") +
       ". Hover a dot for its id.</p>";
@@ -365,19 +392,23 @@ std::string sample_distances(const ReportSamples& si, const std::vector<std::str
   dist.kept_label = "not flagged";
   std::string extra;
   std::string h = "<h3 id=\"distance\">" + esc(dist.title) + "</h3>";
-  h += figure(histogram_svg(dist, extra),
-              "Screen: " + esc(si.screen_source) +
-                  ". Each component's scores are centred on their median (with "
-                  "labels, the median of the sample's class, so classes that separate are not "
-                  "outliers) and divided "
-                  "by a robust standard deviation: the larger of 1.4826 \xC3\x97 the median "
-                  "absolute deviation and "
-                  "the 80th percentile of the absolute deviations / 1.2816 (so a batch or "
-                  "group of more than a fifth "
-                  "of the samples is not called outlying). The distance is the square root of "
-                  "the sum of squares. "
-                  "Rule: " +
-                  esc(si.rule) + ".");
+  h += figure(
+      histogram_svg(dist, extra),
+      "Screen: " + esc(si.screen_source) +
+          ". Each component's scores are centred on their median (" +
+          (si.labels.empty() && !si.target.empty()
+               ? std::string("the screen does not use the target")
+               : std::string("with labels, the median of the sample's class, so classes that "
+                             "separate are not outliers")) +
+          ") and divided "
+          "by a robust standard deviation: the larger of 1.4826 \xC3\x97 the median "
+          "absolute deviation and "
+          "the 80th percentile of the absolute deviations / 1.2816 (so a batch or "
+          "group of more than a fifth "
+          "of the samples is not called outlying). The distance is the square root of "
+          "the sum of squares. "
+          "Rule: " +
+          esc(si.rule) + ".");
   h += "<p>";
   if (flagged_names.empty()) {
     h += "No sample is flagged.";
@@ -491,7 +522,7 @@ std::string report_html(const ReportData& d) {
   h += funnel_section(d);
   h += distributions_section(d);
   h += ranking_section(d);
-  h += top_features_html(d.top_features, classes);
+  h += top_features_html(d.top_features, classes, d.ranking);
   h += redundancy_section(d);
   h += components_section(d);
   h += samples_section(d, classes, flagged_names, dropped_names);

@@ -1,7 +1,8 @@
 // report.html, the parts that help choose and judge a selection: the score of every ranked
 // feature against its rank (with the --fdr and --keep cuts), the ranking test's p-values, strip
-// plots of the leading kept features by class, and the samples coloured by a sheet column
-// (--mark-by). The page itself is assembled in src/report_page.cpp.
+// plots of the leading kept features by class (or scatter plots against a continuous target), and
+// the samples coloured by a sheet column (--mark-by). The page itself is assembled in
+// src/report_page.cpp.
 #include <algorithm>  // std::sort, std::stable_sort, std::min, std::max
 #include <cmath>      // std::isfinite, std::log10, std::floor, std::ceil, std::pow
 #include <cstdint>    // std::int64_t, std::uint64_t
@@ -22,24 +23,34 @@ namespace internal::html {
 
 namespace {
 
-// The p-values of the test a criterion's q-values come from (nullptr: none, e.g. variance).
+// The p-values of the test a criterion's q-values come from (nullptr: none, e.g. variance): mi
+// takes the chi-square test's against classes and Spearman's against a continuous target.
 const std::vector<double>* criterion_p(const FeatureScores& s, Criterion c) {
   switch (c) {
     case Criterion::kMi:
+      return s.continuous ? &s.spearman_p : &s.chi2_p;
     case Criterion::kChi2:
       return &s.chi2_p;
     case Criterion::kF:
       return &s.f_p;
     case Criterion::kChi2Counts:
       return &s.chi2_counts_p;
+    case Criterion::kPearson:
+      return &s.pearson_p;
+    case Criterion::kSpearman:
+      return &s.spearman_p;
     case Criterion::kVariance:
       break;
   }
   return nullptr;
 }
 
-const char* criterion_p_column(Criterion c) { return criterion_facts(c).p_column; }
-const char* criterion_test(Criterion c) { return criterion_facts(c).test; }
+const char* criterion_p_column(Criterion c, bool continuous) {
+  return criterion_facts(c, continuous).p_column;
+}
+const char* criterion_test(Criterion c, bool continuous) {
+  return criterion_facts(c, continuous).test;
+}
 
 // A fixed offset in [-0.5, 0.5) for sample i: the finaliser of SplitMix64 (Steele, Lea & Flood,
 // "Fast splittable pseudorandom number generators", OOPSLA 2014), a bijection that scatters
@@ -253,6 +264,7 @@ void curve_line(std::string& s, const ReportScoreCurve& c, const CurveFrame& f) 
   if (c.keep > 0)
     s += " data-keep=\"" + std::to_string(c.keep) + "\" data-keep-rank=\"" +
          std::to_string(c.keep_rank) + "\"";
+  if (c.absolute) s += " data-absolute=\"true\"";
   s += " data-points=\"" + points + "\"><path d=\"" + path + "\" fill=\"none\" stroke=\"" + kBlue +
        "\" stroke-width=\"2\" stroke-linejoin=\"round\"/>";
   // A dot per feature while they are few enough to count.
@@ -341,7 +353,8 @@ std::string score_curve_html(const ReportScoreCurve& c) {
   s += "</svg>";
 
   std::string legend = "<ul class=\"legend\"><li>" + swatch(kBlue, Mark::kLine) + " " +
-                       esc(c.column) + " of the feature at each rank</li>";
+                       (c.absolute ? "|" + esc(c.column) + "|" : esc(c.column)) +
+                       " of the feature at each rank</li>";
   if (!c.kept_ranks.empty())
     legend += "<li>" + swatch(kGreen) + " kept (" +
               count(static_cast<std::int64_t>(c.kept_ranks.size())) + ")</li>";
@@ -601,10 +614,161 @@ std::string strip_notes(const StripGroups& sg, std::int64_t without_value) {
   return "<p class=\"none\">" + esc(notes.substr(0, notes.size() - 1)) + "</p>";
 }
 
+// The scatter plots of the top features against a continuous target: the samples shown (those
+// with a target value) and, past kReportMaxStripPoints of them, every stride-th drawn, the same
+// samples in every plot (as the strip plots thin).
+struct TargetPoints {
+  std::vector<char> shown;            // per sample
+  std::vector<std::size_t> position;  // per sample: its place among the shown ones
+  std::int64_t n_shown = 0, without_target = 0;
+  std::size_t stride = 1;
+  double lo = kNaN, hi = kNaN;  // the shown target values' range
+
+  bool drawn(std::size_t i) const { return shown[i] && position[i] % stride == 0; }
+};
+
+TargetPoints target_points(const ReportTopFeatures& top) {
+  const std::size_t n = top.ids.size();
+  TargetPoints tp;
+  tp.shown.assign(n, 0);
+  tp.position.assign(n, 0);
+  std::size_t next = 0;
+  for (std::size_t i = 0; i < n; ++i) {
+    const double t = i < top.target.size() ? top.target[i] : kNaN;
+    if (!std::isfinite(t)) {
+      ++tp.without_target;
+      continue;
+    }
+    tp.shown[i] = 1;
+    tp.position[i] = next++;
+    tp.lo = std::isnan(tp.lo) ? t : std::min(tp.lo, t);
+    tp.hi = std::isnan(tp.hi) ? t : std::max(tp.hi, t);
+  }
+  tp.n_shown = static_cast<std::int64_t>(next);
+  tp.stride =
+      next > kReportMaxStripPoints ? (next + kReportMaxStripPoints - 1) / kReportMaxStripPoints : 1;
+  return tp;
+}
+
+// The size of one scatter plot against the target (the strip plots' width, so they tile alike).
+struct TargetFrame {
+  static constexpr double width = 300, left = 56, right = 10, top_y = 26, plot_h = 180, bottom = 46;
+  static constexpr double height = top_y + plot_h + bottom;
+};
+
+// The scatter plot of the f-th top feature against the target, with its Pearson r and Spearman
+// rho under it when the ranking has them; `without_value` counts the shown samples it has no
+// finite value for.
+std::string target_panel(const ReportTopFeatures& top, std::size_t f, const TargetPoints& tp,
+                         const ReportRanking& ranking, std::int64_t& without_value) {
+  using F = TargetFrame;
+  const std::size_t n = top.ids.size();
+  const ReportStrip& st = top.strips[f];
+  const std::string target_name = top.label_name.empty() ? std::string("target") : top.label_name;
+  double lo = kNaN, hi = kNaN;
+  for (std::size_t i = 0; i < n; ++i) {
+    if (!tp.shown[i]) continue;
+    const double v = i < st.values.size() ? st.values[i] : kNaN;
+    if (!std::isfinite(v)) {
+      ++without_value;
+      continue;
+    }
+    lo = std::isnan(lo) ? v : std::min(lo, v);
+    hi = std::isnan(hi) ? v : std::max(hi, v);
+  }
+  if (std::isnan(lo)) lo = hi = 0;
+  const double pad = hi > lo ? (hi - lo) * 0.06 : 1;
+  const double x_pad = tp.hi > tp.lo ? (tp.hi - tp.lo) * 0.06 : 1;
+  const Scale y{lo - pad, hi + pad, F::top_y + F::plot_h, F::top_y};
+  const Scale x{tp.lo - x_pad, tp.hi + x_pad, F::left, F::width - F::right};
+  const double foot = F::top_y + F::plot_h;
+  std::string s = svg_open(F::width, F::height, "Values of " + st.name + " against " + target_name);
+  s += "<g class=\"target-scatter\" data-rank=\"" + std::to_string(f + 1) + "\" data-feature=\"" +
+       esc(st.name) + "\" data-column=\"" + std::to_string(st.column) + "\">";
+  text(s, F::left, F::top_y - 10, esc_short(st.name, 34), "start", "label", "font-weight=\"600\"");
+  // The feature's value up, with its grid.
+  line(s, F::left, F::top_y, F::left, foot, kAxis);
+  for (const double t : linear_ticks(y.d0, y.d1, 5)) {
+    line(s, F::left - 4, y.raw(t), F::left, y.raw(t), kAxis);
+    line(s, F::left, y.raw(t), F::width - F::right, y.raw(t), "#f0f0f0");
+    text(s, F::left - 7, y.raw(t) + 4, esc(g(t, 3)), "end", "tick");
+  }
+  // The target across, with its grid, its ticks and its name.
+  line(s, F::left, foot, F::width - F::right, foot, kAxis);
+  for (const double t : linear_ticks(x.d0, x.d1, 4)) {
+    line(s, x.raw(t), F::top_y, x.raw(t), foot, "#f0f0f0");
+    line(s, x.raw(t), foot, x.raw(t), foot + 4, kAxis);
+    text(s, x.raw(t), foot + 16, esc(g(t, 3)), "middle", "tick");
+  }
+  text(s, (F::left + F::width - F::right) / 2, foot + 36, esc_short(target_name, 40), "middle",
+       "label");
+  // Every drawn sample, in file order.
+  const double r = tp.n_shown <= 200 ? 2.6 : 2.0;
+  for (std::size_t i = 0; i < n && i < st.values.size(); ++i) {
+    if (!tp.drawn(i)) continue;
+    const float value = st.values[i];
+    if (!std::isfinite(value)) continue;
+    const double t = top.target[i];
+    s += "<circle cx=\"" + xy(x(t)) + "\" cy=\"" + xy(y(value)) + "\" r=\"" + xy(r) + "\" fill=\"" +
+         kBlue + "\" fill-opacity=\"0.7\" data-target=\"" + shortest(t) + "\" data-value=\"" +
+         shortest(value) + "\"><title>" + esc(top.ids[i]) + " \xC2\xB7 " + esc(target_name) + " " +
+         esc(g(t, 4)) + " \xC2\xB7 " + esc(g(value, 4)) + "</title></circle>";
+  }
+  s += "</g></svg>";
+  // Its correlations, as ranking.tsv gives them.
+  std::string caption;
+  for (const ReportBar& b : ranking.bars)
+    if (b.name == st.name && (!std::isnan(b.spearman_rho) || !std::isnan(b.pearson_r))) {
+      caption = "Spearman rho " + g(b.spearman_rho, 3) + ", Pearson r " + g(b.pearson_r, 3);
+      break;
+    }
+  return "<figure>" + s + (caption.empty() ? "" : "<figcaption>" + esc(caption) + "</figcaption>") +
+         "</figure>";
+}
+
+// The section of scatter plots against a continuous target.
+std::string target_features_html(const ReportTopFeatures& top, const ReportRanking& ranking) {
+  const TargetPoints tp = target_points(top);
+  if (tp.n_shown == 0) return "";  // no sample with a target value: nothing to draw
+  const std::string target_name =
+      top.label_name.empty() ? std::string("the target") : top.label_name;
+  std::string panels;
+  std::int64_t without_value = 0;
+  for (std::size_t f = 0; f < top.strips.size(); ++f)
+    panels += target_panel(top, f, tp, ranking, without_value);
+  std::string h = "<section id=\"top-features\"><h2>Top features, sample by sample</h2>";
+  h += "<p class=\"lead\">The first " + std::to_string(top.strips.size()) +
+       " kept features in ranking order against " + esc(target_name) + ": every sample a dot, " +
+       esc(target_name) +
+       " across and the feature's value up. Under each plot, its correlations with " +
+       esc(target_name) + " where the ranking lists them." +
+       (top.values_note.empty() ? std::string() : " " + esc(sentence(top.values_note))) + "</p>";
+  h += "<div class=\"strips\">" + panels + "</div>";
+  std::string notes;
+  if (tp.without_target > 0)
+    notes +=
+        count(tp.without_target) +
+        (tp.without_target == 1 ? " sample without a value of " : " samples without a value of ") +
+        target_name + (tp.without_target == 1 ? " is" : " are") + " not shown. ";
+  if (tp.stride > 1)
+    notes += "One sample in " + std::to_string(tp.stride) + " is drawn (" +
+             count(static_cast<std::int64_t>(
+                 (static_cast<std::size_t>(tp.n_shown) + tp.stride - 1) / tp.stride)) +
+             " of " + count(tp.n_shown) + "). ";
+  if (without_value > 0)
+    notes += count(without_value) + (without_value == 1 ? " value missing is not shown. "
+                                                        : " values missing are not shown. ");
+  if (!notes.empty()) h += "<p class=\"none\">" + esc(notes.substr(0, notes.size() - 1)) + "</p>";
+  h += "</section>\n";
+  return h;
+}
+
 }  // namespace
 
-std::string top_features_html(const ReportTopFeatures& top, const Classes& scatter_classes) {
+std::string top_features_html(const ReportTopFeatures& top, const Classes& scatter_classes,
+                              const ReportRanking& ranking) {
   if (top.strips.empty()) return "";
+  if (top.labels.empty() && !top.target.empty()) return target_features_html(top, ranking);
   const StripGroups sg = strip_groups(top, scatter_classes);
   const std::size_t groups = sg.names.size();
   if (groups == 0) return "";  // every sample without a label: nothing to draw
@@ -648,27 +812,47 @@ void add_ranking(ReportData& d, const FeatureTable& t, const FeatureScores& s,
   const auto name_of = [&](std::size_t i) {
     return t.feature_names[static_cast<std::size_t>(s.feature[i])];
   };
+  const bool continuous = s.continuous;
+  // pearson and spearman rank by |r| and |rho|: the bar is the magnitude, the text the signed
+  // value ranking.tsv writes.
+  const std::vector<double>* signed_score = criterion == Criterion::kPearson    ? &s.pearson_r
+                                            : criterion == Criterion::kSpearman ? &s.spearman_rho
+                                                                                : nullptr;
   // The leading features, as ranking.tsv writes them.
   d.ranking = {};
   d.ranking_note.clear();
   d.ranking.criterion = criterion_name(criterion);
-  d.ranking.column = criterion_column(criterion);
-  d.ranking.q_column = criterion_q_column(criterion);
-  d.ranking.axis = criterion_axis(criterion);
+  d.ranking.column = criterion_column(criterion, continuous);
+  d.ranking.q_column = criterion_q_column(criterion, continuous);
+  d.ranking.axis = criterion_axis(criterion, continuous);
+  d.ranking.continuous = continuous;
   d.ranking.total = static_cast<std::int64_t>(kept.size());
   for (std::size_t k = 0; k < kept.size() && k < 30; ++k) {
     ReportBar b;
     b.name = name_of(kept[k]);
     b.value = criterion_score(s, criterion, kept[k]);
     if (!d.ranking.q_column.empty()) b.q = criterion_q(s, criterion, kept[k]);
-    b.raw_value = shortest(b.value);
+    if (signed_score != nullptr) b.shown = (*signed_score)[kept[k]];
+    b.raw_value = shortest(std::isnan(b.shown) ? b.value : b.shown);
     if (!std::isnan(b.q)) b.raw_q = shortest(b.q);
+    if (continuous) {
+      b.pearson_r = s.pearson_r[kept[k]];
+      b.spearman_rho = s.spearman_rho[kept[k]];
+      b.hover = "Pearson r " + g(b.pearson_r, 3) + ", Spearman rho " + g(b.spearman_rho, 3);
+    }
     d.ranking.bars.push_back(std::move(b));
   }
-  const std::string test = criterion_test(criterion);
+  const std::string test = criterion_test(criterion, continuous);
   d.ranking.caption = test.empty() ? "Ranked by variance."
                                    : "Right: q-value (Benjamini\xE2\x80\x93Hochberg) of " + test +
                                          ". Hover a bar for the exact value.";
+  if (signed_score != nullptr)
+    d.ranking.caption +=
+        std::string(" A bar's length is |") + (criterion == Criterion::kPearson ? "r" : "rho") +
+        "|; the number keeps its sign (negative: the feature falls as " +
+        (t.label_name.empty() ? std::string("the target") : t.label_name) + " rises).";
+  else if (continuous && criterion == Criterion::kMi)
+    d.ranking.caption += " MI has no test of its own: --fdr uses Spearman's.";
 
   // The score curve over every ranked feature.
   std::vector<std::int64_t> rank_of(s.size(), 0);
@@ -687,6 +871,7 @@ void add_ranking(ReportData& d, const FeatureTable& t, const FeatureScores& s,
   d.score_curve.column = d.ranking.column;
   d.score_curve.q_column = d.ranking.q_column;
   d.score_curve.axis = d.ranking.axis;
+  d.score_curve.absolute = signed_score != nullptr;
 
   // The p-values of the ranking test over every scored feature.
   d.p_values = {};
@@ -694,8 +879,8 @@ void add_ranking(ReportData& d, const FeatureTable& t, const FeatureScores& s,
   if (p == nullptr || p->empty()) return;
   ReportHistogram& h = d.p_values;
   h.id = "p-values";
-  h.title = std::string("p-values of ") + criterion_test(criterion);
-  h.axis = std::string("p-value (") + criterion_p_column(criterion) + ")";
+  h.title = std::string("p-values of ") + criterion_test(criterion, continuous);
+  h.axis = std::string("p-value (") + criterion_p_column(criterion, continuous) + ")";
   h.lo = 0;
   h.hi = 1;
   h.bin_width = 0.05;
@@ -710,7 +895,9 @@ void add_ranking(ReportData& d, const FeatureTable& t, const FeatureScores& s,
   }
   h.caption = "All " + count(static_cast<std::int64_t>(p->size())) +
               " scored features, 20 bars of width 0.05 (a p-value on an edge goes to the bar "
-              "above it; 1 to the last). If no feature were related to the class the p-values "
+              "above it; 1 to the last). If no feature were related to the " +
+              std::string(continuous ? "target" : "class") +
+              " the p-values "
               "would be uniform, about the dashed line in every bar; a spike at the left is "
               "signal. " +
               count(small) + " have p < 0.05, where " + g(m * 0.05, 3) +
@@ -726,6 +913,7 @@ void add_top_features(ReportData& d, const FeatureTable& t, std::span<const std:
   top = {};
   top.ids = t.sample_ids;
   top.labels = t.labels;
+  top.target = t.target;
   top.label_name = t.label_name;
   top.values_note = values_note;
   const auto n = static_cast<std::size_t>(t.n_samples());

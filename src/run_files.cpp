@@ -90,7 +90,7 @@ std::string report_page(const FeatureTable& table, const PipelineResult& result,
     }
   }
   const RunSamples& s = result.samples;
-  add_screen(report, result.screen, s.ids, s.labels, s.label_name, s.dropped);
+  add_screen(report, result.screen, s.ids, s.labels, s.label_name, s.dropped, s.target);
   if (!run.marks.empty()) {
     report.sample_info.mark_name = run.mark_name;
     report.sample_info.marks = run.marks;
@@ -204,7 +204,8 @@ PipelineResult reduce_to_folder(FeatureTable& table, const PipelineOptions& opti
   if (log_text.valid()) files.add("selection-log.tsv", log_text.get());
   files.add("plan.json", plan_json(table, result, run, written));
   const RunSamples& s = result.samples;
-  files.add("samples.tsv", samples_tsv(result.screen, s.ids, s.labels, s.label_name, s.dropped, s.info_names, s.info));
+  files.add("samples.tsv",
+            samples_tsv(result.screen, s.ids, response_values(s.labels, s.target), s.label_name, s.dropped, s.info_names, s.info));
   files.add("report.html", report_page(table, result, run, written, std::move(report)));
   files.commit();
   return result;
@@ -219,6 +220,22 @@ std::string class_counts_text(const FeatureTable& table) {
   return text;
 }
 
+std::string target_text(const FeatureTable& table) {
+  std::vector<double> sorted = table.target;
+  std::sort(sorted.begin(), sorted.end());
+  const std::size_t n = sorted.size();
+  const double median = n == 0 ? 0.0 : n % 2 ? sorted[n / 2] : (sorted[n / 2 - 1] + sorted[n / 2]) / 2;
+  return (table.label_name.empty() ? std::string("target") : table.label_name) + " - " +
+         thousands(static_cast<std::int64_t>(n)) + " values from " + short_number(n ? sorted.front() : 0.0) + " to " +
+         short_number(n ? sorted.back() : 0.0) + ", median " + short_number(median);
+}
+
+std::string response_line(const FeatureTable& table) {
+  if (table.has_target()) return "  target: " + target_text(table) + "\n";
+  if (table.has_labels()) return "  classes: " + class_counts_text(table) + "\n";
+  return "";
+}
+
 std::string left_out_summary(const SamplesLeftOut& left, std::int64_t samples_read, std::int64_t samples_used,
                              const std::string& sample_list) {
   if (left.empty() && samples_used == samples_read) return "";
@@ -227,7 +244,8 @@ std::string left_out_summary(const SamplesLeftOut& left, std::int64_t samples_re
   const auto listed = samples_used + static_cast<std::int64_t>(left.unlabelled.size() + left.small_class.size());
   if (!sample_list.empty()) why += thousands(listed) + " listed in " + sample_list;
   if (!left.unlabelled.empty())
-    why += (why.empty() ? "" : "; ") + thousands(static_cast<std::int64_t>(left.unlabelled.size())) + " without a label left out";
+    why += (why.empty() ? "" : "; ") + thousands(static_cast<std::int64_t>(left.unlabelled.size())) +
+           (left.target ? " without a target value left out" : " without a label left out");
   if (!left.small_class.empty()) {
     why += (why.empty() ? "" : "; ") + thousands(static_cast<std::int64_t>(left.small_class.size())) +
            " in classes under `min_class_size` " + std::to_string(left.min_class_size) + " left out (";
@@ -270,7 +288,7 @@ std::string reduce_summary(const FeatureTable& table, const PipelineResult& resu
   out << "\n";
   out << left_out_summary(run.left_out, run.samples_read, static_cast<std::int64_t>(result.samples.ids.size()),
                           run.sample_list_path);
-  if (r.supervised) out << "  classes: " << class_counts_text(table) << "\n";
+  if (r.supervised) out << response_line(table);
   std::vector<std::vector<std::string>> rows{{"step", "in", "out", "seconds"}};
   for (const auto& s : r.steps) {
     // Without selection only reading, filling and the PCA are shown.

@@ -75,6 +75,12 @@ void keep_samples(FeatureTable& table, std::span<const std::int64_t> rows, const
   };
   pick(table.sample_ids);
   pick(table.labels);
+  if (!table.target.empty()) {
+    std::vector<double> kept;
+    kept.reserve(rows.size());
+    for (const std::int64_t i : rows) kept.push_back(table.target[static_cast<std::size_t>(i)]);
+    table.target = std::move(kept);
+  }
   for (auto& column : table.sample_info) pick(column);
 }
 

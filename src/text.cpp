@@ -4,6 +4,8 @@
 #include <cmath>      // std::isinf, std::abs
 #include <cstdio>     // std::snprintf
 
+#include "internal/format.h"
+
 namespace pare {
 
 std::string thousands(std::int64_t v) {
@@ -88,6 +90,13 @@ std::string spell_options(std::string_view text, std::string_view prefix, char s
   }
   out.append(text.substr(at));
   return out;
+}
+
+std::vector<std::string> response_values(const std::vector<std::string>& labels, const std::vector<double>& target) {
+  if (target.empty()) return labels;
+  std::vector<std::string> text(target.size());
+  for (std::size_t i = 0; i < target.size(); ++i) internal::append_number(text[i], target[i]);
+  return text;
 }
 
 }  // namespace pare

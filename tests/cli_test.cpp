@@ -245,7 +245,7 @@ TEST_CASE("cli: usage errors exit 2", "[cli]") {
   require_usage_error(run({"scan", data, "--delimiter", "pipe"}),
                       "--delimiter pipe is not one of comma, tab, semicolon");
   require_usage_error(run({"scan", data, "--label", "group", "--labels", sheet}),
-                      "give --label or --labels, not both");
+                      "give one of --label, --labels, --target and --targets");
   // No command at all: the usage text on stderr, exit 2.
   const Run nothing = run({});
   REQUIRE(nothing.code == 2);

@@ -830,7 +830,7 @@ TEST_CASE("io: --feature-info and --sample-info: each mistake gets its own messa
   label.label_column = "group";
   label.sample_info = {"batch", "group"};
   REQUIRE(error_of([&] { pare::read_table(absent, label); }, pare::ErrorKind::kUsage) ==
-          "`sample_info` names \"group\", the `label` column (the labels are carried already; leave it out of "
+          "`sample_info` names \"group\", the `label` column (it is carried already; leave it out of "
           "`sample_info`)");
   ReadOptions empty = options();
   empty.sample_info = {"batch", ""};

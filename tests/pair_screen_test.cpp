@@ -81,7 +81,7 @@ double rest_norm(const std::vector<double>& z, Eigen::Index m) {  // |z| over ro
 
 }  // namespace
 
-TEST_CASE("pair screen: the 8-bit bound is never below |r|, and the kernels agree", "[prune]") {
+TEST_CASE("8-bit pair bound: the 8-bit bound is never below |r|, and the kernels agree", "[prune]") {
   const Eigen::Index n = 300, m = 61;  // S = the first m rows, rounded up to 64 codes
   const int count = 84;
   const Standardised s = standardise(columns(n, count, 11));
@@ -147,7 +147,7 @@ TEST_CASE("pair screen: the 8-bit bound is never below |r|, and the kernels agre
   }
 }
 
-TEST_CASE("pair screen: the second look's bound over S and S2 is never below |r|", "[prune]") {
+TEST_CASE("8-bit pair bound: the second look's bound over S and S2 is never below |r|", "[prune]") {
   const Eigen::Index n = 400, m = 57, m2 = 70;  // S: rows 0..56, S2: rows 57..126
   const int count = 60;
   const Standardised s = standardise(columns(n, count, 29));
@@ -184,7 +184,7 @@ TEST_CASE("pair screen: the second look's bound over S and S2 is never below |r|
   REQUIRE(tighter > pairs / 2);
 }
 
-TEST_CASE("pair screen: constant and all-zero subsets code to zero with zero allowances", "[prune]") {
+TEST_CASE("8-bit pair bound: constant and all-zero subsets code to zero with zero allowances", "[prune]") {
   const Eigen::Index m = 13;
   std::vector<float> zero(static_cast<std::size_t>(m), 0.0f);
   std::vector<std::int8_t> q(16, 5);

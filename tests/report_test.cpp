@@ -3,7 +3,9 @@
 // ranking.tsv, histogram counts that add up, and a bounded size at 100,000 features and 10,000
 // samples; the score curve equal to selection-log.tsv's scores in ranking order with the --fdr and
 // --keep cuts where the log puts them, the p-value histogram's counts, the strip plots' values
-// and class quartiles, and the sample plots coloured by a sheet column (--mark-by). The strict
+// and class quartiles, and the sample plots coloured by a sheet column (--mark-by); against a
+// continuous target, the ranking in the target's words (signed r, |r| bars, its test's p-values),
+// scatter plots of the top features against the target and the sample plots on a ramp. The strict
 // HTML parse, numpy's histogram and quantiles on a real run, and the rendering in Chromium are in
 // tests/reference/report_reference.py.
 #include "pare/report.h"
@@ -794,4 +796,337 @@ TEST_CASE("report: 10,000 samples: strip plots and marked plots thinned, page bo
           std::string::npos);
   REQUIRE(occurrences(html, "2,500 of 10,000 samples drawn (one in 4") == 4);
   REQUIRE(html.find("site has 20 distinct values") != std::string::npos);
+}
+
+namespace {
+
+// Hand-made scores of 5 features against a continuous target (the values are chosen, not
+// computed: these tests check what the page shows, against ranking.tsv as the library writes it).
+pare::FeatureScores target_scores() {
+  pare::FeatureScores s;
+  s.continuous = true;
+  s.feature = {0, 1, 2, 3, 4};
+  s.pearson_r = {0.9, -0.95, 0.1, -0.3, 0.5};
+  s.pearson_p = {1e-3, 1e-4, 0.8, 0.4, 0.2};
+  s.pearson_q = {2.5e-3, 5e-4, 0.8, 0.5, 1.0 / 3};
+  s.spearman_rho = {0.85, -0.9, 0.05, -0.35, 0.45};
+  s.spearman_p = {2e-3, 3e-4, 0.9, 0.3, 0.25};
+  s.spearman_q = {5e-3, 1.5e-3, 0.9, 0.375, 0.375};
+  s.mi = {0.6, 0.8, 0.01, 0.05, 0.2};
+  s.variance = {1, 2, 3, 4, 5};
+  s.missing_rate = {0, 0, 0, 0, 0};
+  s.flags = {0, 0, 0, 0, 0};
+  s.defined.assign(5, 0xFF);
+  return s;
+}
+
+// 8 samples x 5 features with a target named "progression".
+pare::FeatureTable target_table() {
+  pare::FeatureTable t;
+  t.values.resize(8, 5);
+  for (Eigen::Index i = 0; i < 8; ++i) {
+    t.sample_ids.push_back(numbered("s", i + 1));
+    t.target.push_back(10.0 * static_cast<double>(i + 1));
+    for (Eigen::Index j = 0; j < 5; ++j) t.values(i, j) = static_cast<float>(i * (j + 1) % 7);
+  }
+  for (int j = 0; j < 5; ++j) t.feature_names.push_back(numbered("f", j));
+  t.label_name = "progression";
+  return t;
+}
+
+// The text of `html` with every attribute value and tag name removed, so words in class="..."
+// attributes or elements do not count as text.
+std::string visible_text(const std::string& html) {
+  return std::regex_replace(html, std::regex("<[^>]*>"), " ");
+}
+
+}  // namespace
+
+TEST_CASE("report: a continuous target: the ranking in the target's words, signed r, |r| bars",
+          "[report]") {
+  const pare::FeatureTable t = target_table();
+  const pare::FeatureScores s = target_scores();
+  const std::vector<std::size_t> order = pare::rank_order(s, pare::Criterion::kPearson);
+  REQUIRE(order == std::vector<std::size_t>{1, 0, 4, 3, 2});  // by |r|
+  const std::vector<std::size_t> kept{1, 0, 4, 3};
+  pare::ReportData d;
+  d.command = "rank";
+  d.title = "pare rank: t.csv";
+  pare::add_ranking(d, t, s, order, kept, pare::Criterion::kPearson, 1, 4);
+  REQUIRE(d.ranking.continuous);
+  const std::string html = pare::report_html(d);
+  // The bars carry ranking.tsv's signed pearson_r and pearson_q; they print the sign, the bar is
+  // |r|.
+  const auto tsv = tsv_rows(pare::ranking_tsv(s, kept, t.feature_names, false));
+  const std::size_t rc = column_of(tsv[0], "pearson_r"), qc = column_of(tsv[0], "pearson_q");
+  for (std::size_t k = 0; k < kept.size(); ++k) {
+    const std::string start = "<g class=\"feature\" data-rank=\"" + std::to_string(k + 1) + "\"";
+    REQUIRE(attribute(html, start, "data-name") == tsv[k + 1][1]);
+    REQUIRE(attribute(html, start, "data-value") == tsv[k + 1][rc]);
+    REQUIRE(attribute(html, start, "data-q") == tsv[k + 1][qc]);
+  }
+  REQUIRE(tsv[1][rc] == "-0.95");
+  REQUIRE(html.find("<title>1. f1: -0.95, q = 0.0005 \xE2\x80\x94 Pearson r -0.95, Spearman rho "
+                    "-0.9</title>") != std::string::npos);
+  REQUIRE(html.find("<tspan class=\"num\">-0.95</tspan>") != std::string::npos);
+  // Bar lengths: |r| on one scale, so -0.95's bar is longer than 0.9's (widths from the x scale).
+  const std::regex bar(
+      R"re(<rect x="[^"]*" y="[^"]*" width="([^"]*)" height="[^"]*" fill="#0072B2"/>)re");
+  std::vector<double> widths;
+  const std::string bars = between(html, "<g class=\"feature\" data-rank=\"1\"", "</svg>");
+  for (auto it = std::sregex_iterator(bars.begin(), bars.end(), bar); it != std::sregex_iterator();
+       ++it)
+    widths.push_back(std::stod((*it)[1]));
+  REQUIRE(widths.size() == 4);
+  // Reference: |r| in ranking order, 0.95, 0.9, 0.5, 0.3, proportional to the widths (1 decimal).
+  for (std::size_t k = 1; k < 4; ++k)
+    REQUIRE(std::abs(widths[k] / widths[0] - std::abs(s.pearson_r[kept[k]]) / 0.95) < 0.002);
+  // The curve: |r| by rank, marked as magnitudes.
+  REQUIRE(attribute(html, "<g class=\"score-curve\"", "data-column") == "pearson_r");
+  REQUIRE(attribute(html, "<g class=\"score-curve\"", "data-absolute") == "true");
+  std::vector<std::string> points;
+  for (const auto& [rank, value] : curve_points(html)) points.push_back(value);
+  REQUIRE(points == std::vector<std::string>{"0.95", "0.9", "0.5", "0.3", "0.1"});
+  REQUIRE(html.find("|pearson_r| of the feature at each rank") != std::string::npos);
+  // The p-values: Pearson's test, 20 bins of 0.05 (an edge goes up): 1e-4, 1e-3 in the first,
+  // 0.2 in the fifth, 0.4 in the ninth, 0.8 in the seventeenth.
+  const std::string figure = between(html, "<h3 id=\"p-values\">", "</figure>");
+  REQUIRE(figure.find("p-values of the t test of Pearson&#39;s r (two-sided)") !=
+          std::string::npos);
+  REQUIRE(figure.find("p-value (pearson_p)") != std::string::npos);
+  REQUIRE(figure.find("If no feature were related to the target the p-values") !=
+          std::string::npos);
+  std::map<std::string, std::string> bins;
+  const std::regex bin(R"re(<g class="bin" data-from="([^"]*)" [^>]*data-count="(\d+)">)re");
+  for (auto it = std::sregex_iterator(figure.begin(), figure.end(), bin);
+       it != std::sregex_iterator(); ++it)
+    if ((*it)[2] != "0") bins[(*it)[1]] = (*it)[2];
+  REQUIRE(bins ==
+          std::map<std::string, std::string>{{"0", "2"}, {"0.2", "1"}, {"0.4", "1"}, {"0.8", "1"}});
+  // No class wording anywhere in the ranking section's text.
+  const std::string section = visible_text(between(html, "<section id=\"ranking\">", "</section>"));
+  REQUIRE(!section.empty());
+  for (const char* word : {"class", "label", "chi2", "chi-square", "f_q", "ANOVA"}) {
+    INFO(word);
+    REQUIRE(section.find(word) == std::string::npos);
+  }
+  REQUIRE(section.find("|Pearson r| with the target") != std::string::npos);
+  REQUIRE(section.find("negative: the feature falls as progression rises") != std::string::npos);
+  REQUIRE(visible_text(html).find("Leading feature:  f1  (pearson -0.95, q 0.0005)") !=
+          std::string::npos);
+
+  // Ranked by mi against a target: the q-values and p-values are Spearman's.
+  const std::vector<std::size_t> by_mi = pare::rank_order(s, pare::Criterion::kMi);
+  pare::add_ranking(d, t, s, by_mi, by_mi, pare::Criterion::kMi, 1, 0);
+  const std::string mi = pare::report_html(d);
+  REQUIRE(attribute(mi, "<g class=\"feature\" data-rank=\"1\"", "data-value") == "0.8");
+  REQUIRE(attribute(mi, "<g class=\"feature\" data-rank=\"1\"", "data-q") == "0.0015");
+  REQUIRE(attribute(mi, "<g class=\"score-curve\"", "data-absolute").empty());
+  REQUIRE(mi.find("p-value (spearman_p)") != std::string::npos);
+  REQUIRE(mi.find("mutual information with the target (nats)") != std::string::npos);
+  REQUIRE(mi.find("MI has no test of its own: --fdr uses Spearman&#39;s.") != std::string::npos);
+  REQUIRE(visible_text(between(mi, "<section id=\"ranking\">", "</section>")).find("class") ==
+          std::string::npos);
+  // Spearman: rho signed, its own test.
+  const std::vector<std::size_t> by_rho = pare::rank_order(s, pare::Criterion::kSpearman);
+  pare::add_ranking(d, t, s, by_rho, by_rho, pare::Criterion::kSpearman, 0.01, 0);
+  const std::string rho = pare::report_html(d);
+  REQUIRE(attribute(rho, "<g class=\"feature\" data-rank=\"1\"", "data-value") == "-0.9");
+  REQUIRE(attribute(rho, "<g class=\"feature\" data-rank=\"1\"", "data-q") == "0.0015");
+  REQUIRE(attribute(rho, "<g class=\"score-curve\"", "data-fdr-passed") == "2");  // q 0.0015, 0.005
+  REQUIRE(rho.find("A bar&#39;s length is |rho|") != std::string::npos);
+  REQUIRE(rho.find("p-value (spearman_p)") != std::string::npos);
+}
+
+namespace {
+
+struct TargetDot {
+  double cx, cy;
+  std::string target, value, id;
+};
+
+// Every dot of the target scatter plot of rank `rank`.
+std::vector<TargetDot> target_dots(const std::string& html, int rank) {
+  const std::string panel = between(
+      html, "<g class=\"target-scatter\" data-rank=\"" + std::to_string(rank) + "\"", "</svg>");
+  const std::regex dot(
+      R"re(<circle cx="([^"]*)" cy="([^"]*)" r="[^"]*" fill="#0072B2" fill-opacity="0.7" data-target="([^"]*)" data-value="([^"]*)"><title>([^ ]+) )re");
+  std::vector<TargetDot> out;
+  for (auto it = std::sregex_iterator(panel.begin(), panel.end(), dot);
+       it != std::sregex_iterator(); ++it)
+    out.push_back({std::stod((*it)[1]), std::stod((*it)[2]), (*it)[3], (*it)[4], (*it)[5]});
+  return out;
+}
+
+}  // namespace
+
+TEST_CASE("report: a continuous target: top features as scatter plots against it", "[report]") {
+  // 6 samples; the 6th has no target value, the 2nd no value of feature b.
+  pare::FeatureTable t;
+  t.values.resize(6, 2);
+  const float a[] = {1, 2, 3, 4, 5, 6}, b[] = {5, kGap, 3, 2, 1, 0};
+  for (Eigen::Index i = 0; i < 6; ++i) {
+    t.sample_ids.push_back(numbered("s", i + 1));
+    t.values(i, 0) = a[i];
+    t.values(i, 1) = b[i];
+  }
+  t.target = {10, 20, 30, 40, 50, std::numeric_limits<double>::quiet_NaN()};
+  t.feature_names = {"a", "b"};
+  t.label_name = "progression";
+  pare::ReportData d;
+  d.command = "reduce";
+  d.title = "t";
+  // Correlations for the captions, as a ranking would give them.
+  pare::ReportBar bar;
+  bar.name = "a";
+  bar.pearson_r = 1;
+  bar.spearman_rho = 1;
+  d.ranking.bars.push_back(bar);
+  const std::vector<std::int64_t> cols{0, 1};
+  pare::add_top_features(d, t, cols, "values as in reduced.csv (filled)");
+  REQUIRE(d.top_features.target.size() == 6);
+  REQUIRE(std::equal(t.target.begin(), t.target.begin() + 5, d.top_features.target.begin()));
+  REQUIRE(std::isnan(d.top_features.target[5]));
+  const std::string html = pare::report_html(d);
+  REQUIRE(html.find("<g class=\"strip\"") == std::string::npos);
+  REQUIRE(occurrences(html, "<g class=\"target-scatter\"") == 2);
+  REQUIRE(attribute(html, "<g class=\"target-scatter\" data-rank=\"2\"", "data-feature") == "b");
+  REQUIRE(html.find("aria-label=\"Values of a against progression\"") != std::string::npos);
+  // The frame, stated here: the plot spans x 56..290 and y 206 (bottom)..26 (top), each axis the
+  // shown values' range widened by 6% on both sides; coordinates are written with one decimal.
+  const auto px = [](double v, double lo, double hi) {
+    const double pad = (hi - lo) * 0.06;
+    return 56 + (v - (lo - pad)) / (hi - lo + 2 * pad) * (290 - 56);
+  };
+  const auto py = [](double v, double lo, double hi) {
+    const double pad = (hi - lo) * 0.06;
+    return 206 - (v - (lo - pad)) / (hi - lo + 2 * pad) * (206 - 26);
+  };
+  // Feature a: one dot per sample with a target value (s1..s5), target 10..50, values 1..5.
+  const auto dots_a = target_dots(html, 1);
+  REQUIRE(dots_a.size() == 5);
+  for (std::size_t k = 0; k < dots_a.size(); ++k) {
+    INFO(dots_a[k].id);
+    REQUIRE(dots_a[k].id == numbered("s", static_cast<std::int64_t>(k + 1)));
+    REQUIRE(dots_a[k].target == std::to_string(10 * (k + 1)));
+    REQUIRE(dots_a[k].value == std::to_string(k + 1));
+    REQUIRE(std::abs(dots_a[k].cx - px(10.0 * static_cast<double>(k + 1), 10, 50)) <= 0.051);
+    REQUIRE(std::abs(dots_a[k].cy - py(static_cast<double>(k + 1), 1, 5)) <= 0.051);
+  }
+  // Hand-computed: s1 at x = 56 + 2.4 / 44.8 * 234 = 68.54, y = 206 - 0.24 / 4.48 * 180 = 196.36.
+  REQUIRE(html.find("<circle cx=\"68.5\" cy=\"196.4\"") != std::string::npos);
+  // Feature b: s2 has no value (not drawn), values 5, 3, 2, 1 over the shown samples.
+  const auto dots_b = target_dots(html, 2);
+  REQUIRE(dots_b.size() == 4);
+  for (const auto& dot : dots_b) {
+    const std::size_t i = static_cast<std::size_t>(std::stoll(dot.id.substr(1)) - 1);
+    REQUIRE(std::abs(dot.cx - px(t.target[i], 10, 50)) <= 0.051);
+    REQUIRE(std::abs(dot.cy - py(b[i], 1, 5)) <= 0.051);
+  }
+  // The captions: the correlations where the ranking has them; the notes on what is not drawn.
+  REQUIRE(html.find("<figcaption>Spearman rho 1, Pearson r 1</figcaption>") != std::string::npos);
+  REQUIRE(occurrences(html, "<figcaption>Spearman rho") == 1);
+  REQUIRE(
+      html.find(
+          "1 sample without a value of progression is not shown. 1 value missing is not shown.") !=
+      std::string::npos);
+  REQUIRE(html.find("<title>s3 \xC2\xB7 progression 30 \xC2\xB7 3</title>") != std::string::npos);
+  REQUIRE(html.find("Values as in reduced.csv (filled).") != std::string::npos);
+  REQUIRE(
+      visible_text(between(html, "<section id=\"top-features\">", "</section>")).find("class") ==
+      std::string::npos);
+  // Deterministic.
+  REQUIRE(pare::report_html(d) == html);
+
+  // 1,500 samples: one in 3 drawn (500), the same samples in every plot.
+  pare::FeatureTable wide;
+  wide.values.resize(1500, 2);
+  for (Eigen::Index i = 0; i < 1500; ++i) {
+    wide.sample_ids.push_back(numbered("s", i + 1));
+    wide.target.push_back(static_cast<double>(i % 97));
+    wide.values(i, 0) = static_cast<float>(i % 13);
+    wide.values(i, 1) = static_cast<float>(i % 7);
+  }
+  wide.feature_names = {"x", "y"};
+  wide.label_name = "dose";
+  pare::add_top_features(d, wide, cols, "");
+  const std::string thin = pare::report_html(d);
+  const auto first = target_dots(thin, 1), second = target_dots(thin, 2);
+  REQUIRE(first.size() == 500);
+  REQUIRE(second.size() == 500);
+  for (std::size_t k = 0; k < first.size(); ++k) {
+    REQUIRE(first[k].id == numbered("s", static_cast<std::int64_t>(3 * k + 1)));
+    REQUIRE(second[k].id == first[k].id);
+  }
+  REQUIRE(thin.find("One sample in 3 is drawn (500 of 1,500).") != std::string::npos);
+}
+
+TEST_CASE("report: a continuous target: sample plots on a light-to-dark ramp, no classes",
+          "[report]") {
+  pare::ReportData d;
+  d.command = "reduce";
+  d.title = "t";
+  pare::ReportSamples& si = d.sample_info;
+  // add_screen carries the target (one per id) into the samples part.
+  const pare::FeatureTable table = small_table();
+  const pare::SampleScreen screen = pare::screen_samples(table.values, pare::ScreenOptions{});
+  std::vector<double> target(60);
+  for (std::size_t i = 0; i < 60; ++i) target[i] = static_cast<double>(i);
+  pare::add_screen(d, screen, table.sample_ids, {}, "progression", {}, target);
+  REQUIRE(si.target == target);
+  REQUIRE(si.labels.empty());
+  // A hand-made case: 5 samples, target 1, 5, 3, (none), 2.
+  si = {};
+  si.ids = {"s1", "s2", "s3", "s4", "s5"};
+  si.target = {1, 5, 3, std::numeric_limits<double>::quiet_NaN(), 2};
+  si.label_name = "progression";
+  d.components = {};
+  d.components.source = "kept";
+  d.components.ratio = {0.5, 0.3};
+  d.components.cumulative = {0.5, 0.8};
+  d.components.scores = {{1, 2, 3, 4, 5}, {2, 1, 0, -1, 3}};
+  const std::string html = pare::report_html(d);
+  // Each dot's colour: linear in the value over [1, 5] on the ramp's 7 stops (ColorBrewer Blues
+  // 3-9, recalled): 1 -> the first stop, 5 -> the last, 3 -> the middle (4th) stop, 2 -> halfway
+  // between the 2nd and 3rd (#9ECAE1, #6BAED6: (158+107)/2 = 132.5 -> 133 = 0x85, (202+174)/2 =
+  // 188 = 0xBC, (225+214)/2 = 219.5 -> 220 = 0xDC, rounded half away from zero), no value grey.
+  const std::map<std::string, std::string> expected{{"s1", "#C6DBEF"},
+                                                    {"s2", "#08306B"},
+                                                    {"s3", "#4292C6"},
+                                                    {"s4", "#d4d4d4"},
+                                                    {"s5", "#85BCDC"}};
+  const std::string svg = between(html, "aria-label=\"Samples on PC1 and PC2\"", "</svg>");
+  const std::regex dot(
+      R"re(fill="(#[0-9A-Fa-f]{6})" fill-opacity="0.8" stroke="#8c8c8c" stroke-width="0.5"><title>([^ ]+) · progression ([^<]*)</title>)re");
+  std::map<std::string, std::string> fills, shown;
+  for (auto it = std::sregex_iterator(svg.begin(), svg.end(), dot); it != std::sregex_iterator();
+       ++it) {
+    fills[(*it)[2]] = (*it)[1];
+    shown[(*it)[2]] = (*it)[3];
+  }
+  REQUIRE(fills == expected);
+  REQUIRE(shown == std::map<std::string, std::string>{
+                       {"s1", "1"}, {"s2", "5"}, {"s3", "3"}, {"s4", "no value"}, {"s5", "2"}});
+  // The legend: the ramp's ends with their values, and the samples without a value.
+  REQUIRE(html.find("<strong>progression:</strong> low (1) <svg width=\"70\"") !=
+          std::string::npos);
+  REQUIRE(html.find("</svg> high (5)</li>") != std::string::npos);
+  REQUIRE(attribute(html, "<li class=\"ramp\"", "data-lo") == "1");
+  REQUIRE(attribute(html, "<li class=\"ramp\"", "data-hi") == "5");
+  REQUIRE(html.find("no value (1)</li>") != std::string::npos);
+  REQUIRE(html.find("coloured by progression (light: low, dark: high)") != std::string::npos);
+  REQUIRE(html.find("5 samples with progression from 1 to 5 (1 without a value)") !=
+          std::string::npos);
+  const std::string samples = visible_text(between(html, "<section id=\"samples\">", "</section>"));
+  REQUIRE(samples.find("class") == std::string::npos);
+  // Target-chosen features on their own components: the caution speaks of the target.
+  d.chosen_with_labels = true;
+  d.ranking.continuous = true;
+  d.components.of_kept = true;
+  const std::string cautioned = pare::report_html(d);
+  REQUIRE(
+      cautioned.find(
+          "<p class=\"caution\">These features were selected using the target (progression), so "
+          "the samples are expected to line up by it") != std::string::npos);
+  REQUIRE(cautioned.find("the classes are expected") == std::string::npos);
 }

@@ -355,7 +355,7 @@ TEST_CASE("trust: mistakes a new user makes get a message, not a meaningless res
   }
   const Run m = run({"rank", dir.write("measured.csv", measured), "--label", "proline", "--out", dir.file("m")});
   INFO(m.err);
-  REQUIRE(m.err.find("distinct numbers among 178 samples: pare scores classes") != std::string::npos);
+  REQUIRE(m.err.find("distinct numbers among 178 samples: as labels they are that many classes") != std::string::npos);
   // scan --log2 on negative values: the same error as the other commands.
   std::string negative = "id,a,b\ns1,1,-2\ns2,2,3\ns3,3,4\n";
   const Run neg = run({"scan", dir.write("neg.csv", negative), "--log2", "--out", dir.file("n")});

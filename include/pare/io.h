@@ -21,6 +21,7 @@ struct ReadOptions {
   std::vector<std::string> na_tokens = default_na_tokens();
   bool allow_inf = false;                            ///< accept inf/-inf as values
   std::string label_column;                          ///< column (or row, rows=features) of labels
+  bool label_is_target = false;                      ///< label_column holds a continuous target (messages say `target`)
   bool info_optional = false;                        ///< feature_info / sample_info names the file
                                                      ///< lacks are ignored (apply: the plan's columns)
   bool label_optional = false;                       ///< a label_column the file lacks means no labels

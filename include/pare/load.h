@@ -21,6 +21,9 @@ struct DataRequest {
   std::string samples;               ///< a sample list (read_sample_list), or empty
   std::int64_t min_class_size = 0;   ///< supervised: leave out the samples of smaller classes
   bool supervised = false;           ///< leave out unlabelled samples, check the labels
+  /// The label column (or the sheet's column) is a continuous target: its values must be numbers;
+  /// they move to FeatureTable::target (samples without one are left out when supervised).
+  bool target = false;
   std::string mark_by;               ///< a sheet or sample-info column to mark samples by, or empty
   bool hash = true;                  ///< compute the SHA-256 of every input (while reading)
 };
@@ -38,8 +41,9 @@ struct LoadedData {
 
 /// Reads `request.path` (and the sheet first: its mistakes show before a long read), attaches the
 /// labels, keeps the listed samples and, when supervised, leaves out those without a label or of
-/// classes under min_class_size. Throws Error(kInput) when a supervised run is left without a
-/// labelled sample.
+/// classes under min_class_size (with `target`: those without a target value). Throws
+/// Error(kInput) when a supervised run is left without a labelled sample, and with `target` on a
+/// value that is not a finite number, or a target with fewer than 3 samples or one value.
 LoadedData load_data(const DataRequest& request);
 
 /// Throws Error(kInput), naming the file the labels came from, when `table` has labels of fewer

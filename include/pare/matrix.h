@@ -81,7 +81,11 @@ struct FeatureTable {
   std::vector<std::string> feature_names;  ///< one per column of `values`
   std::vector<std::string> sample_ids;     ///< one per row of `values`
   std::vector<std::string> labels;         ///< one per sample ("" = no label), or empty when unlabelled
-  std::string label_name;                  ///< the label column's name, or empty
+  /// A continuous target, one value per sample (load_data with DataRequest::target moves the label
+  /// column here, leaving `labels` empty), or empty. Finite in a supervised run; NaN marks a
+  /// sample without a value elsewhere (a projection coloured by the target).
+  std::vector<double> target;
+  std::string label_name;                  ///< the label (or target) column's name, or empty
   std::string id_name;                     ///< the header of the id column, or empty
   std::string source;                      ///< the path it was read from
   std::string labels_source;               ///< the sample sheet the labels came from (empty: `source`)
@@ -102,6 +106,7 @@ struct FeatureTable {
   std::int64_t n_samples() const { return values.rows(); }
   std::int64_t n_features() const { return values.cols(); }
   bool has_labels() const { return !labels.empty(); }
+  bool has_target() const { return !target.empty(); }
 };
 
 /// Class labels encoded as integers 0..k-1, classes sorted by name so the order never depends on

@@ -36,7 +36,9 @@ struct PipelineOptions {
 /// The samples of the input as the run received them, before the screen dropped any.
 struct RunSamples {
   std::vector<std::string> ids, labels;
-  std::string label_name;
+  std::vector<double> target;                   ///< a continuous target, one per id (labels then empty)
+  std::string label_name;                       ///< of the labels or the target
+
   std::vector<std::string> info_names;          ///< --sample-info columns
   std::vector<std::vector<std::string>> info;
   std::vector<char> dropped;                    ///< per input sample: dropped as an outlier (or empty)

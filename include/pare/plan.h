@@ -25,6 +25,7 @@ struct RunRecord {
   std::string sheet_sha256;
   std::string sheet_column;
   std::string label;                      ///< --label, or empty
+  bool target = false;                   ///< `label` is a continuous target's column
   std::vector<std::string> na_tokens;
   bool allow_inf = false;
   std::uint64_t seed = 1;
@@ -51,6 +52,7 @@ struct Plan {
   std::string layout;
   char delimiter = ',';
   std::string label;
+  bool target = false;                   ///< `label` names a continuous target
   std::vector<std::string> na_tokens;
   bool allow_inf = false;
   std::vector<std::string> feature_info, sample_info;  ///< annotation columns of the input

@@ -1,4 +1,5 @@
-// Scoring every feature against a class label, multiple-testing control and ranking.
+// Scoring every feature against a class label or a continuous target, multiple-testing control and
+// ranking.
 #pragma once
 
 #include <cstdint>  // std::int64_t, std::uint8_t
@@ -11,10 +12,11 @@
 
 namespace pare {
 
-/// What to rank features by.
-enum class Criterion { kMi, kChi2, kChi2Counts, kF, kVariance };
+/// What to rank features by. mi and variance serve both kinds of target; chi2, chi2-counts and f
+/// need classes, pearson and spearman a continuous target.
+enum class Criterion { kMi, kChi2, kChi2Counts, kF, kVariance, kPearson, kSpearman };
 
-/// Parses mi|chi2|chi2-counts|f|variance; throws Error(kUsage) otherwise.
+/// Parses mi|chi2|chi2-counts|f|variance|pearson|spearman; throws Error(kUsage) otherwise.
 Criterion parse_criterion(const std::string& name);
 const char* criterion_name(Criterion c);
 
@@ -42,10 +44,15 @@ enum ScoreFlag : std::uint8_t {
   kScoreSeparates = 4,  ///< zero variance inside every class but not overall: F is infinite
 };
 
-/// Scores of the scored features (parallel arrays, one entry per scored feature).
+/// Scores of the scored features (parallel arrays, one entry per scored feature). Against classes
+/// the chi2*, f* (and chi2_counts*) arrays are filled; against a continuous target the pearson*
+/// and spearman* arrays are; mi, variance, missing_rate, flags and defined always are.
 struct FeatureScores {
+  bool continuous = false;              ///< scored against a continuous target, not classes
   std::vector<std::int64_t> feature;    ///< column index in the matrix
   std::vector<double> mi;               ///< nats
+  std::vector<double> pearson_r, pearson_p, pearson_q;       ///< continuous target: r, two-sided p, BH q
+  std::vector<double> spearman_rho, spearman_p, spearman_q;  ///< continuous target: rho, p, q
   std::vector<double> chi2, chi2_p, chi2_q, chi2_bonferroni;
   std::vector<int> chi2_df;
   std::vector<double> f, f_p, f_q, f_bonferroni;
@@ -80,6 +87,26 @@ double f_upper_tail(double statistic, double df1, double df2);
 /// (notebooks-free-docs/numerics.md). Points alone in their class are left out.
 double knn_mutual_information(std::span<const double> x, std::span<const int> y, int classes, int k);
 
+/// Average ranks (1-based; tied values share the mean of their positions) of `x`, which must hold
+/// no NaN: the ranks Spearman's rho correlates.
+std::vector<double> average_ranks(std::span<const double> x);
+
+/// Two-sided p-value of a correlation coefficient `r` over `n` pairs: t = r·sqrt((n−2)/(1−r²)) on
+/// Student's t with n − 2 degrees of freedom (Boost.Math); 0 for |r| = 1, 1 for n < 3 or NaN r.
+double correlation_p(double r, std::int64_t n);
+
+/// The nearest-neighbour MI estimate (nats) of two continuous variables (Kraskov, Stögbauer &
+/// Grassberger 2004, estimator 1; SPEC §9, CHECKS §11), k >= 1, x and y of equal length without
+/// NaN or infinity: distances |Δx|/sd_x and |Δy|/sd_y (sd with n denominator), max-norm, ε_i the
+/// distance to the k-th nearest other point, no added noise, clipped at 0. All counts are taken in
+/// one neighbourhood, point i included: for ε_i > 0 k_i, n_x + 1 and n_y + 1 are the points strictly
+/// closer than ε_i in both variables, in x and in y; for ε_i = 0 (k or more others equal to it)
+/// those equal to it in both, in x and in y (Gao et al. 2017); I = ψ(N) + ⟨ψ(k_i)⟩ − ⟨ψ(n_x+1)⟩ −
+/// ⟨ψ(n_y+1)⟩. Without ties k_i = k and this is estimator 1 exactly; with values on a grid it keeps
+/// unrelated variables near 0 (notebooks-free-docs/numerics.md). 0 when either variable is
+/// constant or there are not more than k points.
+double knn_mutual_information_continuous(std::span<const double> x, std::span<const double> y, int k);
+
 /// Benjamini–Hochberg step-up adjusted p-values (q-values), in the order of `p`.
 std::vector<double> bh_adjust(std::span<const double> p);
 /// Bonferroni-adjusted p-values: min(1, m p).
@@ -93,14 +120,33 @@ FeatureScores score_features(const ConstMatrixRef& m, std::span<const std::int64
                              const ClassCodes& classes, const ScoreOptions& options,
                              std::span<const ColumnStats> stats = {});
 
+/// Scores the columns `features` of `m` against a continuous `target` (one finite value per row of
+/// `m`), in parallel over features, each on the rows where it is observed: Pearson r, Spearman rho
+/// (Pearson on average ranks), both with two-sided p (correlation_p) and BH q over the scored
+/// features, the kNN MI (knn_mutual_information_continuous with options.neighbors), variance and
+/// missing rate. Results do not depend on the thread count. pearson and spearman are defined with
+/// 3 or more observed pairs and neither the feature nor the target constant on them (pearson also
+/// needs finite values); mi with more than options.neighbors pairs, finite, neither constant.
+/// Undefined scores are 0 with p = 1. `stats` as for score_features.
+FeatureScores score_against_target(const ConstMatrixRef& m, std::span<const std::int64_t> features,
+                                   std::span<const double> target, const ScoreOptions& options,
+                                   std::span<const ColumnStats> stats = {});
+
 /// The positions 0..size-1 of `scores` in ranking order for `criterion`: score descending, ties in
 /// input order.
 std::vector<std::size_t> rank_order(const FeatureScores& scores, Criterion criterion);
 
 /// The score and q-value a criterion ranks by and filters on (--fdr): mi uses the chi-square test
-/// on the same bins.
+/// on the same bins against classes, Spearman's test against a continuous target; pearson and
+/// spearman rank by |r| and |rho|.
 double criterion_score(const FeatureScores& s, Criterion c, std::size_t i);
 double criterion_q(const FeatureScores& s, Criterion c, std::size_t i);
+
+/// Whether `c` can rank against classes (`continuous` false) or a continuous target (true).
+bool criterion_fits(Criterion c, bool continuous);
+
+/// Throws Error(kUsage) when `c` cannot rank against that kind of target, naming the criteria that can.
+void require_criterion_fits(Criterion c, bool continuous);
 
 /// Whether feature i (a position in `s`) could be scored for `c`: false for a constant feature
 /// (every criterion but variance), for f when F is undefined (kScoreFewValues) or the feature holds

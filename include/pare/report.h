@@ -66,6 +66,12 @@ struct ReportBar {
   std::string raw_value;  ///< value as the output file writes it (data attribute, for checks)
   std::string raw_q;
   std::string hover;  ///< extra text for the bar's tooltip
+  /// The value printed at the bar's end and in its tooltip when not NaN: the signed r or rho of
+  /// pearson and spearman, whose bar is |r| (`value`).
+  double shown = std::numeric_limits<double>::quiet_NaN();
+  /// Against a continuous target: the feature's Pearson r and Spearman rho (NaN: none).
+  double pearson_r = std::numeric_limits<double>::quiet_NaN();
+  double spearman_rho = std::numeric_limits<double>::quiet_NaN();
 };
 
 /// The leading features by the ranking criterion.
@@ -74,6 +80,8 @@ struct ReportRanking {
   std::string column;      ///< its ranking.tsv column
   std::string q_column;    ///< the q-value column shown, or empty
   std::string axis;        ///< e.g. "mutual information with the class (nats)"
+  bool continuous =
+      false;  ///< scored against a continuous target (named by label_name), not classes
   std::int64_t total = 0;  ///< features kept (the bars are the first of them)
   std::vector<ReportBar> bars;
   std::string caption;
@@ -85,6 +93,7 @@ struct ReportScoreCurve {
   std::string column;                    ///< the score's ranking.tsv / selection-log.tsv column
   std::string q_column;                  ///< the q-value column --fdr filters on, or empty
   std::string axis;                      ///< y axis label, e.g. "mutual information ... (nats)"
+  bool absolute = false;                 ///< the values are |column| (pearson_r, spearman_rho)
   std::vector<double> values;            ///< score of every ranked feature, in ranking order
   std::vector<std::int64_t> kept_ranks;  ///< ranks (1-based positions in `values`) of the kept
   double fdr = 1;                        ///< --fdr Q (1: no cut)
@@ -101,11 +110,13 @@ struct ReportStrip {
   std::vector<float> values;  ///< one per sample of ReportTopFeatures::ids (NaN: not shown)
 };
 
-/// Strip plots of the leading kept features, by class.
+/// Strip plots of the leading kept features, by class; against a continuous target, one scatter
+/// plot each of the feature's values (up) against the target (across).
 struct ReportTopFeatures {
   std::vector<std::string> ids;
   std::vector<std::string> labels;  ///< one per id ("" = no label: not shown), or empty
-  std::string label_name;
+  std::vector<double> target;       ///< a continuous target, one per id (NaN: not shown), or empty
+  std::string label_name;           ///< of the labels or the target
   std::string values_note;  ///< what the values are, a phrase shown as a sentence, e.g.
                             ///< "values as in reduced.csv (filled, log2(x + 1))"
   std::vector<ReportStrip> strips;
@@ -134,7 +145,10 @@ struct ReportComponents {
 struct ReportSamples {
   std::vector<std::string> ids;
   std::vector<std::string> labels;  ///< empty: unlabelled; "" = this sample has no label
-  std::string label_name;
+  /// A continuous target, one per id (NaN: no value), or empty; labels are then empty and the
+  /// sample plots are coloured on a light-to-dark ramp of the target.
+  std::vector<double> target;
+  std::string label_name;          ///< of the labels or the target
   std::string mark_name;           ///< --mark-by COLUMN: the sheet column the plots are also
   std::vector<std::string> marks;  ///< coloured by, one value per id ("" = missing); empty: none
   std::vector<double> missing_rate;
@@ -201,15 +215,17 @@ void add_reduction(ReportData& data, const FeatureTable& table, const Reduction&
 /// Fills the top 30 bars, the score curve and the p-value histogram of a ranking: `order_all` is
 /// every position of `scores` in ranking order (rank_order), `kept` the positions kept, in
 /// ranking.tsv order; `fdr` (1: none) and `keep` (0: none) the cuts asked for. add_reduction calls
-/// it for a supervised reduction.
+/// it for a supervised reduction. With scores.continuous (a target), the words, the test and the
+/// p-values are those of the target (pearson, spearman; Spearman's test for mi).
 void add_ranking(ReportData& data, const FeatureTable& table, const FeatureScores& scores,
                  std::span<const std::size_t> order_all, std::span<const std::size_t> kept,
                  Criterion criterion, double fdr, std::int64_t keep);
 
 /// Strip plots of the features `columns` (indices into table.values; the first 6 are used), one
 /// dot per sample, grouped by table.labels (samples with label "" left out and counted; one strip
-/// each without labels). The values are copied as they are now, so call it while table.values
-/// holds what reduced.csv holds; `values_note` says what that is.
+/// each without labels); with table.target, one scatter plot each against the target instead.
+/// The values are copied as they are now, so call it while table.values holds what reduced.csv
+/// holds; `values_note` says what that is.
 void add_top_features(ReportData& data, const FeatureTable& table,
                       std::span<const std::int64_t> columns, const std::string& values_note);
 
@@ -221,11 +237,12 @@ inline constexpr std::size_t kReportMaxStripPoints = 600;
 /// Fills the components part from a projection.
 void add_components(ReportData& data, const Projection& projection, const std::string& source);
 
-/// Fills the samples part from the screen of the input (ids and labels of every input sample).
-/// Without components it also draws the screen's own PCA.
+/// Fills the samples part from the screen of the input (ids and labels, or the continuous
+/// `target`, of every input sample; label_name names either). Without components it also draws
+/// the screen's own PCA.
 void add_screen(ReportData& data, const SampleScreen& screen, const std::vector<std::string>& ids,
                 const std::vector<std::string>& labels, const std::string& label_name,
-                const std::vector<char>& dropped);
+                const std::vector<char>& dropped, const std::vector<double>& target = {});
 
 /// Fills the histograms of a scan from its profile.
 void add_profile(ReportData& data, const FeatureTable& table, const Profile& profile);

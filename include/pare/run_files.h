@@ -119,6 +119,12 @@ std::string screen_summary(const SampleScreen& screen, const std::vector<std::st
 /// The classes of `table` and their sample counts, e.g. "condition - sensitive 180, tolerant 60".
 std::string class_counts_text(const FeatureTable& table);
 
+/// The target of `table` in a few numbers, e.g. "age - 442 values from 19 to 79, median 50".
+std::string target_text(const FeatureTable& table);
+
+/// "  classes: ...\n" or "  target: ...\n" for the summaries ("" without either).
+std::string response_line(const FeatureTable& table);
+
 /// `dir`/`name`, or just `name` when dir is ".".
 std::string join_path(const std::string& dir, const std::string& name);
 

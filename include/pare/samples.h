@@ -39,6 +39,7 @@ struct SamplesLeftOut {
   std::vector<std::string> small_class;  ///< in a class with fewer than min_class_size samples
   std::vector<std::string> small_classes;  ///< the classes left out, sorted
   std::int64_t min_class_size = 0;
+  bool target = false;  ///< the response is a continuous target: `unlabelled` are the samples without a value
   bool empty() const { return unlabelled.empty() && small_class.empty(); }
 };
 

@@ -25,6 +25,10 @@ double seconds_since(std::chrono::steady_clock::time_point start);
 /// the first `left` columns are left-aligned, the rest right-aligned.
 std::string table_text(const std::vector<std::vector<std::string>>& rows, std::size_t left);
 
+/// The per-sample response as text: the labels, or a continuous target's values written as the
+/// outputs write numbers (shortest round trip); empty when the table has neither.
+std::vector<std::string> response_values(const std::vector<std::string>& labels, const std::vector<double>& target);
+
 /// The library's messages name an option by its field name in backquotes (`max_corr`); a front
 /// end shows them in its own spelling: spell_options(text, "--", '-') gives --max-corr, as the
 /// command line spells it. Text outside backquotes is copied as it is.

@@ -96,17 +96,20 @@ int command_rank(const std::vector<std::string>& args, std::ostream& out) {
   CommonOptions common;
   InputOptions input;
   RankOptions options;
-  std::string rank_by = "mi", estimator = "binned";
+  std::string rank_by, estimator = "binned";
   po::options_description desc(
-      "pare rank DATA (--label COLUMN | --labels SHEET[:COLUMN]) [options]\n\n"
+      "pare rank DATA (--label COLUMN | --labels SHEET[:COLUMN] | --target COLUMN | --targets SHEET[:COLUMN])\n"
+      "          [options]\n\n"
       "Scores every feature against the class label (binned mutual information, chi-square test,\n"
-      "one-way ANOVA F, Benjamini-Hochberg q-values) and writes ranking.tsv, best first, and\n"
+      "one-way ANOVA F) or a continuous target (Pearson r, Spearman rho, nearest-neighbour mutual\n"
+      "information), with Benjamini-Hochberg q-values, and writes ranking.tsv, best first, and\n"
       "report.html (plots; open it in a browser).\n\nscoring and ranking",
       100, 50);
   desc.add_options()
       ("log2", po::bool_switch(&options.log2), "score log2(x + 1) of the values, as reduce --log2 does")
-      ("rank-by", po::value(&rank_by)->default_value("mi")->value_name("CRITERION"),
-       "mi, chi2, chi2-counts, f or variance")
+      ("rank-by", po::value(&rank_by)->value_name("CRITERION"),
+       "classes: mi (the default), chi2, chi2-counts, f or variance; a target: spearman (the default), "
+       "pearson, mi or variance")
       ("fdr", po::value(&options.fdr)->value_name("Q"), "keep features whose q-value for the ranking test is at most Q")
       ("keep", po::value(&options.keep)->default_value(0)->value_name("K"), "keep the first K features (0 = all)")
       ("bins", po::value(&options.score.bins)->default_value(10)->value_name("B"), "equal-frequency bins for mi and chi2")
@@ -117,12 +120,14 @@ int command_rank(const std::vector<std::string>& args, std::ostream& out) {
   add_common_options(desc, common, ".");
   if (!parse_command_line(args, desc, {{"data", &input.data}}, out)) return 0;
   // Every option is checked before the data is read (a large file takes minutes).
-  options.criterion = parse_criterion(rank_by);
+  options.criterion = parse_criterion(rank_by.empty() ? (input.has_target() ? "spearman" : "mi") : rank_by);
+  if (input.has_response()) require_criterion_fits(options.criterion, input.has_target());
   if (estimator == "knn") options.score.mi = MiEstimator::kKnn;
   else if (estimator != "binned") throw_usage_error("--mi-estimator " + estimator + " is not binned or knn");
   check_rank_options(options);
-  if (input.label.empty() && input.labels.empty())
-    throw_usage_error("rank needs class labels", "give --label COLUMN or --labels SHEET.csv[:COLUMN]");
+  if (!input.has_response())
+    throw_usage_error("rank needs class labels or a target",
+                      "give --label COLUMN, --labels SHEET.csv[:COLUMN], --target COLUMN or --targets SHEET.csv[:COLUMN]");
   check_input_options(input, common);
   std::vector<std::string> command_line{"pare", "rank"};
   command_line.insert(command_line.end(), args.begin(), args.end());

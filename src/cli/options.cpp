@@ -45,6 +45,12 @@ void add_input_options(po::options_description& desc, InputOptions& input) {
       ("labels", po::value(&input.labels)->value_name("SHEET[:COLUMN]"),
        "sample sheet: sample ids, then labels in COLUMN (default: its second column); samples "
        "whose label is empty or NA are left out of supervised steps")
+      ("target", po::value(&input.target)->value_name("COLUMN"),
+       "column (rows=samples) or line (rows=features) holding a continuous target (age, dose, a "
+       "response): numbers, scored by correlation and mutual information instead of classes")
+      ("targets", po::value(&input.targets)->value_name("SHEET[:COLUMN]"),
+       "sample sheet with a continuous target in COLUMN (default: its second column); samples "
+       "whose value is empty or NA are left out")
       ("na",
        po::value(&input.na)->value_name("TOKENS")->notifier([&input](const std::string&) { input.na_given = true; }),
        "comma-separated missing-value tokens (default: empty,NA,NaN,nan,null,?)")
@@ -206,9 +212,10 @@ ReadOptions read_options_from(const InputOptions& input, const CommonOptions& co
   r.delimiter = parse_delimiter(input.delimiter);
   if (!input.na.empty() || input.na_given) r.na_tokens = parse_na(input.na);
   r.allow_inf = input.allow_inf;
-  if (!input.label.empty() && !input.labels.empty())
-    throw_usage_error("give --label or --labels, not both");
-  r.label_column = input.label;
+  const int responses = !input.label.empty() + !input.labels.empty() + !input.target.empty() + !input.targets.empty();
+  if (responses > 1) throw_usage_error("give one of --label, --labels, --target and --targets");
+  r.label_column = input.label.empty() ? input.target : input.label;
+  r.label_is_target = input.label.empty() && !input.target.empty();
   r.label_optional = input.label_optional;
   r.info_optional = input.info_optional;
   r.feature_info = split_names(input.feature_info);
@@ -235,7 +242,9 @@ ReadOptions read_options_from(const InputOptions& input, const CommonOptions& co
 void check_input_options(const InputOptions& input, const CommonOptions& common) {
   const ReadOptions read = read_options_from(input, common);
   if (input.min_class_size < 0) throw_usage_error("--min-class-size must be 0 (keep every class) or more");
-  if (!input.mark_by.empty() && input.labels.empty() &&
+  if (input.min_class_size > 0 && input.has_target())
+    throw_usage_error("--min-class-size is for class labels; a continuous target has no classes");
+  if (!input.mark_by.empty() && input.sheet().empty() &&
       std::find(read.sample_info.begin(), read.sample_info.end(), input.mark_by) == read.sample_info.end())
     throw_usage_error("--mark-by " + input.mark_by + " needs a sample sheet with that column (--labels SHEET) or, "
                       "with rows=samples, --sample-info " + input.mark_by);
@@ -257,7 +266,8 @@ DataRequest data_request(const InputOptions& input, const CommonOptions& common,
   DataRequest request;
   request.path = input.data;
   request.read = read_options_from(input, common);
-  request.labels = input.labels;
+  request.labels = input.sheet();
+  request.target = input.has_target();
   request.samples = input.samples;
   request.min_class_size = input.min_class_size;
   request.supervised = supervised;

@@ -32,6 +32,8 @@ struct InputOptions {
   std::string delimiter;
   std::string label;
   std::string labels;
+  std::string target;   ///< --target COLUMN: a continuous target in the data file
+  std::string targets;  ///< --targets SHEET[:COLUMN]: a continuous target in a sample sheet
   std::string na;
   bool na_given = false;
   bool allow_inf = false;
@@ -44,6 +46,12 @@ struct InputOptions {
   std::int64_t min_class_size = 0;  ///< --min-class-size N (supervised commands)
   bool label_optional = false;      ///< a --label the file lacks means no labels (apply)
   bool info_optional = false;       ///< --feature-info/--sample-info names the file lacks are ignored
+
+  bool has_target() const { return !target.empty() || !targets.empty(); }
+  /// Classes or a target to score against were given.
+  bool has_response() const { return !label.empty() || !labels.empty() || has_target(); }
+  /// The sample sheet given with --labels or --targets, or empty.
+  const std::string& sheet() const { return labels.empty() ? targets : labels; }
 };
 
 /// Parses a size such as 500M, 2G, 1.5GiB or 800000000 (bytes; K, M, G, T are powers of 1024).

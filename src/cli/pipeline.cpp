@@ -2,6 +2,7 @@
 
 #include <algorithm>  // std::find
 #include <cstdio>     // std::snprintf
+#include <utility>    // std::exchange
 
 #include "pare/demo.h"
 #include "pare/error.h"
@@ -39,11 +40,11 @@ void add_projection_options(po::options_description& desc, ProjectionOptions& o,
 PipelineResult reduce_and_write(const InputOptions& input, const CommonOptions& common, PipelineOptions options,
                                 const std::vector<std::string>& command_line, std::ostream& out,
                                 LoadedData* kept = nullptr) {
-  const bool supervised = options.select && options.reduce.relevance && (!input.label.empty() || !input.labels.empty());
+  const bool supervised = options.select && options.reduce.relevance && input.has_response();
   const DataRequest request = data_request(input, common, supervised);
   LoadedData loaded = load_data(request, common);
   // (`project` selects nothing, so the note is only for `reduce`)
-  if (!common.quiet && !loaded.table.has_labels() && options.select)
+  if (!common.quiet && !loaded.table.has_labels() && !loaded.table.has_target() && options.select)
     out << "pare reduce: no labels given, so features are ranked by variance and the supervised steps "
            "(relevance, --fdr) are skipped\n";
   const RunRecord record = run_record(request, loaded, command_line, common.seed);
@@ -71,13 +72,15 @@ void add_reduce_options(po::options_description& desc, ReduceOptions& o, std::st
       ("drop-low-variance", po::value(&o.drop_low_variance)->default_value(0.0, "0")->value_name("FRACTION"),
        "4. also drop this lowest fraction by variance")
       ("no-variance-filter", po::bool_switch(&no_variance), "4. skip step 4")
-      ("rank-by", po::value(&rank_by)->default_value("mi")->value_name("CRITERION"),
-       "5. mi, chi2, chi2-counts, f or variance")
+      ("rank-by", po::value(&rank_by)->value_name("CRITERION"),
+       "5. classes: mi (the default), chi2, chi2-counts, f or variance; a target: spearman (the "
+       "default), pearson, mi or variance")
       ("fdr", po::value(&o.fdr)->default_value(1.0, "1")->value_name("Q"),
        "5. keep features with q <= Q for the ranking test")
       ("bins", po::value(&o.score.bins)->default_value(10)->value_name("B"), "5. equal-frequency bins for mi and chi2")
       ("mi-estimator", po::value(&estimator)->default_value("binned")->value_name("E"), "5. binned or knn")
-      ("neighbors", po::value(&o.score.neighbors)->default_value(3)->value_name("k"), "5. k of the knn estimator")
+      ("neighbors", po::value(&o.score.neighbors)->default_value(3)->value_name("k"),
+       "5. k of the knn estimator (for a target, mi is always the knn estimate)")
       ("max-corr", po::value(&o.max_corr)->default_value(0.9, "0.9")->value_name("R"),
        "6. drop a feature whose |r| with a kept one is above R")
       ("no-prune", po::bool_switch(&no_prune), "6. skip step 6")
@@ -86,9 +89,10 @@ void add_reduce_options(po::options_description& desc, ReduceOptions& o, std::st
 
 void finish_reduce_options(ReduceOptions& o, const std::string& impute, const std::string& rank_by,
                            const std::string& estimator, bool no_missing, bool no_variance, bool no_prune,
-                           const CommonOptions& common) {
+                           const CommonOptions& common, const InputOptions& input) {
   o.impute = parse_impute(impute);
-  o.rank_by = parse_criterion(rank_by);
+  o.rank_by = parse_criterion(rank_by.empty() ? (input.has_target() ? "spearman" : "mi") : rank_by);
+  if (input.has_response()) require_criterion_fits(o.rank_by, input.has_target());
   if (estimator == "knn") o.score.mi = MiEstimator::kKnn;
   else if (estimator != "binned") throw_usage_error("--mi-estimator " + estimator + " is not binned or knn");
   o.missing_filter = !no_missing;
@@ -115,7 +119,8 @@ int command_reduce(const std::vector<std::string>& args, std::ostream& out) {
   std::string impute, rank_by, estimator;
   bool no_missing = false, no_variance = false, no_prune = false;
   po::options_description desc(
-      "pare reduce DATA [--label COLUMN | --labels SHEET[:COLUMN]] --out DIR [options]\n\n"
+      "pare reduce DATA [--label COLUMN | --labels SHEET[:COLUMN] | --target COLUMN | --targets SHEET[:COLUMN]]\n"
+      "            --out DIR [options]\n\n"
       "Runs the reduction pipeline (steps 1-8 below, in order) and writes ranking.tsv,\n"
       "selection-log.tsv (one line per input feature: kept or dropped, by which step, why), the\n"
       "reduced matrix (reduced.csv, or reduced.tsv for tab-separated input), plan.json (replayable\n"
@@ -132,10 +137,10 @@ int command_reduce(const std::vector<std::string>& args, std::ostream& out) {
   add_common_options(desc, common, "pare-reduce");
   if (!parse_command_line(args, desc, {{"data", &input.data}}, out)) return 0;
   // Every option is checked before the data is read (a large file takes minutes).
-  finish_reduce_options(options, impute, rank_by, estimator, no_missing, no_variance, no_prune, common);
-  if (options.fdr < 1 && input.label.empty() && input.labels.empty())
+  finish_reduce_options(options, impute, rank_by, estimator, no_missing, no_variance, no_prune, common, input);
+  if (options.fdr < 1 && !input.has_response())
     throw_usage_error("--fdr filters on a test against the labels, and no labels were given",
-                      "give --label COLUMN or --labels SHEET, or leave out --fdr");
+                      "give --label COLUMN, --labels SHEET, --target COLUMN or --targets SHEET, or leave out --fdr");
   pipeline.projection.center = !no_center;
   pipeline.projection.scale = options.scale;
   check_projection_options(pipeline.projection, false);
@@ -216,8 +221,12 @@ int command_apply(const std::vector<std::string>& args, std::ostream& out) {
   if (!given("layout")) input.layout = plan.layout;
   // (the delimiter is detected from the new file's header: held-out samples often come as CSV
   // when the training export was TSV)
-  // The plan's label column is read when the new data has it; new samples often have none.
-  if (!given("label") && !given("labels")) {
+  // The plan's label column is read when the new data has it; new samples often have none. apply
+  // scores nothing: a target is carried to samples.tsv as written, and no sample is left out.
+  if (input.has_target()) {
+    input.label = std::exchange(input.target, {});
+    input.labels = std::exchange(input.targets, {});
+  } else if (!given("label") && !given("labels")) {
     input.label = plan.label;
     input.label_optional = true;
   }

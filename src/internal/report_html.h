@@ -1,8 +1,8 @@
 // The drawing helpers of report.html shared by its sources: src/report_text.cpp (formatting),
 // src/report_charts.cpp (the funnel, the filter histograms, the bars, the components and samples),
 // src/report_page.cpp (the page), src/report_data.cpp (the builders) and src/report_plots.cpp (the
-// score curve, the p-value histogram, the strip plots of the top features, the samples coloured by
-// a sheet column).
+// score curve, the p-value histogram, the strip plots of the top features or their scatter plots
+// against a continuous target, the samples coloured by a sheet column).
 #pragma once
 
 #include <cstddef>      // std::size_t
@@ -33,6 +33,12 @@ inline constexpr const char* kMissing = "#d4d4d4";  // a sample without a value 
 inline constexpr const char* kClassColours[] = {"#0072B2", "#E69F00", "#009E73", "#CC79A7",
                                                 "#56B4E9", "#D55E00", "#F0E442", "#000000"};
 inline constexpr std::size_t kClassColourCount = 8;
+// A continuous target: a sequential ramp of one hue, light (low) to dark (high), which stays
+// ordered under every form of colour blindness because only lightness changes. The stops are
+// entries 3-9 of ColorBrewer's 9-class "Blues" (Harrower & Brewer 2003, recalled).
+inline constexpr const char* kRampStops[] = {"#C6DBEF", "#9ECAE1", "#6BAED6", "#4292C6",
+                                             "#2171B5", "#08519C", "#08306B"};
+inline constexpr std::size_t kRampStopCount = 7;
 
 inline constexpr double kNaN = std::numeric_limits<double>::quiet_NaN();
 
@@ -104,14 +110,27 @@ struct Classes {
   std::vector<std::string> colours;
   std::vector<std::size_t> of;  // per sample
   bool has_missing = false;     // the last group is the samples without a value
+  // A continuous target: every sample its own colour on the ramp (empty: by group), and the
+  // target's range the ramp spans.
+  std::vector<std::string> sample_colours;
+  double lo = kNaN, hi = kNaN;
+  bool ramp() const { return !sample_colours.empty(); }
 };
 
 /// Groups by class label, sorted by name (as the rest of pare orders classes); samples without a
-/// label ("") form a last group, "no label", drawn light grey.
+/// label ("") form a last group, "no label", drawn light grey. With a continuous target: one group
+/// of the samples with a value, each coloured on the ramp (ramp_colour over the target's range),
+/// and a last group, "no value", light grey.
 Classes classes_of(const ReportSamples& d);
 const char* colour_of(std::size_t k);
+/// The ramp's colour at `t` in [0, 1] (clamped; NaN: the middle), interpolated linearly in sRGB
+/// between kRampStops, as #RRGGBB.
+std::string ramp_colour(double t);
+/// The ramp drawn as a small legend swatch: its stops side by side, light to dark.
+std::string ramp_swatch();
 
-/// The samples on two components, coloured by `classes`, flagged ones ringed, the id on hover.
+/// The samples on two components, coloured by `classes`, flagged ones ringed, the id on hover
+/// (and the label or the target's value).
 std::string scatter_svg(const std::vector<double>& xs, const std::vector<double>& ys,
                         const std::vector<std::size_t>& sample_of, const ReportSamples& d,
                         const Classes& classes, const std::string& x_label,
@@ -124,9 +143,10 @@ std::string figure(const std::string& svg, const std::string& caption);
 std::string name_list(const std::vector<std::string>& names, std::size_t max);
 
 // ---- ranking words
-const char* criterion_column(Criterion c);
-const char* criterion_q_column(Criterion c);
-const char* criterion_axis(Criterion c);
+// (`continuous`: against a continuous target; mi and variance differ by the kind of target.)
+const char* criterion_column(Criterion c, bool continuous = false);
+const char* criterion_q_column(Criterion c, bool continuous = false);
+const char* criterion_axis(Criterion c, bool continuous = false);
 
 // ---- the parts filled and drawn by src/report_plots.cpp
 /// Fills `curve` from the scores of every ranked feature in ranking order, their q-values in the
@@ -139,8 +159,11 @@ std::string score_curve_html(const ReportScoreCurve& curve);
 /// The p-value histogram figure, or "" when there are no p-values.
 std::string p_values_html(const ReportHistogram& p_values);
 /// The strip plots section, or "" when there are none. Class colours follow `classes` (the
-/// scatter plots' groups) where a class is in both.
-std::string top_features_html(const ReportTopFeatures& top, const Classes& classes);
+/// scatter plots' groups) where a class is in both. With top.target, one scatter plot per feature
+/// against the target instead, its Pearson r and Spearman rho taken from the bar of `ranking`
+/// of the same name where there is one.
+std::string top_features_html(const ReportTopFeatures& top, const Classes& classes,
+                              const ReportRanking& ranking);
 /// Groups by the mark column: every value its colour when there are at most 8, else the 7 most
 /// frequent and "other"; samples without a value form a last group, "missing". `note` receives a
 /// sentence when values were merged into "other".

@@ -26,6 +26,14 @@ References, each named again beside its check:
                  class medians, the robust sd (max of 1.4826 MAD and the 80th percentile /
                  scipy.stats.norm.ppf(0.9)) and the distance with numpy; the threshold with
                  scipy.stats.chi2.isf(0.05 / n, K)
+  target         a continuous target, on scikit-learn's diabetes data as Debian's python3-sklearn ships
+                 it (diabetes_data_raw.csv.gz, diabetes_target.csv.gz; 442 samples x 10 features):
+                 bars = ranking.tsv's signed spearman_rho and spearman_q; the curve = |spearman_rho|
+                 of every scored feature in selection-log.tsv, sorted; p-values = numpy.histogram of
+                 its spearman_p; the scatter plots = reduced.csv's values against the dataset's own
+                 target file; their captions = scipy.stats.spearmanr and pearsonr (%.3g) of the
+                 float32 values pare holds against the target; with WIRED_TARGET_SAMPLES, every
+                 sample dot's colour = the ramp (ColorBrewer Blues 3-9, recalled) interpolated here
   rendering      Debian's chromium, headless (--headless --no-sandbox --disable-gpu
                  --disable-background-networking), screenshot to PNG: the PNG's size (its IHDR) is
                  the window size, and the picture (read with PIL, Debian python3-pil) is not blank
@@ -66,6 +74,7 @@ from reference_common import Checks  # noqa: E402  (this folder is on sys.path)
 WIRED_TOP_FEATURES = True  # reduce puts strip plots of the first 6 kept features in report.html
 WIRED_MARK_BY = True       # reduce --labels SHEET:COLUMN --mark-by batch
 WIRED_RANK_REPORT = True   # pare rank writes report.html
+WIRED_TARGET_SAMPLES = True  # reduce --target passes the target to add_screen (sample plots on the ramp)
 
 N, P = 90, 500
 PLANTED = ["s0012", "s0061"]
@@ -435,6 +444,111 @@ def rank_report_checks(checks, pare, tmp, data):
     p_histogram_checks(checks, tree, [float(r[p]) for r in ranking[1:]], "rank report")
 
 
+DIABETES = "/usr/lib/python3/dist-packages/sklearn/datasets/data"
+DIABETES_NAMES = ["age", "sex", "bmi", "bp", "s1", "s2", "s3", "s4", "s5", "s6"]
+RAMP = ["#C6DBEF", "#9ECAE1", "#6BAED6", "#4292C6", "#2171B5", "#08519C", "#08306B"]
+
+
+def ramp_colour(t):
+    """The ramp at t in [0, 1]: linear in sRGB between the stops, each channel rounded half away
+    from zero (as C's lround)."""
+    t = min(max(t, 0.0), 1.0) * (len(RAMP) - 1)
+    k = min(int(t), len(RAMP) - 2)
+    f = t - k
+    out = "#"
+    for at in range(3):
+        a, b = int(RAMP[k][1 + 2 * at:3 + 2 * at], 16), int(RAMP[k + 1][1 + 2 * at:3 + 2 * at], 16)
+        out += "%02X" % int(math.floor(a + f * (b - a) + 0.5))
+    return out
+
+
+def target_checks(checks, pare, tmp):
+    """reduce --target on scikit-learn's diabetes data: the page in the target's words, the bars, the
+    curve, the p-values and the scatter plots against the output files, numpy and scipy."""
+    try:
+        from scipy.stats import pearsonr, spearmanr
+    except ImportError:
+        checks.skip("target", "scipy missing (install python3-scipy)")
+        return
+    raw, tgt = os.path.join(DIABETES, "diabetes_data_raw.csv.gz"), os.path.join(DIABETES, "diabetes_target.csv.gz")
+    if not (os.path.exists(raw) and os.path.exists(tgt)):
+        checks.skip("target", "scikit-learn's diabetes data missing (install python3-sklearn)")
+        return
+    x, y = np.loadtxt(raw), np.loadtxt(tgt)
+    ids = [f"p{i + 1:03d}" for i in range(len(y))]
+    data = os.path.join(tmp, "diabetes.csv")
+    with open(data, "w") as f:
+        f.write(",".join(["sample"] + DIABETES_NAMES + ["progression"]) + "\n")
+        for i in range(len(y)):
+            f.write(",".join([ids[i]] + [repr(float(v)) for v in x[i]] + [repr(float(y[i]))]) + "\n")
+    out = os.path.join(tmp, "target")
+    run([pare, "reduce", data, "--target", "progression", "--components", "3", "--out", out], checks,
+        "reduce --target runs (diabetes)")
+    tree = strict_parse(checks, os.path.join(out, "report.html"), "target report")
+    if tree is None:
+        return
+    ranking = read_tsv(os.path.join(out, "ranking.tsv"))
+    log = read_tsv(os.path.join(out, "selection-log.tsv"))
+    h = ranking[0]
+    rho, q = h.index("spearman_rho"), h.index("spearman_q")
+    # reference: ranking.tsv, signed rho (the bar is |rho|) and its q
+    bars = elements(tree, "g", "feature")
+    ok = len(bars) == len(ranking) - 1 and all(
+        g.get("data-name") == r[1] and g.get("data-value") == r[rho] and g.get("data-q") == r[q] and
+        [text_of(t) for t in g if local(t.tag) == "text"] == [r[1], "%.3g" % float(r[rho]), "%.3g" % float(r[q])]
+        for g, r in zip(bars, ranking[1:]))
+    checks.check("target: bars = ranking.tsv's signed spearman_rho and spearman_q (attributes and %.3g text)", ok,
+                 f"{len(bars)} bars")
+    # reference: selection-log.tsv, |spearman_rho| of every scored feature, sorted (stable)
+    lh = log[0]
+    scored = [r for r in log[1:] if r[lh.index("spearman_rho")] != "NA"]
+    ordered = sorted(scored, key=lambda r: -abs(float(r[lh.index("spearman_rho")])))
+    attrs, points = curve_points(tree)
+    checks.check("target: curve = |spearman_rho| of every scored feature by rank (selection-log.tsv)",
+                 attrs is not None and attrs.get("data-column") == "spearman_rho" and
+                 attrs.get("data-absolute") == "true" and attrs.get("data-count") == str(len(ordered)) and
+                 all(v == abs(float(ordered[r - 1][lh.index("spearman_rho")])) for r, v in points),
+                 f"{len(points)} ranks drawn")
+    p_histogram_checks(checks, tree, [float(r[lh.index("spearman_p")]) for r in scored], "target")
+    # No class wording in the ranking and top-feature sections.
+    words = []
+    for section in (e for e in tree.iter() if local(e.tag) == "section" and e.get("id") in ("ranking", "top-features")):
+        t = text_of(section).lower()
+        words += [w for w in ("class", "label", "chi2", "chi-square", "anova") if w in t]
+    checks.check("target: no class wording in the ranking and top-feature sections", not words, f"{words}")
+    # reference: reduced.csv's cells, the dataset's target file, scipy's correlations
+    panels = elements(tree, "g", "target-scatter")
+    names = [g.get("data-feature") for g in panels]
+    checks.check("target: scatter plots of the first 6 ranking.tsv features, in order",
+                 names == [r[1] for r in ranking[1:7]], f"{names}")
+    reduced = read_reduced(out)
+    by_id = dict(zip(ids, y))
+    values_ok, captions_ok = True, True
+    for g in panels:
+        feature = g.get("data-feature")
+        dots = [c for c in g.iter() if local(c.tag) == "circle"]
+        seen = {text_of(c[0]).split(" \u00b7 ")[0]: c for c in dots}
+        values_ok &= sorted(seen) == sorted(ids) and all(
+            float(c.get("data-value")) == float(reduced[k][feature]) and float(c.get("data-target")) == by_id[k]
+            for k, c in seen.items())
+        v = np.array([reduced[k][feature] for k in ids], dtype=np.float32).astype(np.float64)
+        expected = "Spearman rho %.3g, Pearson r %.3g" % (spearmanr(v, y)[0], pearsonr(v, y)[0])
+        caption = [text_of(c) for c in tree.iter() if local(c.tag) == "figcaption" and text_of(c).startswith("Spearman")]
+        captions_ok &= expected in caption
+    checks.check("target: every dot = (the dataset's target, reduced.csv's value), all 442 samples", values_ok and panels)
+    checks.check("target: captions = scipy.stats.spearmanr and pearsonr (%.3g)", captions_ok and panels)
+    if not WIRED_TARGET_SAMPLES:
+        print("OFF target: sample plots on the ramp (WIRED_TARGET_SAMPLES)")
+        return
+    # reference: the ramp interpolated here, linear in the target over its range
+    svgs = [e for e in tree.iter() if local(e.tag) == "svg" and e.get("aria-label") == "Samples on PC1 and PC2"]
+    dots = [c for c in svgs[0].iter() if local(c.tag) == "circle" and c.get("fill") != "none"] if svgs else []
+    lo, hi = float(np.min(y)), float(np.max(y))
+    ok = len(dots) == len(ids) and all(
+        c.get("fill") == ramp_colour((by_id[text_of(c[0]).split(" \u00b7 ")[0]] - lo) / (hi - lo)) for c in dots)
+    checks.check("target: every sample dot's colour = the ramp at its target value", ok, f"{len(dots)} dots")
+
+
 def robust_distance(scores, groups):
     """Each component: scores minus their class's median, over the larger of 1.4826 x the MAD and
     the 80th percentile / 1.2816 of all those differences; the distance is the root of the sum of
@@ -613,6 +727,7 @@ def main():
         else:
             print("OFF rank's report (WIRED_RANK_REPORT)")
 
+        target_checks(checks, pare, tmp)
         render_checks(checks, os.path.join(out, "report.html"), tmp)
     checks.summary(f" ({time.monotonic() - started:.1f} s)")
     return checks.exit_code()
