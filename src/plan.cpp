@@ -148,6 +148,13 @@ std::string plan_json(const FeatureTable& t, const PipelineResult& result, const
   samples["min_class_size"] = run.left_out.min_class_size;
   samples["left_out_small_class"] = run.left_out.small_class;
   samples["small_classes"] = run.left_out.small_classes;
+  if (run.split) {
+    const SplitRecord& s = *run.split;
+    samples["fold"] = {{"repeat", s.repeat},         {"fold", s.fold},     {"folds", s.folds},
+                       {"repeats", s.repeats},       {"assignment", s.assignment},
+                       {"groups", s.groups},         {"held_out", s.held_out},
+                       {"training_samples", s.training_samples}};
+  }
   plan["samples"] = samples;
   plan["parameters"] = internal::parameters_section(o, r);
   json steps = json::array();

@@ -3,6 +3,7 @@
 #pragma once
 
 #include <cstdint>  // std::int64_t, std::uint64_t
+#include <optional>  // std::optional
 #include <string>   // std::string
 #include <utility>  // std::pair
 #include <vector>   // std::vector
@@ -15,6 +16,16 @@
 #include "pare/samples.h"
 
 namespace pare {
+
+/// The split of a `pare folds` run a reduction was fitted on (plan.json's samples.fold).
+struct SplitRecord {
+  std::int64_t repeat = 0, fold = 0;    ///< counted from 1: the fold held out, in this repeat
+  std::int64_t folds = 0, repeats = 0;
+  std::string assignment;               ///< how samples were dealt (FoldAssignment::scheme)
+  std::string groups;                   ///< the group column, or empty
+  std::int64_t held_out = 0;            ///< samples held out
+  std::string training_samples;         ///< the file listing the training ids, beside the plan
+};
 
 /// Facts about the run that are not part of the reduction itself.
 struct RunRecord {
@@ -38,6 +49,7 @@ struct RunRecord {
   double read_seconds = 0;                ///< reading the inputs, wall time
   std::string mark_name;                  ///< the column samples are marked by in the report, or empty
   std::vector<std::string> marks;         ///< its value per sample used (or empty)
+  std::optional<SplitRecord> split;       ///< a split of `pare folds`, or none
 };
 
 /// Where a run's projection was written: plan.json names the loadings file and its SHA-256.

@@ -24,6 +24,7 @@ constexpr const char* kUsage =
     "  reduce DATA       run the whole reduction; write the reduced matrix, a log and a plan\n"
     "  project DATA      truncated PCA / SVD of every feature\n"
     "  apply PLAN DATA   replay a saved reduction (and projection) on new samples\n"
+    "  folds DATA        reduce inside each cross-validation fold, apply to the held-out samples\n"
     "  demo              write an invented drought-trial data set, then scan and reduce it\n"
     "\n"
     "'pare COMMAND --help' lists a command's options; 'pare --version' prints the version.\n";
@@ -163,9 +164,10 @@ int run(const std::vector<std::string>& args, std::ostream& out, std::ostream& e
     if (command == "reduce") return command_reduce(rest, out);
     if (command == "apply") return command_apply(rest, out);
     if (command == "project") return command_project(rest, out);
+    if (command == "folds") return command_folds(rest, out);
     if (command == "demo") return command_demo(rest, out);
     throw_usage_error("unknown command '" + command + "'",
-                      "commands: scan, rank, reduce, project, apply, demo; see pare --help");
+                      "commands: scan, rank, reduce, project, apply, folds, demo; see pare --help");
   } catch (const Error& e) {
     err << "pare: error: " << cli_words(e.what()) << "\n";
     return static_cast<int>(e.kind());

@@ -6,6 +6,7 @@
 
 #include "pare/demo.h"
 #include "pare/error.h"
+#include "pare/folds.h"
 #include "pare/io.h"
 #include "pare/load.h"
 #include "pare/plan.h"
@@ -180,6 +181,67 @@ int command_project(const std::vector<std::string>& args, std::ostream& out) {
   std::vector<std::string> command_line{"pare", "project"};
   command_line.insert(command_line.end(), args.begin(), args.end());
   reduce_and_write(input, common, pipeline, command_line, out);
+  return 0;
+}
+
+int command_folds(const std::vector<std::string>& args, std::ostream& out) {
+  CommonOptions common;
+  InputOptions input;
+  PipelineOptions pipeline;
+  FoldOptions folds;
+  ReduceOptions& options = pipeline.reduce;
+  std::string impute, rank_by, estimator;
+  bool no_missing = false, no_variance = false, no_prune = false, no_center = false;
+  po::options_description desc(
+      "pare folds DATA (--label COLUMN | --labels SHEET[:COLUMN] | --target COLUMN | --targets SHEET[:COLUMN])\n"
+      "           --folds K [--repeats R] [--groups COLUMN] --out DIR [reduce options]\n\n"
+      "Selection inside cross-validation: deals the samples into K folds (stratified by class; for a\n"
+      "target, sorted by it and dealt in blocks of K; with --groups, each group in one fold), and for\n"
+      "each fold runs reduce on the other samples only (DIR/rR-fF/, as reduce --samples with those\n"
+      "samples would) and applies its plan to the held-out samples (DIR/rR-fF/held-out/). Writes\n"
+      "folds.tsv (sample, repeat, fold) and kept-across-folds.tsv (how often each feature was kept).\n\n"
+      "folds",
+      100, 50);
+  desc.add_options()
+      ("folds", po::value(&folds.folds)->required()->value_name("K"), "number of folds, 2 or more (5 or 10 are usual)")
+      ("repeats", po::value(&folds.repeats)->default_value(1)->value_name("R"),
+       "deal the folds R times, each time afresh (repeated K-fold)")
+      ("groups", po::value(&folds.groups)->value_name("COLUMN"),
+       "keep samples sharing a value of this column in one fold (a patient, batch or site): a column of "
+       "the sample sheet, or a --sample-info column");
+  po::options_description steps("the steps of each reduction, in order", 100, 50);
+  add_reduce_options(steps, options, impute, rank_by, estimator, no_missing, no_variance, no_prune);
+  add_projection_options(steps, pipeline.projection, no_center, false);
+  steps.add_options()("drop-outliers", po::bool_switch(&pipeline.drop_outliers),
+                      "remove the training samples flagged as outliers before step 1");
+  desc.add(steps);
+  add_input_options(desc, input);
+  add_sample_options(desc, input, true);
+  add_common_options(desc, common, "pare-folds");
+  if (!parse_command_line(args, desc, {{"data", &input.data}}, out)) return 0;
+  // Every option is checked before the data is read.
+  check_fold_options(folds);
+  if (!input.has_response())
+    throw_usage_error("folds needs class labels or a target: the folds are stratified by it and each split "
+                      "selects against it",
+                      "give --label COLUMN, --labels SHEET, --target COLUMN or --targets SHEET");
+  finish_reduce_options(options, impute, rank_by, estimator, no_missing, no_variance, no_prune, common, input);
+  pipeline.projection.center = !no_center;
+  pipeline.projection.scale = options.scale;
+  check_projection_options(pipeline.projection, false);
+  check_input_options(input, common);
+  const DataRequest request = data_request(input, common, options.relevance);
+  if (!folds.groups.empty()) check_group_column(request, folds.groups);
+  std::vector<std::string> command_line{"pare", "folds"};
+  command_line.insert(command_line.end(), args.begin(), args.end());
+  const LoadedData loaded = load_data(request, common);
+  pipeline.seed = common.seed;
+  pipeline.threads = common.threads;
+  pipeline.memory = request.read.memory;
+  const FoldsResult result = folds_to_folder(request, loaded, pipeline, folds, command_line, common.out);
+  for (const auto& split : result.splits)
+    for (const auto& line : split.warnings) warn(common, line);
+  if (!common.quiet) out << cli_words(folds_summary(loaded, result, common.out));
   return 0;
 }
 

@@ -12,6 +12,8 @@ namespace pare::cli {
 int command_reduce(const std::vector<std::string>& args, std::ostream& out);
 int command_apply(const std::vector<std::string>& args, std::ostream& out);
 int command_project(const std::vector<std::string>& args, std::ostream& out);
+/// pare folds: fold-wise reduce on the training samples and apply on the held-out ones.
+int command_folds(const std::vector<std::string>& args, std::ostream& out);
 
 /// Reduces the demo data into common.out/reduce and reports recovery of the planted truth.
 int demo_reduce(const std::string& data, const std::string& samples, const std::string& truth,
