@@ -70,7 +70,8 @@ int command_demo(const std::vector<std::string>& args, std::ostream& out) {
       "batches; the planted role of every transcript in greenhouse-truth.tsv), then runs pare on it\n"
       "as a user would: scan, then reduce (--log2 --max-corr 0.9 --keep 200 --components 3\n"
       "--mark-by batch) into DIR/reduce, and reports how much of the planted structure was\n"
-      "recovered. Open DIR/reduce/report.html afterwards.\n\noptions",
+      "recovered; then the same selection inside 5-fold cross-validation (pare folds) into\n"
+      "DIR/folds. Open DIR/reduce/report.html afterwards.\n\noptions",
       100, 50);
   add_common_options(desc, common, "pare-demo", false);
   if (!parse_command_line(args, desc, {}, out)) return 0;

@@ -312,6 +312,31 @@ int command_apply(const std::vector<std::string>& args, std::ostream& out) {
   return 0;
 }
 
+// The demo's last step: the same selection inside 5-fold cross-validation (pare folds), to show
+// how a model would be fitted without the held-out samples taking part in the selection.
+void demo_folds(const InputOptions& input, const CommonOptions& common, PipelineOptions pipeline,
+                std::ostream& out) {
+  CommonOptions folds_common = common;
+  folds_common.out = join_path(common.out, "folds");
+  FoldOptions folds;
+  folds.folds = 5;
+  pipeline.projection.components = 0;
+  pipeline.seed = common.seed;
+  pipeline.threads = common.threads;
+  const std::vector<std::string> command_line{"pare", "folds", input.data, "--layout", "rows=features", "--labels",
+                                              input.labels, "--log2", "--max-corr", "0.9", "--keep", "200", "--folds",
+                                              "5", "--out", folds_common.out};
+  if (!common.quiet)
+    out << "\nThe same selection inside 5-fold cross-validation: each split selects on its training samples only and "
+           "applies the plan to its held-out fold.\n";
+  const DataRequest request = data_request(input, folds_common, true);
+  const LoadedData loaded = load_data(request, folds_common);
+  const FoldsResult result = folds_to_folder(request, loaded, pipeline, folds, command_line, folds_common.out);
+  for (const auto& split : result.splits)
+    for (const auto& line : split.warnings) warn(common, line);
+  if (!common.quiet) out << cli_words(folds_summary(loaded, result, folds_common.out));
+}
+
 int demo_reduce(const std::string& data, const std::string& samples, const std::string& truth,
                 const CommonOptions& common, std::ostream& out) {
   InputOptions input;
@@ -342,6 +367,7 @@ int demo_reduce(const std::string& data, const std::string& samples, const std::
     out << "\n" << cli_words(demo_recovery_text(d, truth, run, loaded.marks));
     out << "\nreport: " << join_path(reduce_common.out, "report.html") << " (open it in a browser)\n";
   }
+  demo_folds(input, common, pipeline, out);
   return 0;
 }
 
