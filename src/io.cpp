@@ -32,6 +32,8 @@ using internal::fail_cell;
 using internal::Failure;
 using internal::Header;
 using internal::header_names_hint;
+using internal::label_field_of;
+using internal::label_option;
 using internal::in_quotes;
 using internal::kNameHint;
 using internal::kMissing;
@@ -448,25 +450,6 @@ void read_records(const std::string& path, const internal::InputText& input, con
     parse(chunks[static_cast<std::size_t>(k)], static_cast<std::size_t>(k), matrix,
           omp_get_thread_num());
   if (any_failure(chunks)) rethrow_first(path, chunks);
-}
-
-// The option that named the label column, as messages name it.
-std::string label_option(const ReadOptions& options) { return options.label_is_target ? "`target`" : "`label`"; }
-
-// The label column's field, or -1 (throws when a required one is missing).
-std::int64_t label_field_of(const std::string& path, const Header& h, const ReadOptions& options) {
-  if (options.label_column.empty()) return -1;
-  for (std::size_t j = 1; j < h.fields.size(); ++j)
-    if (h.fields[j] == options.label_column) return static_cast<std::int64_t>(j);
-  if (!options.label_optional && !h.fields.empty() && h.fields[0] == options.label_column)
-    throw_input_error({path, 1, h.columns[0]},
-                      label_option(options) + " names " + in_quotes(options.label_column) + ", the id column",
-                      "the first column holds the sample ids; name a column after it");
-  if (!options.label_optional)
-    throw_input_error({path, 1},
-                      "no column named " + in_quotes(options.label_column) + " for " + label_option(options),
-                      header_names_hint(h.fields));
-  return -1;
 }
 
 // rows=samples: a record is a sample, its values a row of the matrix. Rows are parsed into a

@@ -116,6 +116,23 @@ std::string header_names_hint(const std::vector<std::string>& fields) {
   return out;
 }
 
+std::string label_option(const ReadOptions& options) { return options.label_is_target ? "`target`" : "`label`"; }
+
+std::int64_t label_field_of(const std::string& path, const Header& h, const ReadOptions& options) {
+  if (options.label_column.empty()) return -1;
+  for (std::size_t j = 1; j < h.fields.size(); ++j)
+    if (h.fields[j] == options.label_column) return static_cast<std::int64_t>(j);
+  if (!options.label_optional && !h.fields.empty() && h.fields[0] == options.label_column)
+    throw_input_error({path, 1, h.columns[0]},
+                      label_option(options) + " names " + in_quotes(options.label_column) + ", the id column",
+                      "the first column holds the sample ids; name a column after it");
+  if (!options.label_optional)
+    throw_input_error({path, 1},
+                      "no column named " + in_quotes(options.label_column) + " for " + label_option(options),
+                      header_names_hint(h.fields));
+  return -1;
+}
+
 }  // namespace internal
 
 }  // namespace pare

@@ -5,7 +5,6 @@
 #include <boost/math/special_functions/digamma.hpp>
 
 #include <algorithm>  // std::sort, std::stable_sort, std::partition_point
-#include <bit>        // std::bit_cast
 #include <cmath>      // std::log, std::isnan, std::isinf, std::isfinite
 #include <exception>  // std::exception_ptr, std::current_exception, std::rethrow_exception
 #include <limits>     // std::numeric_limits
@@ -13,6 +12,7 @@
 
 #include "internal/format.h"
 #include "internal/omp.h"
+#include "internal/order_keys.h"
 #include "internal/columns.h"
 #include "pare/error.h"
 #include "pare/progress.h"
@@ -27,13 +27,8 @@ constexpr double kInf = std::numeric_limits<double>::infinity();
 // here and several times faster (the tails are evaluated for every feature).
 using DoublePolicy = boost::math::policies::policy<boost::math::policies::promote_double<false>>;
 
-// Maps a float to an unsigned key with the same order (negative values flipped), so a sort of
-// (key << 32 | row) sorts by value with ties in row order. -0 is folded into +0 first: the two
-// compare equal and must share a bin.
-std::uint32_t order_key(float v) {
-  const auto u = std::bit_cast<std::uint32_t>(v + 0.0f);
-  return (u & 0x80000000u) ? ~u : (u | 0x80000000u);
-}
+using internal::order_key;
+using internal::sort_keys;
 
 }  // namespace
 
@@ -293,21 +288,6 @@ double knn_mi_sorted(std::span<const double> x, std::span<const int> y, int clas
   const double dn = static_cast<double>(n);
   const double mi = psi[n] + (sum_psi_k - sum_psi_class - sum_psi_m) / dn;
   return std::max(0.0, mi);
-}
-
-// Sorts keys (value key in the high 32 bits, row in the low 32) by their high 32 bits: an LSD radix
-// sort, 8 bits a pass, stable, so rows of tied values stay in row order as they were pushed. Passes
-// in which every key has the same byte are skipped.
-void sort_keys(std::vector<std::uint64_t>& keys, std::vector<std::uint64_t>& buffer) {
-  buffer.resize(keys.size());
-  for (int shift = 32; shift < 64; shift += 8) {
-    std::size_t counts[257] = {};
-    for (const std::uint64_t key : keys) ++counts[((key >> shift) & 0xFF) + 1];
-    if (counts[((keys.front() >> shift) & 0xFF) + 1] == keys.size()) continue;
-    for (int b = 0; b < 256; ++b) counts[b + 1] += counts[b];
-    for (const std::uint64_t key : keys) buffer[counts[(key >> shift) & 0xFF]++] = key;
-    keys.swap(buffer);
-  }
 }
 
 }  // namespace

@@ -72,7 +72,6 @@
 #include <boost/math/special_functions/digamma.hpp>
 
 #include <algorithm>  // std::stable_sort, std::partition_point, std::lower_bound, std::max
-#include <bit>        // std::bit_cast
 #include <cmath>      // std::sqrt, std::abs, std::isnan, std::isfinite
 #include <cstdint>    // std::int64_t, std::uint32_t, std::uint64_t
 #include <exception>  // std::exception_ptr, std::current_exception, std::rethrow_exception
@@ -83,6 +82,7 @@
 
 #include "internal/columns.h"
 #include "internal/omp.h"
+#include "internal/order_keys.h"
 #include "pare/error.h"
 #include "pare/progress.h"
 #include "pare/ranking.h"
@@ -97,30 +97,11 @@ constexpr double kInf = std::numeric_limits<double>::infinity();
 // here and faster (a tail is evaluated twice for every feature).
 using DoublePolicy = boost::math::policies::policy<boost::math::policies::promote_double<false>>;
 
+using internal::order_key;
+using internal::sort_keys;
+
 constexpr std::uint8_t defined_bit(Criterion c) {
   return static_cast<std::uint8_t>(1u << static_cast<unsigned>(c));
-}
-
-// Maps a float to an unsigned key with the same order (negative values flipped); -0 is folded into
-// +0 first, as the two compare equal (the same keys as the class scores in ranking.cpp).
-std::uint32_t order_key(float v) {
-  const auto u = std::bit_cast<std::uint32_t>(v + 0.0f);
-  return (u & 0x80000000u) ? ~u : (u | 0x80000000u);
-}
-
-// Sorts keys (value key in the high 32 bits, an index in the low 32) by their high 32 bits: LSD
-// radix, 8 bits a pass, stable, passes where every key has the same byte skipped.
-void sort_keys(std::vector<std::uint64_t>& keys, std::vector<std::uint64_t>& buffer) {
-  if (keys.empty()) return;
-  buffer.resize(keys.size());
-  for (int shift = 32; shift < 64; shift += 8) {
-    std::size_t counts[257] = {};
-    for (const std::uint64_t key : keys) ++counts[((key >> shift) & 0xFF) + 1];
-    if (counts[((keys.front() >> shift) & 0xFF) + 1] == keys.size()) continue;
-    for (int b = 0; b < 256; ++b) counts[b + 1] += counts[b];
-    for (const std::uint64_t key : keys) buffer[counts[(key >> shift) & 0xFF]++] = key;
-    keys.swap(buffer);
-  }
 }
 
 // ψ(m) for the integers 0 < m <= n (entry 0 unused): a per-thread table grown on demand, each entry

@@ -13,6 +13,7 @@
 #include "internal/format.h"
 #include "internal/utf8.h"
 #include "pare/error.h"
+#include "pare/io.h"
 
 namespace pare::internal {
 
@@ -161,5 +162,10 @@ inline void split_fields_at(std::string_view line, char delimiter, std::vector<s
 Header read_header(const std::string& path, std::string_view text, char delimiter);
 Header read_arriving_header(const std::string& path, const InputText& input, char delimiter);
 std::string header_names_hint(const std::vector<std::string>& fields);
+/// The option that named the label column, as messages name it: `label`, or `target`.
+std::string label_option(const ReadOptions& options);
+/// The label column's field in `h` (rows=samples), or -1 when none is asked for or an optional one is
+/// absent; throws Error(kInput) when a required one is missing or names the id column.
+std::int64_t label_field_of(const std::string& path, const Header& h, const ReadOptions& options);
 
 }  // namespace pare::internal
