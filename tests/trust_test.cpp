@@ -316,7 +316,7 @@ TEST_CASE("trust: help shows placeholders and the steps in order", "[trust]") {
   REQUIRE(reduce.out.find("--fdr Q") != std::string::npos);
   REQUIRE(reduce.out.find("--drop-missing-above FRACTION") != std::string::npos);
   REQUIRE(reduce.out.find("--labels SHEET[:COLUMN]") != std::string::npos);
-  REQUIRE(ok({"--help"}).out.find("then scan and reduce it") != std::string::npos);
+  REQUIRE(ok({"--help"}).out.find("then scan, reduce and fold it") != std::string::npos);
 }
 
 TEST_CASE("trust: mistakes a new user makes get a message, not a meaningless result", "[trust]") {

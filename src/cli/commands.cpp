@@ -20,12 +20,12 @@ constexpr const char* kUsage =
     "\n"
     "commands:\n"
     "  scan DATA         profile a matrix: missingness, variance, flagged features, class balance\n"
-    "  rank DATA         score every feature against the class label and rank them\n"
+    "  rank DATA         score every feature against the class label or a target and rank them\n"
     "  reduce DATA       run the whole reduction; write the reduced matrix, a log and a plan\n"
     "  project DATA      truncated PCA / SVD of every feature\n"
     "  apply PLAN DATA   replay a saved reduction (and projection) on new samples\n"
     "  folds DATA        reduce inside each cross-validation fold, apply to the held-out samples\n"
-    "  demo              write an invented drought-trial data set, then scan and reduce it\n"
+    "  demo              write an invented drought-trial data set, then scan, reduce and fold it\n"
     "\n"
     "'pare COMMAND --help' lists a command's options; 'pare --version' prints the version.\n";
 
