@@ -287,14 +287,14 @@ std::string components_section(const ReportData& d) {
          ", so the samples are expected to line up by it on these components, and on the sample "
          "plots below, even in data without a real relation: the pattern is not evidence by "
          "itself. To test it, select on training samples only and apply the plan to held-out "
-         "ones.</p>";
+         "ones (pare folds does both, fold by fold).</p>";
   else if (d.chosen_with_labels && d.components.of_kept)
     h += "<p class=\"caution\">These features were selected using the labels" +
          (si.label_name.empty() ? std::string() : " (" + esc(si.label_name) + ")") +
          ", so the classes are expected to separate on these components, and on the sample "
          "plots below, even in data without real differences: the separation is not evidence "
          "by itself. To test it, select on training samples only and apply the plan to "
-         "held-out ones.</p>";
+         "held-out ones (pare folds does both, fold by fold).</p>";
   h += figure(scree_svg(d.components), "");
   h += "</section>\n";
   return h;
