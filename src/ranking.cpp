@@ -646,6 +646,19 @@ std::string score_flag_names(std::uint8_t flags) {
 
 namespace {
 
+// The start of a ranking.tsv line: rank, the feature's name and its --feature-info columns.
+void append_row_start(std::string& out, std::size_t rank, std::size_t feature,
+                      const std::vector<std::string>& feature_names,
+                      const std::vector<std::vector<std::string>>& info) {
+  out += std::to_string(rank);
+  out += '\t';
+  internal::append_field(out, feature_names[feature], '\t');
+  for (const auto& column : info) {
+    out += '\t';
+    internal::append_field(out, column[feature], '\t');
+  }
+}
+
 // ranking.tsv against a continuous target, after the header's `rank, feature, info...` in `out`.
 std::string ranking_tsv_continuous(const FeatureScores& s, std::span<const std::size_t> order,
                                    const std::vector<std::string>& feature_names,
@@ -654,13 +667,7 @@ std::string ranking_tsv_continuous(const FeatureScores& s, std::span<const std::
          "\tindex\tflags\n";
   for (std::size_t r = 0; r < order.size(); ++r) {
     const std::size_t i = order[r];
-    out += std::to_string(r + 1);
-    out += '\t';
-    internal::append_field(out, feature_names[static_cast<std::size_t>(s.feature[i])], '\t');
-    for (const auto& column : info) {
-      out += '\t';
-      internal::append_field(out, column[static_cast<std::size_t>(s.feature[i])], '\t');
-    }
+    append_row_start(out, r + 1, static_cast<std::size_t>(s.feature[i]), feature_names, info);
     for (const double v : {s.pearson_r[i], s.pearson_p[i], s.pearson_q[i], s.spearman_rho[i], s.spearman_p[i],
                            s.spearman_q[i], s.mi[i], s.variance[i], s.missing_rate[i]}) {
       out += '\t';
@@ -694,13 +701,7 @@ std::string ranking_tsv(const FeatureScores& s, std::span<const std::size_t> ord
   };
   for (std::size_t r = 0; r < order.size(); ++r) {
     const std::size_t i = order[r];
-    out += std::to_string(r + 1);
-    out += '\t';
-    internal::append_field(out, feature_names[static_cast<std::size_t>(s.feature[i])], '\t');
-    for (const auto& column : info) {
-      out += '\t';
-      internal::append_field(out, column[static_cast<std::size_t>(s.feature[i])], '\t');
-    }
+    append_row_start(out, r + 1, static_cast<std::size_t>(s.feature[i]), feature_names, info);
     num(s.mi[i]);
     num(s.chi2[i]);
     num(s.chi2_p[i]);
