@@ -40,10 +40,7 @@ struct FeaturePlan {
   double missing_rate = 0;
 };
 
-template <typename T>
-void shuffle(std::vector<T>& v, internal::Rng& rng) {
-  for (std::size_t i = v.size(); i > 1; --i) std::swap(v[i - 1], v[rng.below(i)]);
-}
+using internal::shuffle;
 
 std::string name_of(const char* prefix, std::int64_t i, int width) {
   char buffer[32];

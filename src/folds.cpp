@@ -34,11 +34,7 @@ using internal::in_quotes;
 // ...: "FO" and the repeat, apart from the streams the projection and the demo use).
 constexpr std::uint64_t kFoldStream = 0x464f0000;
 
-template <typename T>
-void shuffle(std::vector<T>& v, internal::Rng& rng) {
-  // Fisher-Yates, from the back.
-  for (std::size_t i = v.size(); i > 1; --i) std::swap(v[i - 1], v[rng.below(i)]);
-}
+using internal::shuffle;
 
 std::string split_name(std::int64_t repeat, std::int64_t fold) {
   return "r" + std::to_string(repeat) + "-f" + std::to_string(fold);

@@ -157,6 +157,19 @@ std::string plan_json(const FeatureTable& t, const PipelineResult& result, const
   }
   plan["samples"] = samples;
   plan["parameters"] = internal::parameters_section(o, r);
+  if (r.stability) {
+    const StabilityRecord& st = *r.stability;
+    plan["stability"] = {{"resamples", st.options.resamples},
+                         {"resample_fraction", st.options.fraction},
+                         {"resample_scheme", resample_scheme_name(st.options.scheme)},
+                         {"min_stability", st.options.min_stability},
+                         {"seed", st.options.seed},
+                         {"subset_samples", {{"min", st.subset_samples_min}, {"max", st.subset_samples_max}}},
+                         {"q", st.q},
+                         {"p", st.p},
+                         {"expected_false_selections_bound", st.bound},
+                         {"selected", st.selected}};
+  }
   json steps = json::array();
   for (const auto& s : r.steps)
     steps.push_back({{"step", step_name(s.step)}, {"in", s.in}, {"out", s.out}, {"seconds", s.seconds}});

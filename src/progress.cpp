@@ -7,6 +7,7 @@ namespace pare {
 namespace {
 
 std::atomic<ProgressListener*> current{nullptr};
+thread_local int quiet_depth = 0;
 
 constexpr std::int64_t kInterval = 100'000'000;  // ns between updates
 
@@ -19,8 +20,11 @@ std::int64_t now_ns() {
 
 void set_progress_listener(ProgressListener* listener) { current.store(listener); }
 
+QuietProgress::QuietProgress() { ++quiet_depth; }
+QuietProgress::~QuietProgress() { --quiet_depth; }
+
 ProgressStep::ProgressStep(std::string_view step, std::int64_t total, std::string_view unit)
-    : listener_(current.load()), start_(std::chrono::steady_clock::now()), uncaught_(std::uncaught_exceptions()) {
+    : listener_(quiet_depth > 0 ? nullptr : current.load()), start_(std::chrono::steady_clock::now()), uncaught_(std::uncaught_exceptions()) {
   if (listener_) {
     listener_->begin(step, total, unit);
     next_update_.store(now_ns() + kInterval);

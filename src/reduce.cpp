@@ -72,6 +72,7 @@ void check_reduce_options(const ReduceOptions& o) {
   if (o.score.bins < 2) throw_usage_error("`bins` must be 2 or more");
   if (o.score.neighbors < 1) throw_usage_error("`neighbors` must be 1 or more");
   if (o.threads < 0) throw_usage_error("`threads` must be 0 (all cores) or more");
+  check_stability_options(o.stability, o.keep);
   if (o.fdr < 1 && o.rank_by == Criterion::kVariance)
     throw_usage_error("`fdr` needs a criterion with a test, and variance has none",
                       "rank by a criterion with a test (mi, chi2, chi2-counts or f for classes; spearman, pearson or "
@@ -118,6 +119,7 @@ const char* step_name(Step step) {
     case Step::kTransform: return "transform";
     case Step::kVariance: return "variance";
     case Step::kRelevance: return "relevance";
+    case Step::kStability: return "stability";
     case Step::kRedundancy: return "redundancy";
     case Step::kTop: return "top";
     case Step::kProject: return "project";
@@ -429,6 +431,14 @@ Reduction reduce(FeatureTable& t, const ReduceOptions& o) {
   learn_fill(t, o, r);
   transform_step(t, o, r);
   filter_variance(t, o, r);
+  if (o.stability.resamples > 0) {
+    // The subsets apply --fdr with their own q-values; on all samples the ranking only orders.
+    ReduceOptions all_samples = o;
+    all_samples.fdr = 1;
+    rank_relevance(t, all_samples, r);
+    select_stable(t, o, r);
+    return r;
+  }
   rank_relevance(t, o, r);
   prune_redundant(t, o, r);
   take_top(t, o, r);
@@ -440,6 +450,14 @@ namespace {
 void append_tab_number(std::string& out, double v) {
   out += '\t';
   internal::append_number(out, v);
+}
+
+// The fraction of the stability subsets that kept input feature j; NaN for one dropped before
+// relevance (it entered none).
+double stability_of(const Reduction& r, std::size_t j) {
+  const Decision& d = r.decisions[j];
+  if (!d.kept && (d.step == Step::kMissing || d.step == Step::kVariance)) return kNaN;
+  return static_cast<double>(r.stability->kept_in[j]) / static_cast<double>(r.stability->options.resamples);
 }
 
 }  // namespace
@@ -457,7 +475,7 @@ std::string selection_log_tsv(const FeatureTable& t, const Reduction& r) {
     out += continuous ? "\tpearson_r\tpearson_p\tpearson_q\tspearman_rho\tspearman_p\tspearman_q\tmi"
                       : "\tmi\tchi2\tchi2_p\tchi2_q\tf\tf_p\tf_q";
   if (counts) out += "\tchi2_counts\tchi2_counts_p\tchi2_counts_q";
-  out += "\tvariance\tmissing_rate\n";
+  out += r.stability ? "\tvariance\tmissing_rate\tstability\n" : "\tvariance\tmissing_rate\n";
   for (std::size_t j = 0; j < r.decisions.size(); ++j) {
     const Decision& d = r.decisions[j];
     internal::append_field(out, t.feature_names[j], '\t');
@@ -493,25 +511,29 @@ std::string selection_log_tsv(const FeatureTable& t, const Reduction& r) {
     }
     append_tab_number(out, r.variance[j]);
     append_tab_number(out, r.raw_stats[j].missing_rate());
+    if (r.stability) append_tab_number(out, stability_of(r, j));
     out += '\n';
   }
   return out;
 }
 
 std::string reduction_ranking_tsv(const FeatureTable& t, const Reduction& r) {
+  std::vector<double> stability;
+  if (r.stability)
+    for (const std::int64_t j : r.kept) stability.push_back(stability_of(r, static_cast<std::size_t>(j)));
   if (r.supervised) {
     std::vector<std::size_t> order;
     order.reserve(r.kept.size());
     for (const std::int64_t j : r.kept) order.push_back(static_cast<std::size_t>(r.score_of[static_cast<std::size_t>(j)]));
     return ranking_tsv(r.scores, order, t.feature_names, !r.scores.chi2_counts.empty(), t.feature_info_names,
-                       t.feature_info);
+                       t.feature_info, stability);
   }
   std::string out = "rank\tfeature";
   for (const auto& name : t.feature_info_names) {
     out += '\t';
     internal::append_field(out, name, '\t');
   }
-  out += "\tvariance\tmissing_rate\tindex\n";
+  out += r.stability ? "\tvariance\tmissing_rate\tindex\tstability\n" : "\tvariance\tmissing_rate\tindex\n";
   for (std::size_t k = 0; k < r.kept.size(); ++k) {
     const auto j = static_cast<std::size_t>(r.kept[k]);
     out += std::to_string(k + 1) + '\t';
@@ -522,7 +544,9 @@ std::string reduction_ranking_tsv(const FeatureTable& t, const Reduction& r) {
     }
     append_tab_number(out, r.variance[j]);
     append_tab_number(out, r.raw_stats[j].missing_rate());
-    out += '\t' + std::to_string(j + 1) + '\n';
+    out += '\t' + std::to_string(j + 1);
+    if (r.stability) append_tab_number(out, stability[k]);
+    out += '\n';
   }
   return out;
 }

@@ -3,8 +3,9 @@
 #include <algorithm>   // std::min
 #include <filesystem>  // std::filesystem::equivalent, std::filesystem::path
 #include <future>      // std::async
-#include <sstream>     // std::ostringstream
+#include <sstream>     // std::ostringstream, std::istringstream
 
+#include "internal/format.h"
 #include "internal/sha256.h"
 #include "pare/text.h"
 #include "pare/error.h"
@@ -236,6 +237,21 @@ std::string response_line(const FeatureTable& table) {
   return "";
 }
 
+std::string stability_text(const StabilityRecord& st, std::int64_t kept) {
+  const StabilityOptions& o = st.options;
+  const std::string samples = st.subset_samples_min == st.subset_samples_max
+                                  ? thousands(st.subset_samples_min)
+                                  : thousands(st.subset_samples_min) + "-" + thousands(st.subset_samples_max);
+  std::string bound;
+  internal::append_rounded(bound, st.bound, 3);
+  return "stability: " + thousands(o.resamples) + " subsets of " + samples + " samples (" +
+         resample_scheme_name(o.scheme) + "), each keeping " + thousands(st.q) + "; " + thousands(st.selected) +
+         " features kept in at least " + percent(o.min_stability) + " of them, " + thousands(kept) +
+         " after pruning on all samples\nexpected false selections among them at most " + bound +
+         " (q^2 / ((2 PI - 1) p) with q " + thousands(st.q) + ", PI " + short_number(o.min_stability) + ", p " +
+         thousands(st.p) + " features ranked; Meinshausen & Buhlmann 2010)\n";
+}
+
 std::string left_out_summary(const SamplesLeftOut& left, std::int64_t samples_read, std::int64_t samples_used,
                              const std::string& sample_list) {
   if (left.empty() && samples_used == samples_read) return "";
@@ -296,7 +312,11 @@ std::string reduce_summary(const FeatureTable& table, const PipelineResult& resu
     rows.push_back({step_name(s.step), thousands(s.in), thousands(s.out), fixed(s.seconds, 2)});
   }
   out << table_text(rows, 1);
-  if (select && o.keep > 0 && static_cast<std::int64_t>(r.kept.size()) < o.keep)
+  if (r.stability) {
+    std::istringstream lines(stability_text(*r.stability, static_cast<std::int64_t>(r.kept.size())));
+    for (std::string line; std::getline(lines, line);) out << "  " << line << "\n";
+  }
+  if (select && !r.stability && o.keep > 0 && static_cast<std::int64_t>(r.kept.size()) < o.keep)
     out << "  note: kept " << thousands(static_cast<std::int64_t>(r.kept.size())) << ", fewer than `keep` " << o.keep
         << ": only so many features "
         << (r.supervised && o.fdr < 1 ? "passed `fdr` " + short_number(o.fdr) + " and " : std::string())

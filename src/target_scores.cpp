@@ -83,6 +83,7 @@
 #include "internal/columns.h"
 #include "internal/omp.h"
 #include "internal/order_keys.h"
+#include "internal/target_scores.h"
 #include "pare/error.h"
 #include "pare/progress.h"
 #include "pare/ranking.h"
@@ -98,7 +99,12 @@ constexpr double kInf = std::numeric_limits<double>::infinity();
 using DoublePolicy = boost::math::policies::policy<boost::math::policies::promote_double<false>>;
 
 using internal::order_key;
+using internal::prepare_target;
 using internal::sort_keys;
+using internal::stable_order;
+using internal::TargetPrep;
+using internal::TargetResult;
+using internal::TargetWanted;
 
 constexpr std::uint8_t defined_bit(Criterion c) {
   return static_cast<std::uint8_t>(1u << static_cast<unsigned>(c));
@@ -116,66 +122,6 @@ const double* psi_table(std::int64_t n) {
 
 // What every feature needs of the target on the rows it is scored on (all rows, or a feature's
 // observed rows renumbered 0..n-1).
-struct TargetPrep {
-  std::int64_t n = 0;
-  bool constant = true;
-  std::vector<double> values;         // t
-  std::vector<double> centred;        // t − mean
-  double ss = 0;                      // Σ centred²
-  std::vector<double> rank_centred;   // average rank − (n+1)/2
-  double rank_ss = 0;                 // Σ rank_centred²
-  double inv_sd = 0;                  // 1 / sd (n denominator): the MI's scale of y
-  std::vector<std::uint32_t> order;   // indices by ascending t, ties by index
-  std::vector<double> sorted;         // t[order[i]]
-  std::vector<std::uint32_t> run_start;  // per index, where its run of equal t starts in `order`
-};
-
-// Fills `p` from `t` and p.order (already set: the stable ascending order of t).
-void prepare_target(std::span<const double> t, TargetPrep& p) {
-  const auto n = static_cast<std::int64_t>(t.size());
-  const auto nu = t.size();
-  p.n = n;
-  p.constant = n == 0 || t[p.order.front()] == t[p.order.back()];
-  p.values.assign(t.begin(), t.end());
-  double sum = 0;
-  for (const double v : t) sum += v;
-  const double mean = n > 0 ? sum / static_cast<double>(n) : 0.0;
-  p.centred.resize(nu);
-  p.ss = 0;
-  for (std::size_t i = 0; i < nu; ++i) {
-    p.centred[i] = t[i] - mean;
-    p.ss += p.centred[i] * p.centred[i];
-  }
-  p.rank_centred.resize(nu);
-  p.rank_ss = 0;
-  for (std::size_t a = 0; a < nu;) {
-    std::size_t b = a;
-    while (b + 1 < nu && t[p.order[b + 1]] == t[p.order[a]]) ++b;
-    const double rc = (static_cast<double>(a + b + 1) - static_cast<double>(n)) / 2;
-    for (std::size_t i = a; i <= b; ++i) {
-      p.rank_centred[p.order[i]] = rc;
-      p.rank_ss += rc * rc;
-    }
-    a = b + 1;
-  }
-  p.sorted.resize(nu);
-  p.run_start.resize(nu);
-  std::uint32_t start = 0;
-  for (std::size_t i = 0; i < nu; ++i) {
-    p.sorted[i] = t[p.order[i]];
-    if (i > 0 && p.sorted[i] != p.sorted[i - 1]) start = static_cast<std::uint32_t>(i);
-    p.run_start[p.order[i]] = start;
-  }
-  p.inv_sd = p.constant ? 0.0 : 1 / std::sqrt(p.ss / static_cast<double>(n));
-}
-
-std::vector<std::uint32_t> stable_order(std::span<const double> v) {
-  std::vector<std::uint32_t> order(v.size());
-  std::iota(order.begin(), order.end(), std::uint32_t{0});
-  std::stable_sort(order.begin(), order.end(), [&](std::uint32_t a, std::uint32_t b) { return v[a] < v[b]; });
-  return order;
-}
-
 // The points of the kNN estimator, sorted both ways (see ksg()). Buffers reused from feature to
 // feature (one set per thread).
 // kPad values on either side of each array, so the walk can take kChunk steps without checking
@@ -539,8 +485,10 @@ double ksg_estimate(KsgData& d, int k) {
   return ksg(d, k, [&] { return DynamicBest(storage, k); });
 }
 
+}  // namespace
+
 // Per-thread buffers for one feature at a time.
-struct Scratch {
+struct internal::TargetScorer::Buffers {
   std::vector<std::uint64_t> keys, buffer;
   std::vector<double> x_values;
   KsgData ksg;
@@ -551,12 +499,9 @@ struct Scratch {
   TargetPrep sub;
 };
 
-struct Result {
-  double pearson_r = 0, pearson_p = 1, spearman_rho = 0, spearman_p = 1, mi = 0, variance = 0,
-         missing_rate = 0;
-  std::uint8_t flags = 0;
-  std::uint8_t defined = 0;
-};
+namespace {
+
+using Scratch = internal::TargetScorer::Buffers;
 
 // Sxy / √(Sxx·Syy), clipped to [−1, 1]: one square root (so exactly linear data give ±1), or two
 // when the product would overflow or underflow.
@@ -569,20 +514,23 @@ double correlation(double sxy, double sxx, double syy) {
 }
 
 // The scores of the values x[0..t.n-1] (no NaN, not constant) against the prepared target (not
-// constant).
-void score_values(const float* x, const TargetPrep& t, bool finite, int k, Scratch& s, Result& r) {
+// constant), those `w` asks for.
+void score_values(const float* x, const TargetPrep& t, bool finite, int k, const TargetWanted& w, Scratch& s,
+                  TargetResult& r) {
   const std::int64_t n = t.n;
   const auto nu = static_cast<std::size_t>(n);
   const double dn = static_cast<double>(n);
-  // Sorted by x, equal x in target order: the keys pushed in target order, then a stable sort.
-  s.keys.resize(nu);
-  for (std::size_t i = 0; i < nu; ++i) {
-    const std::uint32_t row = t.order[i];
-    s.keys[i] = static_cast<std::uint64_t>(order_key(x[row])) << 32 | row;
+  const bool mi = w.mi && finite && n > k;
+  if (w.spearman || mi) {
+    // Sorted by x, equal x in target order: the keys pushed in target order, then a stable sort.
+    s.keys.resize(nu);
+    for (std::size_t i = 0; i < nu; ++i) {
+      const std::uint32_t row = t.order[i];
+      s.keys[i] = static_cast<std::uint64_t>(order_key(x[row])) << 32 | row;
+    }
+    sort_keys(s.keys, s.buffer);
   }
-  sort_keys(s.keys, s.buffer);
-
-  if (n >= 3) {
+  if (w.spearman && n >= 3) {
     // Spearman: the centred average rank of a run at sorted positions a..b is (a+b+1−n)/2.
     double sxy = 0, sxx = 0;
     for (std::size_t a = 0; a < nu;) {
@@ -596,10 +544,10 @@ void score_values(const float* x, const TargetPrep& t, bool finite, int k, Scrat
       a = b + 1;
     }
     r.spearman_rho = correlation(sxy, sxx, t.rank_ss);
-    r.spearman_p = correlation_p(r.spearman_rho, n);
+    if (w.p) r.spearman_p = correlation_p(r.spearman_rho, n);
     r.defined |= defined_bit(Criterion::kSpearman);
   }
-  if (!finite) return;
+  if (!finite || !(w.pearson || mi)) return;
 
   // Pearson in two passes; Sxx also gives the MI's scale of x.
   double sum = 0;
@@ -611,12 +559,12 @@ void score_values(const float* x, const TargetPrep& t, bool finite, int k, Scrat
     sxx += d * d;
     sxt += d * t.centred[i];
   }
-  if (n >= 3) {
+  if (w.pearson && n >= 3) {
     r.pearson_r = correlation(sxt, sxx, t.ss);
-    r.pearson_p = correlation_p(r.pearson_r, n);
+    if (w.p) r.pearson_p = correlation_p(r.pearson_r, n);
     r.defined |= defined_bit(Criterion::kPearson);
   }
-  if (n > k) {
+  if (mi) {
     s.x_values.resize(nu);
     for (std::size_t i = 0; i < nu; ++i) s.x_values[i] = static_cast<double>(x[i]);
     s.ksg.row.resize(nu);
@@ -627,9 +575,10 @@ void score_values(const float* x, const TargetPrep& t, bool finite, int k, Scrat
   }
 }
 
-Result score_one(const float* column, std::int64_t n_rows, const TargetPrep& full,
-                 std::span<const double> target, int k, Scratch& s, const ColumnStats* known) {
-  Result r;
+TargetResult score_one(const float* column, std::int64_t n_rows, const TargetPrep& full,
+                       std::span<const double> target, int k, Scratch& s, const ColumnStats* known,
+                       const TargetWanted& w) {
+  TargetResult r;
   const ColumnStats stats =
       known ? *known : column_stats(std::span<const float>(column, static_cast<std::size_t>(n_rows)));
   r.variance = stats.n >= 2 ? stats.variance : 0.0;
@@ -642,7 +591,7 @@ Result score_one(const float* column, std::int64_t n_rows, const TargetPrep& ful
   }
   const bool finite = std::isfinite(stats.min) && std::isfinite(stats.max);
   if (stats.missing == 0) {
-    if (!full.constant) score_values(column, full, finite, k, s, r);
+    if (!full.constant) score_values(column, full, finite, k, w, s, r);
     return r;
   }
   // Gaps: the observed rows renumbered 0..m-1, and the target prepared on them, its order taken
@@ -664,11 +613,35 @@ Result score_one(const float* column, std::int64_t n_rows, const TargetPrep& ful
   for (const std::uint32_t row : full.order)
     if (s.compact[row] >= 0) s.sub.order.push_back(static_cast<std::uint32_t>(s.compact[row]));
   prepare_target(s.t_sub, s.sub);
-  if (!s.sub.constant) score_values(s.x_sub.data(), s.sub, finite, k, s, r);
+  if (!s.sub.constant) score_values(s.x_sub.data(), s.sub, finite, k, w, s, r);
   return r;
 }
 
 }  // namespace
+
+namespace internal {
+
+TargetWanted target_wanted_for(Criterion c, bool test) {
+  TargetWanted w;
+  w.pearson = c == Criterion::kPearson;
+  w.spearman = c == Criterion::kSpearman || (c == Criterion::kMi && test);
+  w.mi = c == Criterion::kMi;
+  w.p = test;
+  return w;
+}
+
+TargetScorer::TargetScorer() : buffers_(std::make_unique<Buffers>()) {}
+TargetScorer::~TargetScorer() = default;
+TargetScorer::TargetScorer(TargetScorer&&) noexcept = default;
+TargetScorer& TargetScorer::operator=(TargetScorer&&) noexcept = default;
+
+TargetResult TargetScorer::score(const float* column, std::int64_t n_rows, const TargetPrep& prep,
+                                 std::span<const double> target, int k, const ColumnStats* known,
+                                 const TargetWanted& wanted) {
+  return score_one(column, n_rows, prep, target, k, *buffers_, known, wanted);
+}
+
+}  // namespace internal
 
 std::vector<double> average_ranks(std::span<const double> x) {
   const std::vector<std::uint32_t> order = stable_order(x);
@@ -740,17 +713,16 @@ FeatureScores score_against_target(const ConstMatrixRef& m, std::span<const std:
   prepare_target(target, full);
 
   const std::size_t p = features.size();
-  std::vector<Result> results(p);
+  std::vector<internal::TargetResult> results(p);
   std::exception_ptr failure;  // an exception must not leave an OpenMP region
   const int threads = internal::thread_count(options.threads);
-  std::vector<Scratch> scratch(static_cast<std::size_t>(threads));
+  std::vector<internal::TargetScorer> scratch(static_cast<std::size_t>(threads));
   ProgressStep progress("scoring", static_cast<std::int64_t>(p), "features");
   internal::for_each_column(m, features, threads, [&](std::size_t j) {
     progress.add(1);
     try {
-      results[j] = score_one(m.col(features[j]).data(), m.rows(), full, target, options.neighbors,
-                             scratch[static_cast<std::size_t>(omp_get_thread_num())],
-                             stats.empty() ? nullptr : &stats[j]);
+      results[j] = scratch[static_cast<std::size_t>(omp_get_thread_num())].score(
+          m.col(features[j]).data(), m.rows(), full, target, options.neighbors, stats.empty() ? nullptr : &stats[j]);
     } catch (...) {
 #pragma omp critical(pare_target_score_failure)
       if (!failure) failure = std::current_exception();
@@ -766,13 +738,13 @@ FeatureScores score_against_target(const ConstMatrixRef& m, std::span<const std:
     for (std::size_t j = 0; j < p; ++j) v[j] = results[j].*member;
     return v;
   };
-  out.mi = take(&Result::mi);
-  out.pearson_r = take(&Result::pearson_r);
-  out.pearson_p = take(&Result::pearson_p);
-  out.spearman_rho = take(&Result::spearman_rho);
-  out.spearman_p = take(&Result::spearman_p);
-  out.variance = take(&Result::variance);
-  out.missing_rate = take(&Result::missing_rate);
+  out.mi = take(&internal::TargetResult::mi);
+  out.pearson_r = take(&internal::TargetResult::pearson_r);
+  out.pearson_p = take(&internal::TargetResult::pearson_p);
+  out.spearman_rho = take(&internal::TargetResult::spearman_rho);
+  out.spearman_p = take(&internal::TargetResult::spearman_p);
+  out.variance = take(&internal::TargetResult::variance);
+  out.missing_rate = take(&internal::TargetResult::missing_rate);
   out.flags.resize(p);
   out.defined.resize(p);
   for (std::size_t j = 0; j < p; ++j) {

@@ -30,6 +30,16 @@ void set_progress_listener(ProgressListener* listener);
 
 /// A long step being reported, from its construction to its destruction (library side). add()
 /// may be called from any thread.
+/// While one lives, the ProgressSteps started on its thread report nothing: the inner steps of work
+/// that reports for itself (the pruning of each stability subset, run side by side).
+class QuietProgress {
+ public:
+  QuietProgress();
+  ~QuietProgress();
+  QuietProgress(const QuietProgress&) = delete;
+  QuietProgress& operator=(const QuietProgress&) = delete;
+};
+
 class ProgressStep {
  public:
   ProgressStep(std::string_view step, std::int64_t total, std::string_view unit);

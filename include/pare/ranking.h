@@ -157,11 +157,13 @@ bool criterion_defined(const FeatureScores& s, Criterion c, std::size_t i);
 
 /// ranking.tsv for the positions `order` (rank = position in `order` + 1). `info_names` /
 /// `info` (FeatureTable::feature_info_names / feature_info, [column][feature]) are written as
-/// columns right after `feature`.
+/// columns right after `feature`; `stability` (one per entry of `order`, stability selection), if
+/// given, as the last column.
 std::string ranking_tsv(const FeatureScores& scores, std::span<const std::size_t> order,
                         const std::vector<std::string>& feature_names, bool with_counts,
                         const std::vector<std::string>& info_names = {},
-                        const std::vector<std::vector<std::string>>& info = {});
+                        const std::vector<std::vector<std::string>>& info = {},
+                        std::span<const double> stability = {});
 
 /// The flags as text, comma-separated (empty when none).
 std::string score_flag_names(std::uint8_t flags);

@@ -4,6 +4,7 @@
 
 #include <cstdint>      // std::int64_t
 #include <functional>   // std::function
+#include <optional>     // std::optional
 #include <span>         // std::span
 #include <string_view>  // std::string_view
 #include <string>   // std::string
@@ -12,6 +13,7 @@
 #include "pare/matrix.h"
 #include "pare/prune.h"
 #include "pare/ranking.h"
+#include "pare/stability.h"
 #include "pare/stats.h"
 
 namespace pare {
@@ -41,6 +43,9 @@ struct ReduceOptions {
   std::int64_t keep = 0;             ///< keep the first K (0 = all survivors)
   int threads = 0;
   std::int64_t memory_budget = 0;    ///< bytes the pruning's kept set may use (0 = no limit)
+  /// With resamples > 0, steps 6-7 become stability selection (select_stable): keep is then q,
+  /// the features each subset keeps, and --fdr applies within each subset.
+  StabilityOptions stability;
 };
 
 /// Checks the option values (ranges, combinations) without any data, so a mistake shows before a
@@ -64,13 +69,14 @@ enum class Step : std::uint8_t {
   kTransform,   ///< 3. log2(x + 1)
   kVariance,    ///< 4. variance filter
   kRelevance,   ///< 5. ranking (and the --fdr cut)
+  kStability,   ///< stability selection (--resamples): kept in too few subsets
   kRedundancy,  ///< 6. correlation pruning
   kTop,         ///< 7. the first K
   kProject,     ///< 8. truncated PCA / SVD
 };
 
 /// The step's name as the outputs write it: read, missing, impute, transform, variance,
-/// relevance, redundancy, top, project.
+/// relevance, stability, redundancy, top, project.
 const char* step_name(Step step);
 
 /// What a step did: features in and out, and its wall time.
@@ -114,6 +120,7 @@ struct Reduction : Selection {
   std::vector<std::int64_t> score_of; ///< per input feature: position in `scores`, or -1
   bool supervised = false;
   Criterion criterion = Criterion::kVariance;
+  std::optional<StabilityRecord> stability;  ///< with options.stability.resamples > 0
 };
 
 /// The steps, each a plain function of the table, the options and the reduction so far; reduce()
@@ -128,6 +135,7 @@ void filter_variance(const FeatureTable& table, const ReduceOptions& options, Re
 void rank_relevance(const FeatureTable& table, const ReduceOptions& options, Reduction& r);   ///< 5
 void prune_redundant(FeatureTable& table, const ReduceOptions& options, Reduction& r);        ///< 6
 void take_top(FeatureTable& table, const ReduceOptions& options, Reduction& r);               ///< 7
+// With options.stability.resamples > 0, select_stable (pare/stability.h) takes the place of 6 and 7.
 
 /// The column operations the steps apply, shared with apply_plan and the sample screen so that a
 /// replay computes every value the same way.

@@ -125,6 +125,10 @@ std::string target_text(const FeatureTable& table);
 /// "  classes: ...\n" or "  target: ...\n" for the summaries ("" without either).
 std::string response_line(const FeatureTable& table);
 
+/// What stability selection did, in two lines for a person: the subsets, how many features were
+/// kept often enough, `kept` after pruning, and the bound on false selections.
+std::string stability_text(const StabilityRecord& stability, std::int64_t kept);
+
 /// `dir`/`name`, or just `name` when dir is ".".
 std::string join_path(const std::string& dir, const std::string& name);
 

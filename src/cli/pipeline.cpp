@@ -58,13 +58,20 @@ PipelineResult reduce_and_write(const InputOptions& input, const CommonOptions& 
   return result;
 }
 
-void add_reduce_options(po::options_description& desc, ReduceOptions& o, std::string& impute, std::string& rank_by,
-                        std::string& estimator, bool& no_missing, bool& no_variance, bool& no_prune) {
+// The reduce options as the command line gives them, before finish_reduce_options reads them into
+// ReduceOptions.
+struct ReduceWords {
+  std::string impute, rank_by, estimator, scheme;
+  bool no_missing = false, no_variance = false, no_prune = false;
+};
+
+void add_reduce_options(po::options_description& desc, ReduceOptions& o, ReduceWords& w) {
+  StabilityOptions& st = o.stability;
   desc.add_options()
       ("drop-missing-above", po::value(&o.drop_missing_above)->default_value(0.2, "0.2")->value_name("FRACTION"),
        "1. drop features missing in more than this fraction of the samples")
-      ("no-missing-filter", po::bool_switch(&no_missing), "1. skip step 1")
-      ("impute", po::value(&impute)->default_value("mean")->value_name("HOW"),
+      ("no-missing-filter", po::bool_switch(&w.no_missing), "1. skip step 1")
+      ("impute", po::value(&w.impute)->default_value("mean")->value_name("HOW"),
        "2. fill gaps with the feature's mean, median or zero")
       ("log2", po::bool_switch(&o.log2), "3. transform values to log2(x + 1)")
       ("scale", po::bool_switch(&o.scale), "3. z-score the kept features in the output")
@@ -72,33 +79,43 @@ void add_reduce_options(po::options_description& desc, ReduceOptions& o, std::st
        "4. drop features with variance below V")
       ("drop-low-variance", po::value(&o.drop_low_variance)->default_value(0.0, "0")->value_name("FRACTION"),
        "4. also drop this lowest fraction by variance")
-      ("no-variance-filter", po::bool_switch(&no_variance), "4. skip step 4")
-      ("rank-by", po::value(&rank_by)->value_name("CRITERION"),
+      ("no-variance-filter", po::bool_switch(&w.no_variance), "4. skip step 4")
+      ("rank-by", po::value(&w.rank_by)->value_name("CRITERION"),
        "5. classes: mi (the default), chi2, chi2-counts, f or variance; a target: spearman (the "
        "default), pearson, mi or variance")
       ("fdr", po::value(&o.fdr)->default_value(1.0, "1")->value_name("Q"),
        "5. keep features with q <= Q for the ranking test")
       ("bins", po::value(&o.score.bins)->default_value(10)->value_name("B"), "5. equal-frequency bins for mi and chi2")
-      ("mi-estimator", po::value(&estimator)->default_value("binned")->value_name("E"), "5. binned or knn")
+      ("mi-estimator", po::value(&w.estimator)->default_value("binned")->value_name("E"), "5. binned or knn")
       ("neighbors", po::value(&o.score.neighbors)->default_value(3)->value_name("k"),
        "5. k of the knn estimator (for a target, mi is always the knn estimate)")
       ("max-corr", po::value(&o.max_corr)->default_value(0.9, "0.9")->value_name("R"),
        "6. drop a feature whose |r| with a kept one is above R")
-      ("no-prune", po::bool_switch(&no_prune), "6. skip step 6")
-      ("keep", po::value(&o.keep)->default_value(0)->value_name("K"), "7. keep the first K survivors (0 = all)");
+      ("no-prune", po::bool_switch(&w.no_prune), "6. skip step 6")
+      ("keep", po::value(&o.keep)->default_value(0)->value_name("K"), "7. keep the first K survivors (0 = all)")
+      ("resamples", po::value(&st.resamples)->default_value(0)->value_name("B"),
+       "5-7. stability selection: run steps 5-7 on B random subsets of the samples and keep the features "
+       "kept often enough (0 = off; --keep is then what each subset keeps, and --fdr applies in each)")
+      ("resample-fraction", po::value(&st.fraction)->default_value(0.5, "0.5")->value_name("F"),
+       "5-7. the fraction of the samples in each subset (stratified)")
+      ("min-stability", po::value(&st.min_stability)->default_value(0.6, "0.6")->value_name("PI"),
+       "5-7. keep features kept in at least this fraction of the subsets, in (0.5, 1]")
+      ("resample-scheme", po::value(&w.scheme)->default_value("halves")->value_name("S"),
+       "5-7. halves (independent subsets) or pairs (each subset with its complement)");
 }
 
-void finish_reduce_options(ReduceOptions& o, const std::string& impute, const std::string& rank_by,
-                           const std::string& estimator, bool no_missing, bool no_variance, bool no_prune,
-                           const CommonOptions& common, const InputOptions& input) {
-  o.impute = parse_impute(impute);
-  o.rank_by = parse_criterion(rank_by.empty() ? (input.has_target() ? "spearman" : "mi") : rank_by);
+void finish_reduce_options(ReduceOptions& o, const ReduceWords& w, const CommonOptions& common,
+                           const InputOptions& input) {
+  o.impute = parse_impute(w.impute);
+  o.rank_by = parse_criterion(w.rank_by.empty() ? (input.has_target() ? "spearman" : "mi") : w.rank_by);
   if (input.has_response()) require_criterion_fits(o.rank_by, input.has_target());
-  if (estimator == "knn") o.score.mi = MiEstimator::kKnn;
-  else if (estimator != "binned") throw_usage_error("--mi-estimator " + estimator + " is not binned or knn");
-  o.missing_filter = !no_missing;
-  o.variance_filter = !no_variance;
-  o.prune = !no_prune;
+  if (w.estimator == "knn") o.score.mi = MiEstimator::kKnn;
+  else if (w.estimator != "binned") throw_usage_error("--mi-estimator " + w.estimator + " is not binned or knn");
+  o.stability.scheme = parse_resample_scheme(w.scheme);
+  o.stability.seed = common.seed;
+  o.missing_filter = !w.no_missing;
+  o.variance_filter = !w.no_variance;
+  o.prune = !w.no_prune;
   o.threads = common.threads;
   check_reduce_options(o);
 }
@@ -117,8 +134,7 @@ int command_reduce(const std::vector<std::string>& args, std::ostream& out) {
   InputOptions input;
   PipelineOptions pipeline;
   ReduceOptions& options = pipeline.reduce;
-  std::string impute, rank_by, estimator;
-  bool no_missing = false, no_variance = false, no_prune = false;
+  ReduceWords words;
   po::options_description desc(
       "pare reduce DATA [--label COLUMN | --labels SHEET[:COLUMN] | --target COLUMN | --targets SHEET[:COLUMN]]\n"
       "            --out DIR [options]\n\n"
@@ -129,7 +145,7 @@ int command_reduce(const std::vector<std::string>& args, std::ostream& out) {
       "and report.html (plots; open it in a browser).\n\nthe steps, in order",
       100, 50);
   bool no_center = false;
-  add_reduce_options(desc, options, impute, rank_by, estimator, no_missing, no_variance, no_prune);
+  add_reduce_options(desc, options, words);
   add_projection_options(desc, pipeline.projection, no_center, false);
   desc.add_options()("drop-outliers", po::bool_switch(&pipeline.drop_outliers),
                      "remove the samples flagged as outliers (samples.tsv) before step 1");
@@ -138,7 +154,7 @@ int command_reduce(const std::vector<std::string>& args, std::ostream& out) {
   add_common_options(desc, common, "pare-reduce");
   if (!parse_command_line(args, desc, {{"data", &input.data}}, out)) return 0;
   // Every option is checked before the data is read (a large file takes minutes).
-  finish_reduce_options(options, impute, rank_by, estimator, no_missing, no_variance, no_prune, common, input);
+  finish_reduce_options(options, words, common, input);
   if (options.fdr < 1 && !input.has_response())
     throw_usage_error("--fdr filters on a test against the labels, and no labels were given",
                       "give --label COLUMN, --labels SHEET, --target COLUMN or --targets SHEET, or leave out --fdr");
@@ -190,8 +206,8 @@ int command_folds(const std::vector<std::string>& args, std::ostream& out) {
   PipelineOptions pipeline;
   FoldOptions folds;
   ReduceOptions& options = pipeline.reduce;
-  std::string impute, rank_by, estimator;
-  bool no_missing = false, no_variance = false, no_prune = false, no_center = false;
+  ReduceWords words;
+  bool no_center = false;
   po::options_description desc(
       "pare folds DATA (--label COLUMN | --labels SHEET[:COLUMN] | --target COLUMN | --targets SHEET[:COLUMN])\n"
       "           --folds K [--repeats R] [--groups COLUMN] --out DIR [reduce options]\n\n"
@@ -210,7 +226,7 @@ int command_folds(const std::vector<std::string>& args, std::ostream& out) {
        "keep samples sharing a value of this column in one fold (a patient, batch or site): a column of "
        "the sample sheet, or a --sample-info column");
   po::options_description steps("the steps of each reduction, in order", 100, 50);
-  add_reduce_options(steps, options, impute, rank_by, estimator, no_missing, no_variance, no_prune);
+  add_reduce_options(steps, options, words);
   add_projection_options(steps, pipeline.projection, no_center, false);
   steps.add_options()("drop-outliers", po::bool_switch(&pipeline.drop_outliers),
                       "remove the training samples flagged as outliers before step 1");
@@ -225,7 +241,7 @@ int command_folds(const std::vector<std::string>& args, std::ostream& out) {
     throw_usage_error("folds needs class labels or a target: the folds are stratified by it and each split "
                       "selects against it",
                       "give --label COLUMN, --labels SHEET, --target COLUMN or --targets SHEET");
-  finish_reduce_options(options, impute, rank_by, estimator, no_missing, no_variance, no_prune, common, input);
+  finish_reduce_options(options, words, common, input);
   pipeline.projection.center = !no_center;
   pipeline.projection.scale = options.scale;
   check_projection_options(pipeline.projection, false);

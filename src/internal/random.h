@@ -4,6 +4,8 @@
 
 #include <cmath>    // std::log, std::sqrt, std::cos
 #include <cstdint>  // std::uint64_t
+#include <utility>  // std::swap
+#include <vector>   // std::vector
 
 namespace pare::internal {
 
@@ -64,5 +66,11 @@ class Rng {
   double spare_ = 0;
   bool has_spare_ = false;
 };
+
+/// Fisher–Yates shuffle from the back, drawing from `rng`.
+template <typename T>
+void shuffle(std::vector<T>& v, Rng& rng) {
+  for (std::size_t i = v.size(); i > 1; --i) std::swap(v[i - 1], v[rng.below(i)]);
+}
 
 }  // namespace pare::internal
