@@ -116,6 +116,34 @@ ReportHistogram variance_histogram(const Reduction& r, const ReduceOptions& o, b
   return var;
 }
 
+// Stability selection: how often each ranked feature was kept, with the cut at PI.
+ReportHistogram stability_histogram(const Reduction& r) {
+  const StabilityRecord& st = *r.stability;
+  const auto B = static_cast<double>(st.options.resamples);
+  ReportHistogram h;
+  h.id = "stability";
+  h.title = "Stability of every ranked feature";
+  h.axis = "fraction of the " + count(st.options.resamples) + " subsets that kept it";
+  h.lo = 0;
+  h.hi = 1;
+  h.bin_width = 0.05;
+  h.cut_keeps_equal_above = true;
+  h.dropped_label = "below the minimum stability";
+  h.kept_label = "stable";
+  for (std::size_t j = 0; j < r.decisions.size(); ++j) {
+    const Decision& dec = r.decisions[j];
+    if (!dec.kept && (dec.step == Step::kMissing || dec.step == Step::kVariance)) continue;
+    h.values.push_back(st.kept_in[j] / B);
+    h.dropped.push_back(!dec.kept && dec.step == Step::kStability);
+  }
+  h.cuts.push_back({st.options.min_stability, "min stability " + g(st.options.min_stability)});
+  h.caption = count(st.p) + " features ranked, each subset keeping " + count(st.q) + "; " + count(st.selected) +
+              " kept in at least " + g(st.options.min_stability) +
+              " of the subsets. Expected false selections among them at most " + g(st.bound) +
+              " (q² / ((2·PI − 1)·p), Meinshausen & Bühlmann 2010).";
+  return h;
+}
+
 // Without labels (or with ranking off): the kept features as they come, and with ranking by
 // variance the curve of every feature that reached the ranking.
 void add_unsupervised_ranking(ReportData& d, const FeatureTable& t, const Reduction& r,
@@ -208,6 +236,7 @@ void add_reduction(ReportData& d, const FeatureTable& t, const Reduction& r, con
   d.histograms.push_back(missing_histogram(r, o, selection));
   d.histograms.push_back(variance_histogram(r, o, selection));
   if (!selection) return;
+  if (r.stability) d.histograms.push_back(stability_histogram(r));
   // The leading features (as ranking.tsv writes them), the score curve and the p-values.
   if (r.supervised && o.relevance) {
     const std::vector<std::size_t> order = rank_order(r.scores, r.criterion);

@@ -353,6 +353,32 @@ void demo_folds(const InputOptions& input, const CommonOptions& common, Pipeline
   if (!common.quiet) out << cli_words(folds_summary(loaded, result, folds_common.out));
 }
 
+// Then stability selection: the selection run again on 100 random halves of the samples, keeping
+// the transcripts chosen in at least 60% of them.
+void demo_stability(const InputOptions& input, const std::string& truth, const CommonOptions& common,
+                    PipelineOptions pipeline, std::ostream& out) {
+  CommonOptions stability_common = common;
+  stability_common.out = join_path(common.out, "stability");
+  pipeline.projection.components = 0;
+  pipeline.reduce.keep = 50;
+  pipeline.reduce.stability.resamples = 100;
+  const std::vector<std::string> command_line{"pare", "reduce", input.data, "--layout", "rows=features", "--labels",
+                                              input.labels, "--log2", "--max-corr", "0.9", "--keep", "50",
+                                              "--resamples", "100", "--out", stability_common.out};
+  InputOptions plain = input;
+  plain.mark_by.clear();
+  if (!common.quiet)
+    out << "\nStability selection: the same steps on 100 random halves of the samples, each keeping 50; a "
+           "transcript is selected when kept in at least 60% of the halves.\n";
+  LoadedData loaded;
+  const PipelineResult run = reduce_and_write(plain, stability_common, pipeline, command_line, out, &loaded);
+  const DemoRecovery d = evaluate_demo(truth, loaded.table, run.reduction);
+  if (!common.quiet)
+    out << "  selected " << d.kept << ": " << d.kept_planted << " planted informative transcripts and "
+        << d.kept - d.kept_planted << " others (" << d.informative_kept << " of the " << d.informative
+        << " planted)\n";
+}
+
 int demo_reduce(const std::string& data, const std::string& samples, const std::string& truth,
                 const CommonOptions& common, std::ostream& out) {
   InputOptions input;
@@ -384,6 +410,7 @@ int demo_reduce(const std::string& data, const std::string& samples, const std::
     out << "\nreport: " << join_path(reduce_common.out, "report.html") << " (open it in a browser)\n";
   }
   demo_folds(input, common, pipeline, out);
+  demo_stability(input, truth, common, pipeline, out);
   return 0;
 }
 
