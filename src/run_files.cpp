@@ -249,7 +249,11 @@ std::string stability_text(const StabilityRecord& st, std::int64_t kept) {
          " features kept in at least " + percent(o.min_stability) + " of them, " + thousands(kept) +
          " after pruning on all samples\nexpected false selections among them at most " + bound +
          " (q^2 / ((2 PI - 1) p) with q " + thousands(st.q) + ", PI " + short_number(o.min_stability) + ", p " +
-         thousands(st.p) + " features ranked; Meinshausen & Buhlmann 2010)\n";
+         thousands(st.p) + " features ranked; Meinshausen & Buhlmann 2010)\n" +
+         (st.bound >= static_cast<double>(std::max<std::int64_t>(kept, 1))
+              ? "note: the bound is not below the number selected, so it rules out nothing here (lower `keep` "
+                "or raise `min_stability`)\n"
+              : "");
 }
 
 std::string left_out_summary(const SamplesLeftOut& left, std::int64_t samples_read, std::int64_t samples_used,
