@@ -139,7 +139,7 @@ void run_pipeline(FeatureTable& table, const PipelineOptions& options, PipelineR
     reduce_options.stability.resamples = 0;
   }
   reduce_options.threads = options.threads;
-  reduce_options.stability.seed = options.seed;
+  reduce_options.seed = options.seed;
   reduce_options.memory_budget = options.memory.bytes;
   screen_step(table, options, result);
   if (table.has_labels() && reduce_options.relevance) require_two_classes(table);

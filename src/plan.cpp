@@ -155,15 +155,39 @@ std::string plan_json(const FeatureTable& t, const PipelineResult& result, const
                        {"groups", s.groups},         {"held_out", s.held_out},
                        {"training_samples", s.training_samples}};
   }
+  if (run.subsample > 0) samples["subsample"] = {{"asked", run.subsample}, {"ids", run.subsample_ids}};
   plan["samples"] = samples;
   plan["parameters"] = internal::parameters_section(o, r);
+  if (o.balance != Balance::kNone) {
+    json balance = {{"method", "smallest"}};
+    if (r.stability) {
+      balance["scored_samples"] = "each subset down-sampled on its own";
+    } else {
+      json ids = json::array();
+      for (const std::int64_t i : r.scored_rows) ids.push_back(t.sample_ids[static_cast<std::size_t>(i)]);
+      balance["scored_samples"] = ids;
+    }
+    plan["balance"] = balance;
+  }
+  if (result.balanced) {
+    const PipelineResult::Balanced& b = *result.balanced;
+    json per_class = json::object();
+    for (const auto& [name, count] : b.per_class) per_class[name] = count;
+    plan["balance_export"] = {{"method", balance_export_name(result.options.balance_export)},
+                              {"file", b.file},
+                              {"samples_file", "balanced-samples.tsv"},
+                              {"samples", b.samples},
+                              {"repeated", b.repeated},
+                              {"synthetic", b.synthetic},
+                              {"per_class", per_class}};
+  }
   if (r.stability) {
     const StabilityRecord& st = *r.stability;
     plan["stability"] = {{"resamples", st.options.resamples},
                          {"resample_fraction", st.options.fraction},
                          {"resample_scheme", resample_scheme_name(st.options.scheme)},
                          {"min_stability", st.options.min_stability},
-                         {"seed", st.options.seed},
+                         {"seed", st.seed},
                          {"subset_samples", {{"min", st.subset_samples_min}, {"max", st.subset_samples_max}}},
                          {"q", st.q},
                          {"p", st.p},

@@ -204,7 +204,7 @@ std::vector<double> bonferroni_adjust(std::span<const double> p) {
 
 FeatureScores score_features(const ConstMatrixRef& m, std::span<const std::int64_t> features,
                              const ClassCodes& classes, const ScoreOptions& options,
-                             std::span<const ColumnStats> stats) {
+                             std::span<const ColumnStats> stats, std::span<const std::int64_t> rows) {
   const int k = static_cast<int>(classes.classes.size());
   if (k < 2)
     throw Error(ErrorKind::kInput,
@@ -226,12 +226,23 @@ FeatureScores score_features(const ConstMatrixRef& m, std::span<const std::int64
   const int threads = internal::thread_count(options.threads);
   std::vector<internal::ClassScratch> scratch(static_cast<std::size_t>(threads));
   ProgressStep progress("scoring", static_cast<std::int64_t>(p), "features");
+  std::vector<int> row_codes;
+  for (const std::int64_t i : rows) row_codes.push_back(classes.codes[static_cast<std::size_t>(i)]);
   internal::for_each_column(m, features, threads, [&](std::size_t j) {
     progress.add(1);
     try {
-      results[j] = internal::score_class_column(m.col(features[j]).data(), m.rows(), classes.codes, k, options,
-                             scratch[static_cast<std::size_t>(omp_get_thread_num())],
-                             stats.empty() ? nullptr : &stats[j]);
+      internal::ClassScratch& s = scratch[static_cast<std::size_t>(omp_get_thread_num())];
+      const float* column = m.col(features[j]).data();
+      if (!rows.empty()) {
+        std::vector<float>& x = s.gathered;
+        x.resize(rows.size());
+        for (std::size_t i = 0; i < rows.size(); ++i) x[i] = column[rows[i]];
+        results[j] = internal::score_class_column(x.data(), static_cast<std::int64_t>(x.size()), row_codes, k, options,
+                                                  s, nullptr);
+        return;
+      }
+      results[j] = internal::score_class_column(column, m.rows(), classes.codes, k, options, s,
+                                                stats.empty() ? nullptr : &stats[j]);
     } catch (...) {
 #pragma omp critical(pare_score_failure)
       if (!failure) failure = std::current_exception();

@@ -73,6 +73,9 @@ void check_reduce_options(const ReduceOptions& o) {
   if (o.score.neighbors < 1) throw_usage_error("`neighbors` must be 1 or more");
   if (o.threads < 0) throw_usage_error("`threads` must be 0 (all cores) or more");
   check_stability_options(o.stability, o.keep);
+  if (o.balance != Balance::kNone && o.rank_by == Criterion::kVariance)
+    throw_usage_error("`balance` balances the classes for the scores, and variance uses no classes",
+                      "rank by mi, chi2, chi2-counts or f, or leave out `balance`");
   if (o.fdr < 1 && o.rank_by == Criterion::kVariance)
     throw_usage_error("`fdr` needs a criterion with a test, and variance has none",
                       "rank by a criterion with a test (mi, chi2, chi2-counts or f for classes; spearman, pearson or "
@@ -183,6 +186,8 @@ Reduction start_reduction(const FeatureTable& t, const ReduceOptions& o) {
   r.supervised = o.relevance && (t.has_labels() || t.has_target());
   r.criterion = r.supervised ? o.rank_by : Criterion::kVariance;
   if (r.supervised) require_criterion_fits(o.rank_by, t.has_target());
+  if (o.balance != Balance::kNone && t.has_target())
+    throw_usage_error("`balance` down-samples classes, and a continuous target has none");
   return r;
 }
 
@@ -303,8 +308,11 @@ void rank_relevance(const FeatureTable& t, const ReduceOptions& o, Reduction& r)
     so.counts_chi2 = o.rank_by == Criterion::kChi2Counts;
     std::vector<ColumnStats> alive_stats(r.alive.size());
     for (std::size_t a = 0; a < r.alive.size(); ++a) alive_stats[a] = r.stats[static_cast<std::size_t>(r.alive[a])];
+    if (o.balance == Balance::kSmallest && t.has_labels())
+      r.scored_rows = balance_rows(t.labels, {}, o.seed, kBalanceStream);
     r.scores = t.has_target() ? score_against_target(t.values, r.alive, t.target, so, alive_stats)
-                              : score_features(t.values, r.alive, encode_classes(t.labels), so, alive_stats);
+                              : score_features(t.values, r.alive, encode_classes(t.labels), so, alive_stats,
+                                               r.scored_rows);
     require_some_scored(r.scores, r.criterion, t.source);
     std::vector<std::int64_t> ordered;
     for (const std::size_t pos : rank_order(r.scores, r.criterion)) {

@@ -3,6 +3,8 @@
 #include <algorithm>   // std::min
 #include <filesystem>  // std::filesystem::equivalent, std::filesystem::path
 #include <future>      // std::async
+#include <map>         // std::map
+#include <numeric>     // std::iota
 #include <sstream>     // std::ostringstream, std::istringstream
 
 #include "internal/format.h"
@@ -163,6 +165,45 @@ std::string apply_summary(const Plan& plan, const FeatureTable& data, const Appl
   return out + "\n";
 }
 
+namespace {
+
+// balanced.csv (the reduced matrix's format) and balanced-samples.tsv (sample, label, origin).
+PipelineResult::Balanced write_balanced(OutputSet& files, const FeatureTable& t, const Reduction& r,
+                                        const std::vector<std::string>& names, const PipelineOptions& options) {
+  const BalancedSamples b = balanced_samples(t, r.kept, options.balance_export, options.seed);
+  FeatureTable bt;
+  bt.values.resize(b.values.rows(), b.values.cols());
+  bt.values = b.values;
+  bt.sample_ids = b.ids;
+  bt.layout = t.layout;
+  bt.delimiter = t.delimiter;
+  bt.id_name = t.id_name;
+  std::vector<std::int64_t> columns(names.size());
+  std::iota(columns.begin(), columns.end(), 0);
+  PipelineResult::Balanced record;
+  record.file = t.delimiter == '\t' ? "balanced.tsv" : "balanced.csv";
+  OutputFile& file = files.open(record.file);
+  file.write_direct();
+  write_reduced_matrix(bt, columns, names, [&](std::string_view piece) { file.write(piece); });
+  std::string text = "sample\t" + (t.label_name.empty() ? std::string("label") : t.label_name) + "\torigin\n";
+  std::map<std::string, std::int64_t> per_class;
+  for (std::size_t i = 0; i < b.ids.size(); ++i) {
+    for (const std::string* field : {&b.ids[i], &b.labels[i], &b.origin[i]}) {
+      internal::append_field(text, *field, '\t');
+      text += field == &b.origin[i] ? '\n' : '\t';
+    }
+    ++per_class[b.labels[i]];
+    record.repeated += b.origin[i].rfind("repeat of ", 0) == 0;
+    record.synthetic += b.origin[i].rfind("between ", 0) == 0;
+  }
+  files.add("balanced-samples.tsv", text);
+  record.samples = static_cast<std::int64_t>(b.ids.size());
+  record.per_class.assign(per_class.begin(), per_class.end());
+  return record;
+}
+
+}  // namespace
+
 PipelineResult reduce_to_folder(FeatureTable& table, const PipelineOptions& options, const RunRecord& run,
                                 const std::string& dir) {
   OutputSet files(dir, input_paths(run));
@@ -197,6 +238,7 @@ PipelineResult reduce_to_folder(FeatureTable& table, const PipelineOptions& opti
     OutputFile& reduced = files.open(reduced_file_name(t.delimiter));
     reduced.write_direct();
     write_reduced_matrix(t, r.kept, names, [&](std::string_view piece) { reduced.write(piece); });
+    if (options.balance_export != BalanceExport::kNone) result.balanced = write_balanced(files, t, r, names, options);
   };
   run_pipeline(table, options, result, run.read_seconds, selection_done);
   PlanProjection written;
@@ -257,7 +299,7 @@ std::string stability_text(const StabilityRecord& st, std::int64_t kept) {
 }
 
 std::string left_out_summary(const SamplesLeftOut& left, std::int64_t samples_read, std::int64_t samples_used,
-                             const std::string& sample_list) {
+                             const std::string& sample_list, double subsample) {
   if (left.empty() && samples_used == samples_read) return "";
   std::string out = "  samples: " + thousands(samples_used) + " of " + thousands(samples_read) + " used";
   std::string why;
@@ -272,6 +314,9 @@ std::string left_out_summary(const SamplesLeftOut& left, std::int64_t samples_re
     for (std::size_t k = 0; k < left.small_classes.size(); ++k) why += (k ? ", " : "") + left.small_classes[k];
     why += ")";
   }
+  if (subsample > 0)
+    why += (why.empty() ? "" : "; then ") + std::string("a stratified random subset, `subsample` ") +
+           short_number(subsample);
   return out + (why.empty() ? "" : " (" + why + "; plan.json lists the ids left out)") + "\n";
 }
 
@@ -307,8 +352,11 @@ std::string reduce_summary(const FeatureTable& table, const PipelineResult& resu
         << criterion_name(r.criterion);
   out << "\n";
   out << left_out_summary(run.left_out, run.samples_read, static_cast<std::int64_t>(result.samples.ids.size()),
-                          run.sample_list_path);
+                          run.sample_list_path, run.subsample);
   if (r.supervised) out << response_line(table);
+  if (!r.scored_rows.empty())
+    out << "  balanced: scored on " << thousands(static_cast<std::int64_t>(r.scored_rows.size()))
+        << " samples, every class down-sampled to the smallest (`balance` smallest)\n";
   std::vector<std::vector<std::string>> rows{{"step", "in", "out", "seconds"}};
   for (const auto& s : r.steps) {
     // Without selection only reading, filling and the PCA are shown.
@@ -345,7 +393,18 @@ std::string reduce_summary(const FeatureTable& table, const PipelineResult& resu
   out << "  wrote " << join_path(dir, "plan.json");
   if (select) out << ", ranking.tsv, selection-log.tsv, " << reduced_file_name(table.delimiter);
   if (result.projection) out << ", scores.csv, loadings.tsv, explained.tsv";
-  out << ", samples.tsv, report.html\n";
+  out << ", samples.tsv, report.html";
+  if (result.balanced) {
+    const PipelineResult::Balanced& b = *result.balanced;
+    out << "\n  wrote " << join_path(dir, b.file) << " for training (" << balance_export_name(result.options.balance_export) << "): "
+        << thousands(b.samples) << " samples,";
+    for (std::size_t c = 0; c < b.per_class.size(); ++c)
+      out << (c ? ", " : " ") << b.per_class[c].first << " " << thousands(b.per_class[c].second);
+    if (b.repeated > 0) out << "; " << thousands(b.repeated) << " repeats";
+    if (b.synthetic > 0) out << "; " << thousands(b.synthetic) << " synthetic";
+    out << " (balanced-samples.tsv says which); never use it to test a model";
+  }
+  out << "\n";
   return out.str();
 }
 

@@ -34,7 +34,6 @@ namespace {
 // Stream of subset b (or pair b/2): "ST" and the draw, apart from the folds' and the projection's.
 constexpr std::uint64_t kStabilityStream = 0x53540000;
 constexpr std::size_t kBatchBytes = std::size_t{256} << 20;
-constexpr std::size_t kTargetBlock = 10;  // samples per stratum of a continuous target
 
 std::string g3(double v) {
   std::string out;
@@ -78,87 +77,18 @@ double stability_bound(std::int64_t q, std::int64_t p, double min_stability) {
   return dq * dq / ((2 * min_stability - 1) * static_cast<double>(p));
 }
 
-std::vector<std::vector<std::int64_t>> resample_strata(const FeatureTable& t) {
-  const auto n = static_cast<std::size_t>(t.n_samples());
-  std::vector<std::vector<std::int64_t>> strata;
-  if (t.has_labels()) {
-    const ClassCodes codes = encode_classes(t.labels);
-    strata.resize(codes.classes.size());
-    for (std::size_t i = 0; i < n; ++i) strata[static_cast<std::size_t>(codes.codes[i])].push_back(static_cast<std::int64_t>(i));
-  } else if (t.has_target()) {
-    std::vector<std::int64_t> order(n);
-    std::iota(order.begin(), order.end(), 0);
-    std::stable_sort(order.begin(), order.end(), [&](std::int64_t a, std::int64_t b) {
-      return t.target[static_cast<std::size_t>(a)] < t.target[static_cast<std::size_t>(b)];
-    });
-    for (std::size_t start = 0; start < n; start += kTargetBlock) {
-      strata.emplace_back(order.begin() + static_cast<std::ptrdiff_t>(start),
-                          order.begin() + static_cast<std::ptrdiff_t>(std::min(n, start + kTargetBlock)));
-      std::sort(strata.back().begin(), strata.back().end());
-    }
-  } else {
-    strata.emplace_back(n);
-    std::iota(strata.back().begin(), strata.back().end(), 0);
-  }
-  std::erase_if(strata, [](const auto& s) { return s.empty(); });
-  return strata;
-}
-
-namespace {
-
-// How many of each stratum a subset of `fraction` takes: floor(fraction·s), plus one for the strata
-// with the largest remainders until the total is round(fraction·n); at least one from a stratum of 2
-// or more (taken, when need be, from the strata with the most to spare).
-std::vector<std::int64_t> stratum_counts(const std::vector<std::vector<std::int64_t>>& strata, double fraction) {
-  std::int64_t n = 0;
-  for (const auto& s : strata) n += static_cast<std::int64_t>(s.size());
-  const auto total = static_cast<std::int64_t>(std::llround(fraction * static_cast<double>(n)));
-  std::vector<std::int64_t> take(strata.size());
-  std::vector<double> rest(strata.size());
-  std::int64_t sum = 0;
-  for (std::size_t c = 0; c < strata.size(); ++c) {
-    const double exact = fraction * static_cast<double>(strata[c].size());
-    take[c] = static_cast<std::int64_t>(std::floor(exact));
-    rest[c] = exact - static_cast<double>(take[c]);
-    sum += take[c];
-  }
-  std::vector<std::size_t> by_rest(strata.size());
-  std::iota(by_rest.begin(), by_rest.end(), std::size_t{0});
-  std::stable_sort(by_rest.begin(), by_rest.end(), [&](std::size_t a, std::size_t b) { return rest[a] > rest[b]; });
-  for (std::size_t i = 0; sum < total && i < by_rest.size(); ++i) {
-    if (take[by_rest[i]] < static_cast<std::int64_t>(strata[by_rest[i]].size())) {
-      ++take[by_rest[i]];
-      ++sum;
-    }
-  }
-  for (std::size_t c = 0; c < strata.size(); ++c)
-    if (take[c] == 0 && strata[c].size() >= 2) take[c] = 1;
-  return take;
-}
-
-}  // namespace
-
-std::vector<std::vector<std::int64_t>> draw_resamples(const FeatureTable& t, const StabilityOptions& o) {
-  const std::vector<std::vector<std::int64_t>> strata = resample_strata(t);
+std::vector<std::vector<std::int64_t>> draw_resamples(const FeatureTable& t, const StabilityOptions& o,
+                                                     std::uint64_t seed) {
+  const std::vector<std::vector<std::int64_t>> strata = sample_strata(t);
   std::vector<std::vector<std::int64_t>> subsets;
   subsets.reserve(static_cast<std::size_t>(o.resamples));
   if (o.scheme == ResampleScheme::kHalves) {
-    const std::vector<std::int64_t> take = stratum_counts(strata, o.fraction);
-    for (std::int64_t b = 0; b < o.resamples; ++b) {
-      internal::Rng rng(o.seed, kStabilityStream + static_cast<std::uint64_t>(b) + 1);
-      std::vector<std::int64_t> rows;
-      for (std::size_t c = 0; c < strata.size(); ++c) {
-        std::vector<std::int64_t> members = strata[c];
-        internal::shuffle(members, rng);
-        rows.insert(rows.end(), members.begin(), members.begin() + static_cast<std::ptrdiff_t>(take[c]));
-      }
-      std::sort(rows.begin(), rows.end());
-      subsets.push_back(std::move(rows));
-    }
+    for (std::int64_t b = 0; b < o.resamples; ++b)
+      subsets.push_back(stratified_rows(strata, o.fraction, seed, kStabilityStream + static_cast<std::uint64_t>(b) + 1));
     return subsets;
   }
   for (std::int64_t pair = 0; pair < o.resamples / 2; ++pair) {
-    internal::Rng rng(o.seed, kStabilityStream + static_cast<std::uint64_t>(pair) + 1);
+    internal::Rng rng(seed, kStabilityStream + static_cast<std::uint64_t>(pair) + 1);
     std::vector<std::int64_t> half[2];
     for (const auto& stratum : strata) {
       std::vector<std::int64_t> members = stratum;
@@ -240,13 +170,14 @@ void select_stable(FeatureTable& t, const ReduceOptions& o, Reduction& r) {
   // samples (r.alive's order).
   std::vector<std::int64_t> scored = r.alive;
   std::sort(scored.begin(), scored.end());
-  const std::vector<std::vector<std::int64_t>> subsets = draw_resamples(t, so);
+  const std::vector<std::vector<std::int64_t>> subsets = draw_resamples(t, so, o.seed);
   std::vector<float> fill(r.decisions.size(), 0.0f);
   for (const std::int64_t j : scored)
     fill[static_cast<std::size_t>(j)] = transform_value(r.fill[static_cast<std::size_t>(j)], o.log2);
 
   StabilityRecord rec;
   rec.options = so;
+  rec.seed = o.seed;
   rec.q = o.keep;
   rec.p = static_cast<std::int64_t>(in);
   rec.bound = stability_bound(rec.q, rec.p, so.min_stability);
@@ -268,7 +199,13 @@ void select_stable(FeatureTable& t, const ReduceOptions& o, Reduction& r) {
   ProgressStep progress("stability", so.resamples, "subsets");
   for (std::size_t first = 0; first < subsets.size(); first += batch) {
     const std::size_t count = std::min(batch, subsets.size() - first);
-    const std::span<const std::vector<std::int64_t>> these(subsets.data() + first, count);
+    std::span<const std::vector<std::int64_t>> these(subsets.data() + first, count);
+    std::vector<std::vector<std::int64_t>> balanced;
+    if (o.balance == Balance::kSmallest && t.has_labels()) {
+      for (std::size_t b = 0; b < count; ++b)
+        balanced.push_back(balance_rows(t.labels, these[b], o.seed, kBalanceStream + 1 + first + b));
+      these = balanced;
+    }
     const SubsetScores scores = score_subsets(t.values, scored, t, these, r.criterion, test, score_options);
     std::vector<std::vector<std::int64_t>> kept(count);
     std::exception_ptr failure;  // an exception must not leave an OpenMP region

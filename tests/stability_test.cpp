@@ -126,8 +126,7 @@ TEST_CASE("stability: each subset's scores are the scorers' on its rows alone, b
   std::iota(features.begin(), features.end(), 0);
   pare::StabilityOptions so;
   so.resamples = 4;
-  so.seed = 3;
-  const auto subsets = pare::draw_resamples(t, so);
+  const auto subsets = pare::draw_resamples(t, so, 3);
   pare::ScoreOptions options;
   options.threads = 2;
   for (const pare::Criterion c : {pare::Criterion::kMi, pare::Criterion::kChi2, pare::Criterion::kF,
@@ -148,7 +147,7 @@ TEST_CASE("stability: each subset's scores are the scorers' on its rows alone, b
       u.target.push_back(v);
     }
     u.labels.clear();
-    const auto target_subsets = pare::draw_resamples(u, so);
+    const auto target_subsets = pare::draw_resamples(u, so, 3);
     for (const pare::Criterion c : {pare::Criterion::kPearson, pare::Criterion::kSpearman, pare::Criterion::kMi})
       require_same_scores(u, features, target_subsets, c, options);
   }
@@ -163,7 +162,7 @@ TEST_CASE("stability: subsets are stratified, seeded, and pairs are complementar
   pare::StabilityOptions so;
   so.resamples = 20;
   so.fraction = 0.3;
-  const auto halves = pare::draw_resamples(t, so);
+  const auto halves = pare::draw_resamples(t, so, 1);
   REQUIRE(halves.size() == 20);
   for (const auto& rows : halves) {
     // round(0.3 x 569) = 171: 63.6 of 212 and 107.1 of 357, so 64 and 107 (largest remainder)
@@ -175,14 +174,13 @@ TEST_CASE("stability: subsets are stratified, seeded, and pairs are complementar
     CHECK(first == 64);
   }
   CHECK(halves[0] != halves[1]);
-  CHECK(pare::draw_resamples(t, so) == halves);
-  so.seed = 2;
-  CHECK(pare::draw_resamples(t, so) != halves);
+  CHECK(pare::draw_resamples(t, so, 1) == halves);
+  CHECK(pare::draw_resamples(t, so, 2) != halves);
 
   so.scheme = pare::ResampleScheme::kPairs;
   so.fraction = 0.5;
   so.resamples = 6;
-  const auto pairs = pare::draw_resamples(t, so);
+  const auto pairs = pare::draw_resamples(t, so, 1);
   REQUIRE(pairs.size() == 6);
   for (std::size_t b = 0; b < pairs.size(); b += 2) {
     std::vector<std::int64_t> both = pairs[b];

@@ -14,6 +14,7 @@
 #include "pare/outliers.h"
 #include "pare/projection.h"
 #include "pare/reduce.h"
+#include "pare/sampling.h"
 
 namespace pare {
 
@@ -28,6 +29,9 @@ struct PipelineOptions {
     return none;
   }();                           ///< components 0 (the default): no projection
   bool drop_outliers = false;    ///< remove the samples the screen flags before step 1
+  /// Also write a class-balanced copy of the reduced matrix for training (reduce_to_folder:
+  /// balanced.csv and balanced-samples.tsv; balanced_samples). apply never balances.
+  BalanceExport balance_export = BalanceExport::kNone;
   std::uint64_t seed = 1;
   int threads = 0;
   MemoryBudget memory;           ///< for a copy of the kept columns when the table is on disk
@@ -50,6 +54,13 @@ struct PipelineResult {
   Reduction reduction;                   ///< steps: read, 1-7, and project when there is one
   std::optional<Projection> projection;  ///< loadings, centres and scales in the kept order
   bool projection_center = true, projection_scale = false;  ///< as asked (plan.json replays them)
+  /// With balance_export: the balanced set written (reduce_to_folder fills it).
+  struct Balanced {
+    std::string file;                                            ///< balanced.csv or balanced.tsv
+    std::vector<std::pair<std::string, std::int64_t>> per_class; ///< samples per class, classes in name order
+    std::int64_t samples = 0, repeated = 0, synthetic = 0;
+  };
+  std::optional<Balanced> balanced;
   SampleScreen screen;                   ///< of every input sample
   double screen_seconds = 0;
   RunSamples samples;

@@ -50,6 +50,8 @@ struct RunRecord {
   std::string mark_name;                  ///< the column samples are marked by in the report, or empty
   std::vector<std::string> marks;         ///< its value per sample used (or empty)
   std::optional<SplitRecord> split;       ///< a split of `pare folds`, or none
+  double subsample = 0;                   ///< --subsample as given (0: none)
+  std::vector<std::string> subsample_ids; ///< the samples it drew
 };
 
 /// Where a run's projection was written: plan.json names the loadings file and its SHA-256.

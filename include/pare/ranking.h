@@ -115,10 +115,11 @@ std::vector<double> bonferroni_adjust(std::span<const double> p);
 /// Scores the columns `features` of `m` against `classes` (one code per row of `m`), in parallel
 /// over features. Results do not depend on the thread count. Needs at least 2 classes. `stats`, if
 /// given, holds column_stats of each of the columns (one per entry of `features`), which the
-/// caller often has already; otherwise they are computed.
+/// caller often has already; otherwise they are computed. With `rows` (ascending), only those rows
+/// are scored, as if they were the whole matrix (`stats` is then ignored): the balanced scores.
 FeatureScores score_features(const ConstMatrixRef& m, std::span<const std::int64_t> features,
                              const ClassCodes& classes, const ScoreOptions& options,
-                             std::span<const ColumnStats> stats = {});
+                             std::span<const ColumnStats> stats = {}, std::span<const std::int64_t> rows = {});
 
 /// Scores the columns `features` of `m` against a continuous `target` (one finite value per row of
 /// `m`), in parallel over features, each on the rows where it is observed: Pearson r, Spearman rho

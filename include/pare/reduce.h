@@ -43,6 +43,10 @@ struct ReduceOptions {
   std::int64_t keep = 0;             ///< keep the first K (0 = all survivors)
   int threads = 0;
   std::int64_t memory_budget = 0;    ///< bytes the pruning's kept set may use (0 = no limit)
+  std::uint64_t seed = 1;            ///< of every random draw of the selection (subsets, balancing)
+  /// kSmallest: the scores (step 5, and each stability subset's) use every class down-sampled to
+  /// the smallest class's size (balance_rows); classes only.
+  Balance balance = Balance::kNone;
   /// With resamples > 0, steps 6-7 become stability selection (select_stable): keep is then q,
   /// the features each subset keeps, and --fdr applies within each subset.
   StabilityOptions stability;
@@ -121,6 +125,7 @@ struct Reduction : Selection {
   bool supervised = false;
   Criterion criterion = Criterion::kVariance;
   std::optional<StabilityRecord> stability;  ///< with options.stability.resamples > 0
+  std::vector<std::int64_t> scored_rows;     ///< with --balance: the rows step 5 scored (else all)
 };
 
 /// The steps, each a plain function of the table, the options and the reduction so far; reduce()

@@ -108,9 +108,9 @@ std::string reduce_summary(const FeatureTable& table, const PipelineResult& resu
                            const std::string& dir);
 
 /// The line on the samples used, when some were left out ("" when none were): how many of the
-/// file's, and why (a sample list, missing labels, small classes).
+/// file's, and why (a sample list, missing labels, small classes, a --subsample of that size).
 std::string left_out_summary(const SamplesLeftOut& left, std::int64_t samples_read, std::int64_t samples_used,
-                             const std::string& sample_list);
+                             const std::string& sample_list, double subsample = 0);
 
 /// The line on the sample screen: how many samples were flagged (and dropped), and which.
 std::string screen_summary(const SampleScreen& screen, const std::vector<std::string>& ids,

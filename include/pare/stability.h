@@ -11,6 +11,7 @@
 
 #include "pare/matrix.h"
 #include "pare/ranking.h"
+#include "pare/sampling.h"
 
 namespace pare {
 
@@ -32,26 +33,19 @@ struct StabilityOptions {
   double fraction = 0.5;         ///< of the samples in each subset, in (0, 1); pairs: 0.5
   double min_stability = 0.6;    ///< PI: a feature kept in at least this fraction is selected, in (0.5, 1]
   ResampleScheme scheme = ResampleScheme::kHalves;
-  std::uint64_t seed = 1;
 };
 
 /// Checks the values and that `keep` (q, the features kept per subset) is set. Throws
 /// Error(kUsage) naming the option.
 void check_stability_options(const StabilityOptions& options, std::int64_t keep);
 
-/// The strata the subsets are drawn within: the classes (in name order) when `table` has labels;
-/// for a continuous target, consecutive blocks of 10 samples in target order (ties in table order,
-/// the last block the rest); otherwise one stratum. Samples as row indices, ascending.
-std::vector<std::vector<std::int64_t>> resample_strata(const FeatureTable& table);
-
-/// The rows of each subset, ascending. Halves: subset b draws, from stream b of the seed, in each
-/// stratum of s samples floor(fraction·s) or one more, the extra ones going to the strata with the
-/// largest remainders (ties to the first), so a subset holds round(fraction·n) samples spread as
-/// the strata are; a stratum of 2 or more always gives at least one. Pairs (B even, fraction 0.5):
+/// The rows of each subset, ascending, within the strata of sample_strata. Halves: subset b is
+/// stratified_rows(strata, fraction) from its own stream of `seed`. Pairs (B even, fraction 0.5):
 /// pair b/2 shuffles each stratum and deals its samples alternately to the two halves, an odd
 /// stratum's last sample to the half that is smaller so far (the first on a tie), so the halves
 /// are disjoint, cover every sample and differ in size by at most one.
-std::vector<std::vector<std::int64_t>> draw_resamples(const FeatureTable& table, const StabilityOptions& options);
+std::vector<std::vector<std::int64_t>> draw_resamples(const FeatureTable& table, const StabilityOptions& options,
+                                                     std::uint64_t seed);
 
 /// The ranking criterion's score and q-value (Benjamini–Hochberg within the subset) of each of
 /// `features` on the rows of each subset, exactly as score_features / score_against_target on
@@ -69,6 +63,7 @@ SubsetScores score_subsets(const ConstMatrixRef& m, std::span<const std::int64_t
 /// What stability selection found (plan.json "stability", the summary).
 struct StabilityRecord {
   StabilityOptions options;
+  std::uint64_t seed = 1;             ///< of the draws (ReduceOptions::seed)
   std::int64_t q = 0;                 ///< features kept per subset (--keep)
   std::int64_t p = 0;                 ///< features entering relevance
   double bound = 0;                   ///< E[V] <= q² / ((2·PI − 1)·p)

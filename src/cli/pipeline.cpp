@@ -1,6 +1,7 @@
 #include "cli/pipeline.h"
 
 #include <algorithm>  // std::find
+#include <cmath>      // std::floor
 #include <cstdio>     // std::snprintf
 #include <utility>    // std::exchange
 
@@ -14,6 +15,8 @@
 #include "pare/projection.h"
 #include "pare/reduce.h"
 #include "pare/run_files.h"
+#include "pare/samples.h"
+#include "pare/sampling.h"
 
 namespace pare::cli {
 
@@ -37,18 +40,32 @@ void add_projection_options(po::options_description& desc, ProjectionOptions& o,
        (step + "Krylov blocks before giving up").c_str());
 }
 
-// Reads, reduces and writes; shared by `reduce`, `project` and `demo`.
+// Reads, reduces and writes; shared by `reduce`, `project` and `demo`. `subsample` (> 0): the run
+// uses a stratified random subset of the samples (subsample_rows).
 PipelineResult reduce_and_write(const InputOptions& input, const CommonOptions& common, PipelineOptions options,
                                 const std::vector<std::string>& command_line, std::ostream& out,
-                                LoadedData* kept = nullptr) {
+                                LoadedData* kept = nullptr, double subsample = 0) {
   const bool supervised = options.select && options.reduce.relevance && input.has_response();
   const DataRequest request = data_request(input, common, supervised);
   LoadedData loaded = load_data(request, common);
+  std::vector<std::string> drawn;
+  if (subsample > 0) {
+    const std::vector<std::int64_t> rows = subsample_rows(loaded.table, subsample, common.seed);
+    for (const std::int64_t i : rows) drawn.push_back(loaded.table.sample_ids[static_cast<std::size_t>(i)]);
+    if (!loaded.marks.empty()) {
+      std::vector<std::string> marks;
+      for (const std::int64_t i : rows) marks.push_back(loaded.marks[static_cast<std::size_t>(i)]);
+      loaded.marks = std::move(marks);
+    }
+    keep_samples(loaded.table, rows, request.read.memory);
+  }
   // (`project` selects nothing, so the note is only for `reduce`)
   if (!common.quiet && !loaded.table.has_labels() && !loaded.table.has_target() && options.select)
     out << "pare reduce: no labels given, so features are ranked by variance and the supervised steps "
            "(relevance, --fdr) are skipped\n";
-  const RunRecord record = run_record(request, loaded, command_line, common.seed);
+  RunRecord record = run_record(request, loaded, command_line, common.seed);
+  record.subsample = subsample;
+  record.subsample_ids = std::move(drawn);
   options.seed = common.seed;
   options.threads = common.threads;
   options.memory = request.read.memory;
@@ -61,7 +78,7 @@ PipelineResult reduce_and_write(const InputOptions& input, const CommonOptions& 
 // The reduce options as the command line gives them, before finish_reduce_options reads them into
 // ReduceOptions.
 struct ReduceWords {
-  std::string impute, rank_by, estimator, scheme;
+  std::string impute, rank_by, estimator, scheme, balance, balance_export;
   bool no_missing = false, no_variance = false, no_prune = false;
 };
 
@@ -101,7 +118,12 @@ void add_reduce_options(po::options_description& desc, ReduceOptions& o, ReduceW
       ("min-stability", po::value(&st.min_stability)->default_value(0.6, "0.6")->value_name("PI"),
        "5-7. keep features kept in at least this fraction of the subsets, in (0.5, 1]")
       ("resample-scheme", po::value(&w.scheme)->default_value("halves")->value_name("S"),
-       "5-7. halves (independent subsets) or pairs (each subset with its complement)");
+       "5-7. halves (independent subsets) or pairs (each subset with its complement)")
+      ("balance", po::value(&w.balance)->value_name("smallest"),
+       "5. score on every class down-sampled to the smallest class (seeded; in each subset with --resamples)")
+      ("balance-export", po::value(&w.balance_export)->value_name("HOW"),
+       "also write balanced.csv for training a model: smallest (down-sample), largest (repeat samples of "
+       "smaller classes) or smote (synthetic samples between neighbours); apply never balances");
 }
 
 void finish_reduce_options(ReduceOptions& o, const ReduceWords& w, const CommonOptions& common,
@@ -112,12 +134,27 @@ void finish_reduce_options(ReduceOptions& o, const ReduceWords& w, const CommonO
   if (w.estimator == "knn") o.score.mi = MiEstimator::kKnn;
   else if (w.estimator != "binned") throw_usage_error("--mi-estimator " + w.estimator + " is not binned or knn");
   o.stability.scheme = parse_resample_scheme(w.scheme);
-  o.stability.seed = common.seed;
+  o.seed = common.seed;
+  if (!w.balance.empty()) {
+    o.balance = parse_balance(w.balance);
+    if (o.balance != Balance::kNone && input.has_target())
+      throw_usage_error("--balance down-samples classes, and a continuous target has none");
+    if (o.balance != Balance::kNone && !input.has_response())
+      throw_usage_error("--balance needs class labels", "give --label COLUMN or --labels SHEET");
+  }
   o.missing_filter = !w.no_missing;
   o.variance_filter = !w.no_variance;
   o.prune = !w.no_prune;
   o.threads = common.threads;
   check_reduce_options(o);
+}
+
+void finish_balance_export(PipelineOptions& pipeline, const ReduceWords& w, const InputOptions& input) {
+  if (w.balance_export.empty()) return;
+  pipeline.balance_export = parse_balance_export(w.balance_export);
+  if (!input.has_response() || input.has_target())
+    throw_usage_error("--balance-export balances classes, so it needs class labels",
+                      "give --label COLUMN or --labels SHEET");
 }
 
 void check_projection_options(const ProjectionOptions& o, bool required) {
@@ -147,14 +184,20 @@ int command_reduce(const std::vector<std::string>& args, std::ostream& out) {
   bool no_center = false;
   add_reduce_options(desc, options, words);
   add_projection_options(desc, pipeline.projection, no_center, false);
+  double subsample = 0;
   desc.add_options()("drop-outliers", po::bool_switch(&pipeline.drop_outliers),
-                     "remove the samples flagged as outliers (samples.tsv) before step 1");
+                     "remove the samples flagged as outliers (samples.tsv) before step 1")
+      ("subsample", po::value(&subsample)->value_name("N|FRACTION"),
+       "use a stratified random subset of the samples for a quick pass: N samples, or a fraction in (0, 1)");
   add_input_options(desc, input);
   add_sample_options(desc, input, true);
   add_common_options(desc, common, "pare-reduce");
   if (!parse_command_line(args, desc, {{"data", &input.data}}, out)) return 0;
   // Every option is checked before the data is read (a large file takes minutes).
   finish_reduce_options(options, words, common, input);
+  finish_balance_export(pipeline, words, input);
+  if (subsample != 0 && !(subsample >= 2 && subsample == std::floor(subsample)) && !(subsample > 0 && subsample < 1))
+    throw_usage_error("--subsample must be a whole number of samples (2 or more) or a fraction between 0 and 1");
   if (options.fdr < 1 && !input.has_response())
     throw_usage_error("--fdr filters on a test against the labels, and no labels were given",
                       "give --label COLUMN, --labels SHEET, --target COLUMN or --targets SHEET, or leave out --fdr");
@@ -164,7 +207,7 @@ int command_reduce(const std::vector<std::string>& args, std::ostream& out) {
   check_input_options(input, common);
   std::vector<std::string> command_line{"pare", "reduce"};
   command_line.insert(command_line.end(), args.begin(), args.end());
-  reduce_and_write(input, common, pipeline, command_line, out);
+  reduce_and_write(input, common, pipeline, command_line, out, nullptr, subsample);
   return 0;
 }
 
@@ -242,6 +285,7 @@ int command_folds(const std::vector<std::string>& args, std::ostream& out) {
                       "selects against it",
                       "give --label COLUMN, --labels SHEET, --target COLUMN or --targets SHEET");
   finish_reduce_options(options, words, common, input);
+  finish_balance_export(pipeline, words, input);
   pipeline.projection.center = !no_center;
   pipeline.projection.scale = options.scale;
   check_projection_options(pipeline.projection, false);
