@@ -7,6 +7,7 @@
 #include <filesystem>     // std::filesystem::path
 #include <limits>         // std::numeric_limits
 #include <span>           // std::span
+#include <numeric>        // std::iota
 #include <unordered_map>  // std::unordered_map
 
 #include "internal/omp.h"
@@ -209,6 +210,15 @@ std::string plan_json(const FeatureTable& t, const PipelineResult& result, const
     spread.push_back(number_or_null(r.scale[k]));
   }
   plan["transform"] = {{"impute", impute_name(o.impute)}, {"log2", o.log2}, {"scale", o.scale}};
+  if (r.knn) {
+    // The nearest-neighbour fills of apply: the training values (samples x features, float32) of
+    // the features that passed the missing filter, transformed, in the reference file.
+    plan["transform"]["knn"] = {{"neighbors", r.knn->neighbors},
+                                {"reference", pp.impute_reference_file},
+                                {"reference_sha256", pp.impute_reference_sha256},
+                                {"samples", r.knn->values.rows()},
+                                {"features", r.knn->features}};
+  }
   plan["kept"] = {{"count", r.kept.size()},
                   {"names", names},
                   {"input_index", index},
@@ -241,6 +251,30 @@ T typed(const std::string& path, const json& value, const std::string& field, co
   } catch (const json::exception&) {
     bad_plan(path, "field " + field + " must be " + type_name);
   }
+}
+
+// The reference of transform.knn, its file's SHA-256 checked.
+std::shared_ptr<const KnnReference> load_knn_reference(const std::string& path, const json& knn) {
+  auto ref = std::make_shared<KnnReference>();
+  ref->neighbors = typed<int>(path, member(path, knn, "neighbors", "transform.knn"), "transform.knn.neighbors", "an integer");
+  ref->features = typed<std::vector<std::string>>(path, member(path, knn, "features", "transform.knn"),
+                                                  "transform.knn.features", "an array of strings");
+  const auto samples = typed<std::int64_t>(path, member(path, knn, "samples", "transform.knn"), "transform.knn.samples",
+                                           "an integer");
+  const auto file = typed<std::string>(path, member(path, knn, "reference", "transform.knn"), "transform.knn.reference",
+                                       "a file name");
+  const auto sha = typed<std::string>(path, member(path, knn, "reference_sha256", "transform.knn"),
+                                      "transform.knn.reference_sha256", "a string");
+  if (ref->neighbors < 1 || samples < 1) bad_plan(path, "transform.knn.neighbors and samples must be 1 or more");
+  if (file.empty() || file.find('/') != std::string::npos || file == "..")
+    bad_plan(path, "transform.knn.reference must be a file name next to plan.json");
+  const std::string reference_path = (std::filesystem::path(path).parent_path() / file).string();
+  const std::string actual = internal::sha256_file(reference_path);
+  if (actual != sha)
+    throw_input_error({reference_path}, "SHA-256 " + actual + " does not match the plan's " + sha,
+                      "the impute reference was changed after the plan was written; rerun pare reduce");
+  ref->values = read_knn_reference_npy(reference_path, samples, static_cast<std::int64_t>(ref->features.size()));
+  return ref;
 }
 
 }  // namespace
@@ -318,6 +352,7 @@ Plan load_plan(const std::string& path) {
     if (p.scale && (std::isnan(p.center[i]) || !(p.spread[i] > 0)))
       bad_plan(path, "kept.center and kept.scale must be numbers (scale > 0) for feature " + p.names[i]);
   }
+  if (const auto knn = transform.find("knn"); knn != transform.end()) p.knn = load_knn_reference(path, *knn);
   const auto projection = plan.find("projection");
   if (projection != plan.end() && !projection->is_null()) {
     const json& pj = *projection;
@@ -351,6 +386,45 @@ Plan load_plan(const std::string& path) {
   }
   return p;
 }
+
+namespace {
+
+// The kNN fills of the plan's kept features in `data`: its values of the reference features
+// (matched by name; absent ones missing), transformed as in training, against the training values.
+std::vector<CellFills> knn_apply_fills(const Plan& plan, const FeatureTable& data, int threads) {
+  const KnnReference& ref = *plan.knn;
+  std::unordered_map<std::string_view, std::int64_t> column_of;
+  for (std::int64_t j = 0; j < data.n_features(); ++j) column_of.emplace(data.feature_names[static_cast<std::size_t>(j)], j);
+  std::unordered_map<std::string_view, std::int64_t> position;
+  for (std::size_t c = 0; c < ref.features.size(); ++c) position.emplace(ref.features[c], static_cast<std::int64_t>(c));
+  const Eigen::Index n = data.values.rows();
+  Matrix x(n, static_cast<Eigen::Index>(ref.features.size()));
+  for (std::size_t c = 0; c < ref.features.size(); ++c) {
+    const auto it = column_of.find(ref.features[c]);
+    const std::span<float> y(x.col(static_cast<Eigen::Index>(c)).data(), static_cast<std::size_t>(n));
+    if (it == column_of.end()) {
+      std::fill(y.begin(), y.end(), std::numeric_limits<float>::quiet_NaN());
+      continue;
+    }
+    std::copy_n(data.values.col(it->second).data(), n, y.data());
+    for (float& v : y)
+      if (!std::isnan(v) && plan.log2 && v < 0) v = std::numeric_limits<float>::quiet_NaN();  // reported below
+    transform_column(y, plan.log2);
+  }
+  std::vector<std::int64_t> fill, own(ref.features.size());
+  std::iota(own.begin(), own.end(), std::int64_t{0});
+  std::vector<float> fallback;
+  for (std::size_t i = 0; i < plan.names.size(); ++i) {
+    const auto it = position.find(plan.names[i]);
+    if (it == position.end()) throw Error(ErrorKind::kInput, plan.path + ": kept feature " + plan.names[i] +
+                                                                 " is not in transform.knn.features");
+    fill.push_back(it->second);
+    fallback.push_back(transform_value(plan.fill[i], plan.log2));
+  }
+  return knn_fills(x, own, ref, fill, fill, fallback, false, threads);
+}
+
+}  // namespace
 
 FeatureTable apply_plan(const Plan& plan, const FeatureTable& data, bool allow_missing, ApplyReport& report,
                         int threads) {
@@ -424,6 +498,8 @@ FeatureTable apply_plan(const Plan& plan, const FeatureTable& data, bool allow_m
   report.filled.assign(k, 0);
   // The same column steps as the reduction: the transform, the gaps filled with the training
   // value, the training centre and scale.
+  // With --impute knn the gaps are first filled from the nearest training samples.
+  const std::vector<CellFills> knn = plan.knn ? knn_apply_fills(plan, data, threads) : std::vector<CellFills>();
 #pragma omp parallel for schedule(dynamic, 16) num_threads(internal::thread_count(threads))
   for (std::size_t i = 0; i < k; ++i) {
     const std::span<float> y(out.values.col(static_cast<Eigen::Index>(i)).data(), static_cast<std::size_t>(n));
@@ -432,7 +508,11 @@ FeatureTable apply_plan(const Plan& plan, const FeatureTable& data, bool allow_m
     else
       std::fill(y.begin(), y.end(), std::numeric_limits<float>::quiet_NaN());
     transform_column(y, plan.log2);
-    report.filled[i] = fill_column(y, plan.fill[i], plan.log2);
+    if (!knn.empty()) {
+      for (const auto& [row, value] : knn[i]) y[static_cast<std::size_t>(row)] = value;
+      report.filled[i] = static_cast<std::int64_t>(knn[i].size());
+    }
+    report.filled[i] += fill_column(y, plan.fill[i], plan.log2);
     if (plan.scale) standardise_column(y, plan.center[i], plan.spread[i]);
   }
   if (plan.log2)

@@ -48,11 +48,12 @@ Impute parse_impute(const std::string& name) {
   if (name == "mean") return Impute::kMean;
   if (name == "median") return Impute::kMedian;
   if (name == "zero") return Impute::kZero;
-  throw_usage_error("`impute` " + name + " is not one of mean, median, zero");
+  if (name == "knn") return Impute::kKnn;
+  throw_usage_error("`impute` " + name + " is not one of mean, median, zero, knn");
 }
 
 const char* impute_name(Impute i) {
-  return i == Impute::kMean ? "mean" : i == Impute::kMedian ? "median" : "zero";
+  return i == Impute::kMean ? "mean" : i == Impute::kMedian ? "median" : i == Impute::kKnn ? "knn" : "zero";
 }
 
 float transform_value(float x, bool log2) {
@@ -71,6 +72,7 @@ void check_reduce_options(const ReduceOptions& o) {
     throw_usage_error("`max_corr` must be above 0 and at most 1", "an |r| limit such as 0.9; `no_prune` skips the step");
   if (o.score.bins < 2) throw_usage_error("`bins` must be 2 or more");
   if (o.score.neighbors < 1) throw_usage_error("`neighbors` must be 1 or more");
+  if (o.impute_neighbors < 1) throw_usage_error("`impute_neighbors` must be 1 or more");
   if (o.threads < 0) throw_usage_error("`threads` must be 0 (all cores) or more");
   check_stability_options(o.stability, o.keep);
   if (o.balance != Balance::kNone && o.rank_by == Criterion::kVariance)
@@ -216,7 +218,7 @@ void learn_fill(const FeatureTable& t, const ReduceOptions& o, Reduction& r) {
     const std::int64_t j = r.alive[a];
     const ColumnStats& s = r.raw_stats[static_cast<std::size_t>(j)];
     float fill = 0.0f;
-    if (s.n > 0 && o.impute == Impute::kMean) fill = static_cast<float>(s.mean);
+    if (s.n > 0 && (o.impute == Impute::kMean || o.impute == Impute::kKnn)) fill = static_cast<float>(s.mean);
     if (s.n > 0 && o.impute == Impute::kMedian)
       fill = median_of_observed(t.values.col(j).data(), n, scratch[static_cast<std::size_t>(omp_get_thread_num())]);
     r.fill[static_cast<std::size_t>(j)] = fill;
@@ -342,7 +344,10 @@ void prune_redundant(FeatureTable& t, const ReduceOptions& o, Reduction& r) {
   const std::size_t in = r.alive.size();
   internal::for_each_column(t.values, r.alive, internal::thread_count(o.threads), [&](std::size_t a) {
     const std::int64_t j = r.alive[a];
-    fill_column(column_span(t, j), r.fill[static_cast<std::size_t>(j)], o.log2);
+    const std::span<float> x = column_span(t, j);
+    if (!r.cell_fills.empty())
+      for (const auto& [row, value] : r.cell_fills[static_cast<std::size_t>(j)]) x[static_cast<std::size_t>(row)] = value;
+    fill_column(x, r.fill[static_cast<std::size_t>(j)], o.log2);
   });
   if (o.prune) {
     const std::vector<std::int64_t> ordered = std::move(r.alive);
@@ -433,6 +438,39 @@ void take_top(FeatureTable& t, const ReduceOptions& o, Reduction& r) {
   r.steps.push_back({Step::kTop, in, static_cast<std::int64_t>(r.kept.size()), seconds});
 }
 
+void learn_knn_fills(const FeatureTable& t, const ReduceOptions& o, Reduction& r) {
+  if (o.impute != Impute::kKnn) return;
+  const auto start = std::chrono::steady_clock::now();
+  auto ref = std::make_shared<KnnReference>();
+  ref->neighbors = o.impute_neighbors;
+  std::vector<std::int64_t> distance;  // the features that passed the missing filter
+  for (std::size_t j = 0; j < r.decisions.size(); ++j)
+    if (r.decisions[j].kept || r.decisions[j].step != Step::kMissing) distance.push_back(static_cast<std::int64_t>(j));
+  const Eigen::Index n = t.values.rows();
+  ref->values.resize(n, static_cast<Eigen::Index>(distance.size()));
+  std::vector<std::int64_t> position(r.decisions.size(), -1);
+  for (std::size_t c = 0; c < distance.size(); ++c) {
+    ref->features.push_back(t.feature_names[static_cast<std::size_t>(distance[c])]);
+    ref->values.col(static_cast<Eigen::Index>(c)) = t.values.col(distance[c]);
+    position[static_cast<std::size_t>(distance[c])] = static_cast<std::int64_t>(c);
+  }
+  std::vector<std::int64_t> fill_feature;
+  std::vector<float> fallback;
+  for (const std::int64_t j : r.alive) {
+    fill_feature.push_back(position[static_cast<std::size_t>(j)]);
+    fallback.push_back(transform_value(r.fill[static_cast<std::size_t>(j)], o.log2));
+  }
+  std::vector<std::int64_t> own(distance.size());
+  std::iota(own.begin(), own.end(), std::int64_t{0});
+  std::vector<CellFills> fills = knn_fills(ref->values, own, *ref, fill_feature, fill_feature, fallback, true, o.threads);
+  r.cell_fills.assign(r.decisions.size(), {});
+  for (std::size_t a = 0; a < r.alive.size(); ++a) r.cell_fills[static_cast<std::size_t>(r.alive[a])] = std::move(fills[a]);
+  r.knn = std::move(ref);
+  const double seconds = std::chrono::duration<double>(std::chrono::steady_clock::now() - start).count();
+  for (StepRecord& s : r.steps)
+    if (s.step == Step::kImpute) s.seconds += seconds;
+}
+
 Reduction reduce(FeatureTable& t, const ReduceOptions& o) {
   Reduction r = start_reduction(t, o);
   filter_missing(t, o, r);
@@ -444,10 +482,12 @@ Reduction reduce(FeatureTable& t, const ReduceOptions& o) {
     ReduceOptions all_samples = o;
     all_samples.fdr = 1;
     rank_relevance(t, all_samples, r);
+    learn_knn_fills(t, o, r);
     select_stable(t, o, r);
     return r;
   }
   rank_relevance(t, o, r);
+  learn_knn_fills(t, o, r);
   prune_redundant(t, o, r);
   take_top(t, o, r);
   return r;

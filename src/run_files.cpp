@@ -242,6 +242,11 @@ PipelineResult reduce_to_folder(FeatureTable& table, const PipelineOptions& opti
   };
   run_pipeline(table, options, result, run.read_seconds, selection_done);
   PlanProjection written;
+  if (result.reduction.knn) {
+    const std::string bytes = knn_reference_npy(*result.reduction.knn);
+    written.impute_reference_sha256 = internal::sha256_hex(bytes);
+    files.add(written.impute_reference_file, bytes);
+  }
   if (result.projection) written = write_projection(files, table, result, names);
   if (ranking_text.valid()) files.add("ranking.tsv", ranking_text.get());
   if (log_text.valid()) files.add("selection-log.tsv", log_text.get());
@@ -393,6 +398,7 @@ std::string reduce_summary(const FeatureTable& table, const PipelineResult& resu
   out << "  wrote " << join_path(dir, "plan.json");
   if (select) out << ", ranking.tsv, selection-log.tsv, " << reduced_file_name(table.delimiter);
   if (result.projection) out << ", scores.csv, loadings.tsv, explained.tsv";
+  if (r.knn) out << ", impute-reference.npy";
   out << ", samples.tsv, report.html";
   if (result.balanced) {
     const PipelineResult::Balanced& b = *result.balanced;

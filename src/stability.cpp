@@ -110,7 +110,15 @@ namespace {
 // The features one subset keeps: `scored` (input indices, ascending) ranked by the subset's scores
 // (score descending, NaN last, ties in input order), cut at --fdr by the subset's q-values, pruned
 // for redundancy on the subset's rows and cut at q.
-std::vector<std::int64_t> select_in_subset(const FeatureTable& t, const ReduceOptions& o,
+// The fill of the gap in `row`: its kNN fill when there is one, else `fallback`.
+float cell_fill(const CellFills* cells, std::int64_t row, float fallback) {
+  if (cells == nullptr) return fallback;
+  const auto it = std::lower_bound(cells->begin(), cells->end(), row,
+                                   [](const auto& cell, std::int64_t r) { return cell.first < r; });
+  return it != cells->end() && it->first == row ? it->second : fallback;
+}
+
+std::vector<std::int64_t> select_in_subset(const FeatureTable& t, const ReduceOptions& o, const Reduction& r,
                                            std::span<const std::int64_t> scored, std::span<const std::int64_t> rows,
                                            const std::vector<double>& score, const std::vector<double>& q,
                                            const std::vector<float>& fill, bool test) {
@@ -143,9 +151,11 @@ std::vector<std::int64_t> select_in_subset(const FeatureTable& t, const ReduceOp
       const float* x = t.values.col(candidates[c]).data();
       const float f = fill[static_cast<std::size_t>(candidates[c])];
       float* to = block.col(static_cast<Eigen::Index>(c)).data();
+      const CellFills* cells = r.cell_fills.empty() ? nullptr : &r.cell_fills[static_cast<std::size_t>(candidates[c])];
       for (Eigen::Index i = 0; i < n; ++i) {
-        const float v = x[rows[static_cast<std::size_t>(i)]];
-        to[i] = std::isnan(v) ? f : v;
+        const std::int64_t row = rows[static_cast<std::size_t>(i)];
+        const float v = x[row];
+        to[i] = std::isnan(v) ? cell_fill(cells, row, f) : v;
       }
     }
     std::vector<std::int64_t> positions(width);
@@ -215,7 +225,7 @@ void select_stable(FeatureTable& t, const ReduceOptions& o, Reduction& r) {
 #pragma omp for schedule(dynamic, 1)
       for (std::size_t b = 0; b < count; ++b) {
         try {
-          kept[b] = select_in_subset(t, o, scored, these[b], scores.score[b], scores.q[b], fill, test);
+          kept[b] = select_in_subset(t, o, r, scored, these[b], scores.score[b], scores.q[b], fill, test);
         } catch (...) {
 #pragma omp critical(pare_stability_failure)
           if (!failure) failure = std::current_exception();

@@ -4,11 +4,13 @@
 
 #include <cstdint>  // std::int64_t, std::uint64_t
 #include <optional>  // std::optional
+#include <memory>   // std::shared_ptr
 #include <string>   // std::string
 #include <utility>  // std::pair
 #include <vector>   // std::vector
 
 #include "pare/io.h"
+#include "pare/impute.h"
 #include "pare/matrix.h"
 #include "pare/pipeline.h"
 #include "pare/projection.h"
@@ -58,6 +60,8 @@ struct RunRecord {
 struct PlanProjection {
   std::string loadings_file = "loadings.tsv";  ///< file name next to plan.json
   std::string loadings_sha256;
+  std::string impute_reference_file = "impute-reference.npy";  ///< --impute knn: the training values
+  std::string impute_reference_sha256;
 };
 
 /// A plan as loaded from plan.json.
@@ -79,6 +83,9 @@ struct Plan {
   std::int64_t components = 0;
   Eigen::VectorXd pca_center, pca_scale;
   Eigen::MatrixXd loadings;  ///< read from the loadings file, its SHA-256 checked
+  /// --impute knn: the training values gaps are filled from (read from the plan's reference file,
+  /// its SHA-256 checked); null otherwise.
+  std::shared_ptr<const KnnReference> knn;
 };
 
 /// The plan.json text of a finished run on `table` (as the run left it: names, delimiter, the

@@ -10,6 +10,7 @@
 #include <string>   // std::string
 #include <vector>   // std::vector
 
+#include "pare/impute.h"
 #include "pare/matrix.h"
 #include "pare/prune.h"
 #include "pare/ranking.h"
@@ -19,7 +20,8 @@
 namespace pare {
 
 /// How gaps are filled; the fill values are learned on the training data and kept in the plan.
-enum class Impute { kMean, kMedian, kZero };
+/// kKnn: each gap from its k nearest training samples (pare/impute.h), the mean as the fallback.
+enum class Impute { kMean, kMedian, kZero, kKnn };
 
 Impute parse_impute(const std::string& name);
 const char* impute_name(Impute i);
@@ -28,6 +30,7 @@ struct ReduceOptions {
   bool missing_filter = true;
   double drop_missing_above = 0.2;   ///< drop features whose missing rate is above this
   Impute impute = Impute::kMean;
+  int impute_neighbors = 5;          ///< k of --impute knn
   bool log2 = false;                 ///< log2(x + 1); negative input is an error
   bool scale = false;                ///< z-score the kept features (used by PCA and the output)
   bool variance_filter = true;
@@ -126,6 +129,10 @@ struct Reduction : Selection {
   Criterion criterion = Criterion::kVariance;
   std::optional<StabilityRecord> stability;  ///< with options.stability.resamples > 0
   std::vector<std::int64_t> scored_rows;     ///< with --balance: the rows step 5 scored (else all)
+  /// --impute knn: the training values the fills come from (written beside the plan), and per
+  /// input feature the fills of its gaps (learn_knn_fills; empty for features not filled).
+  std::shared_ptr<const KnnReference> knn;
+  std::vector<CellFills> cell_fills;
 };
 
 /// The steps, each a plain function of the table, the options and the reduction so far; reduce()
@@ -140,6 +147,9 @@ void filter_variance(const FeatureTable& table, const ReduceOptions& options, Re
 void rank_relevance(const FeatureTable& table, const ReduceOptions& options, Reduction& r);   ///< 5
 void prune_redundant(FeatureTable& table, const ReduceOptions& options, Reduction& r);        ///< 6
 void take_top(FeatureTable& table, const ReduceOptions& options, Reduction& r);               ///< 7
+/// With --impute knn, after step 5: the reference (the transformed values of the features that
+/// passed step 1) and the fills of the gaps of the features still in the running.
+void learn_knn_fills(const FeatureTable& table, const ReduceOptions& options, Reduction& r);
 // With options.stability.resamples > 0, select_stable (pare/stability.h) takes the place of 6 and 7.
 
 /// The column operations the steps apply, shared with apply_plan and the sample screen so that a

@@ -89,7 +89,9 @@ void add_reduce_options(po::options_description& desc, ReduceOptions& o, ReduceW
        "1. drop features missing in more than this fraction of the samples")
       ("no-missing-filter", po::bool_switch(&w.no_missing), "1. skip step 1")
       ("impute", po::value(&w.impute)->default_value("mean")->value_name("HOW"),
-       "2. fill gaps with the feature's mean, median or zero")
+       "2. fill gaps with the feature's mean, median or zero, or knn: the mean over the k nearest samples "
+       "that observe it (nan-Euclidean distance over the features that pass step 1)")
+      ("impute-neighbors", po::value(&o.impute_neighbors)->default_value(5)->value_name("k"), "2. k of --impute knn")
       ("log2", po::bool_switch(&o.log2), "3. transform values to log2(x + 1)")
       ("scale", po::bool_switch(&o.scale), "3. z-score the kept features in the output")
       ("min-variance", po::value(&o.min_variance)->default_value(1e-8, "1e-08")->value_name("V"),

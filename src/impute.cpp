@@ -1,0 +1,197 @@
+// Nearest-neighbour imputation (include/pare/impute.h).
+//
+// The distances of a block of rows to every reference row come from four matrix products over
+// chunks of the features, in double, with the values zero-filled and M the masks of observed
+// values: Σ_common (x − r)² = X²·M_Rᵀ + M_X·R²ᵀ − 2·X·Rᵀ, and the count of common features M_X·M_Rᵀ
+// (the expansion scikit-learn's nan_euclidean_distances uses). Each output row is one product of
+// a fixed 32-row slice, so the bits do not depend on the thread count. Per row, the reference rows
+// are sorted by distance once; each gap then takes the first k of them that observe its feature.
+#include "pare/impute.h"
+
+#include <algorithm>  // std::sort, std::min, std::max
+#include <cmath>      // std::isnan
+#include <cstring>    // std::memcpy
+#include <limits>     // std::numeric_limits
+
+#include <Eigen/Dense>
+
+#include "internal/omp.h"
+#include "pare/error.h"
+#include "pare/io.h"
+
+namespace pare {
+
+namespace {
+
+constexpr Eigen::Index kChunk = 256;      // features per product
+constexpr Eigen::Index kSlice = 32;       // rows per product
+constexpr std::size_t kBlockBytes = std::size_t{256} << 20;
+
+using MatD = Eigen::Matrix<double, Eigen::Dynamic, Eigen::Dynamic>;
+
+// Values (zero where missing), their squares and the mask of one side, features [c0, c0 + w).
+struct Side {
+  MatD v, v2, m;
+  void resize(Eigen::Index rows, Eigen::Index w) {
+    v.setZero(rows, w);
+    v2.setZero(rows, w);
+    m.setZero(rows, w);
+  }
+  void set(Eigen::Index i, Eigen::Index f, float value) {
+    if (std::isnan(value)) return;
+    const auto d = static_cast<double>(value);
+    v(i, f) = d;
+    v2(i, f) = d * d;
+    m(i, f) = 1;
+  }
+};
+
+}  // namespace
+
+std::vector<CellFills> knn_fills(const ConstMatrixRef& x, std::span<const std::int64_t> x_columns,
+                                 const KnnReference& ref, std::span<const std::int64_t> fill,
+                                 std::span<const std::int64_t> fill_feature, std::span<const float> fallback,
+                                 bool same_rows, int threads_asked) {
+  const Eigen::Index m = ref.values.rows();
+  const auto p = static_cast<Eigen::Index>(ref.features.size());
+  if (static_cast<Eigen::Index>(x_columns.size()) != p || ref.values.cols() != p || fill.size() != fill_feature.size() ||
+      fill.size() != fallback.size())
+    throw Error(ErrorKind::kOther, "internal: knn_fills needs one column per reference feature and one fallback per fill");
+  const int threads = internal::thread_count(threads_asked);
+  const auto k = static_cast<std::size_t>(std::max(1, ref.neighbors));
+  // The rows with a gap to fill, and the gaps of each (fill positions, ascending).
+  std::vector<std::int64_t> slot(static_cast<std::size_t>(x.rows()), -1);
+  std::vector<std::int64_t> receivers;
+  std::vector<std::vector<std::int32_t>> gaps;
+  for (std::size_t c = 0; c < fill.size(); ++c) {
+    const float* col = x.col(fill[c]).data();
+    for (Eigen::Index i = 0; i < x.rows(); ++i) {
+      if (!std::isnan(col[i])) continue;
+      if (slot[static_cast<std::size_t>(i)] < 0) {
+        slot[static_cast<std::size_t>(i)] = static_cast<std::int64_t>(gaps.size());
+        gaps.emplace_back();
+        receivers.push_back(i);
+      }
+      gaps[static_cast<std::size_t>(slot[static_cast<std::size_t>(i)])].push_back(static_cast<std::int32_t>(c));
+    }
+  }
+  // Receivers in row order, so each column's fills come out with rows ascending.
+  std::vector<std::size_t> by_row(receivers.size());
+  for (std::size_t r = 0; r < by_row.size(); ++r) by_row[r] = r;
+  std::sort(by_row.begin(), by_row.end(), [&](std::size_t a, std::size_t b) { return receivers[a] < receivers[b]; });
+
+  std::vector<CellFills> out(fill.size());
+  const auto block = static_cast<Eigen::Index>(
+      std::max<std::size_t>(kSlice, kBlockBytes / (16 * static_cast<std::size_t>(std::max<Eigen::Index>(m, 1)))));
+  std::vector<std::vector<std::pair<std::int32_t, float>>> found;
+  Side r_side, x_side;
+  for (std::size_t first = 0; first < by_row.size(); first += static_cast<std::size_t>(block)) {
+    const auto b = static_cast<Eigen::Index>(std::min<std::size_t>(static_cast<std::size_t>(block), by_row.size() - first));
+    MatD d = MatD::Zero(b, m), common = MatD::Zero(b, m);
+    for (Eigen::Index c0 = 0; c0 < p; c0 += kChunk) {
+      const Eigen::Index w = std::min(kChunk, p - c0);
+      r_side.resize(m, w);
+      x_side.resize(b, w);
+      for (Eigen::Index f = 0; f < w; ++f) {
+        for (Eigen::Index s = 0; s < m; ++s) r_side.set(s, f, ref.values(s, c0 + f));
+        const std::int64_t xc = x_columns[static_cast<std::size_t>(c0 + f)];
+        if (xc < 0) continue;
+        const float* col = x.col(xc).data();
+        for (Eigen::Index i = 0; i < b; ++i) x_side.set(i, f, col[receivers[by_row[first + static_cast<std::size_t>(i)]]]);
+      }
+      const Eigen::Index slices = (b + kSlice - 1) / kSlice;
+#pragma omp parallel for schedule(dynamic, 1) num_threads(threads)
+      for (Eigen::Index s = 0; s < slices; ++s) {
+        const Eigen::Index at = s * kSlice, h = std::min(kSlice, b - at);
+        d.middleRows(at, h).noalias() += x_side.v2.middleRows(at, h) * r_side.m.transpose();
+        d.middleRows(at, h).noalias() += x_side.m.middleRows(at, h) * r_side.v2.transpose();
+        d.middleRows(at, h).noalias() -= 2.0 * (x_side.v.middleRows(at, h) * r_side.v.transpose());
+        common.middleRows(at, h).noalias() += x_side.m.middleRows(at, h) * r_side.m.transpose();
+      }
+    }
+    found.assign(static_cast<std::size_t>(b), {});
+#pragma omp parallel num_threads(threads)
+    {
+      std::vector<std::pair<double, std::int64_t>> order;
+#pragma omp for schedule(dynamic, 4)
+      for (Eigen::Index i = 0; i < b; ++i) {
+        const std::size_t r = by_row[first + static_cast<std::size_t>(i)];
+        const std::int64_t row = receivers[r];
+        order.clear();
+        for (Eigen::Index s = 0; s < m; ++s) {
+          const double n_common = common(i, s);
+          if (n_common <= 0 || (same_rows && s == row)) continue;
+          const double sum = std::max(0.0, d(i, s));
+          order.emplace_back(sum * static_cast<double>(p) / n_common, s);
+        }
+        std::sort(order.begin(), order.end());
+        for (const std::int32_t c : gaps[r]) {
+          const auto f = static_cast<Eigen::Index>(fill_feature[static_cast<std::size_t>(c)]);
+          double sum = 0;
+          std::size_t count = 0;
+          for (const auto& [dist, s] : order) {
+            const float v = ref.values(s, f);
+            if (std::isnan(v)) continue;
+            sum += static_cast<double>(v);
+            if (++count == k) break;
+          }
+          const float value = count > 0 ? static_cast<float>(sum / static_cast<double>(count))
+                                        : fallback[static_cast<std::size_t>(c)];
+          found[static_cast<std::size_t>(i)].emplace_back(c, value);
+        }
+      }
+    }
+    for (Eigen::Index i = 0; i < b; ++i) {
+      const std::int64_t row = receivers[by_row[first + static_cast<std::size_t>(i)]];
+      for (const auto& [c, value] : found[static_cast<std::size_t>(i)]) out[static_cast<std::size_t>(c)].emplace_back(row, value);
+    }
+  }
+  return out;
+}
+
+std::string knn_reference_npy(const KnnReference& ref) {
+  const Eigen::Index n = ref.values.rows(), p = ref.values.cols();
+  std::string header = "{'descr': '<f4', 'fortran_order': False, 'shape': (" + std::to_string(n) + ", " +
+                       std::to_string(p) + "), }";
+  // magic (6) + version (2) + length (2) + header, padded with spaces to a multiple of 64, ending in \n
+  const std::size_t total = (10 + header.size() + 1 + 63) / 64 * 64;
+  header.append(total - 10 - header.size() - 1, ' ');
+  header += '\n';
+  std::string out("\x93NUMPY\x01\x00", 8);
+  out += static_cast<char>(header.size() & 0xFF);
+  out += static_cast<char>((header.size() >> 8) & 0xFF);
+  out += header;
+  const std::size_t at = out.size();
+  out.resize(at + static_cast<std::size_t>(n * p) * sizeof(float));
+  char* to = out.data() + at;
+  for (Eigen::Index i = 0; i < n; ++i)
+    for (Eigen::Index j = 0; j < p; ++j, to += sizeof(float)) {
+      const float v = ref.values(i, j);
+      std::memcpy(to, &v, sizeof v);  // x86-64 and aarch64 Debian: little-endian
+    }
+  return out;
+}
+
+Matrix read_knn_reference_npy(const std::string& path, std::int64_t rows, std::int64_t cols) {
+  const std::string bytes = read_file_text(path);
+  const auto bad = [&](const std::string& what) -> Matrix {
+    throw_input_error({path}, what, "keep the impute reference pare wrote beside its plan, unchanged");
+  };
+  if (bytes.size() < 10 || bytes.compare(0, 6, "\x93NUMPY") != 0 || bytes[6] != 1) return bad("not a .npy file of version 1");
+  const std::size_t length = static_cast<unsigned char>(bytes[8]) | (static_cast<std::size_t>(static_cast<unsigned char>(bytes[9])) << 8);
+  if (bytes.size() < 10 + length) return bad("a truncated .npy header");
+  const std::string header = bytes.substr(10, length);
+  const std::string shape = "'shape': (" + std::to_string(rows) + ", " + std::to_string(cols) + ")";
+  if (header.find("'descr': '<f4'") == std::string::npos || header.find("'fortran_order': False") == std::string::npos ||
+      header.find(shape) == std::string::npos)
+    return bad("not float32 values of shape (" + std::to_string(rows) + ", " + std::to_string(cols) + ")");
+  const std::size_t at = 10 + length;
+  if (bytes.size() != at + static_cast<std::size_t>(rows * cols) * sizeof(float)) return bad("the data size does not match its header");
+  Matrix values(rows, cols);
+  const char* from = bytes.data() + at;
+  for (std::int64_t i = 0; i < rows; ++i)
+    for (std::int64_t j = 0; j < cols; ++j, from += sizeof(float)) std::memcpy(&values(i, j), from, sizeof(float));
+  return values;
+}
+
+}  // namespace pare
