@@ -141,10 +141,18 @@ void run_pipeline(FeatureTable& table, const PipelineOptions& options, PipelineR
   reduce_options.threads = options.threads;
   reduce_options.seed = options.seed;
   reduce_options.memory_budget = options.memory.bytes;
+  if (!(options.drop_samples_missing_above >= 0 && options.drop_samples_missing_above <= 1))
+    throw_usage_error("`drop_samples_missing_above` must be between 0 and 1 (a fraction of the features)");
+  if (options.drop_samples_missing_above < 1)
+    result.sparse_samples = drop_sparse_samples(table, options.drop_samples_missing_above, options.memory);
+  // The floor and the normalisation come before the screen, so it sees the samples on one scale.
+  result.reduction = start_reduction(table, reduce_options);
+  Reduction& r = result.reduction;
+  filter_floor(table, reduce_options, r);
+  normalize_step(table, reduce_options, r);
   screen_step(table, options, result);
   if (table.has_labels() && reduce_options.relevance) require_two_classes(table);
-  result.reduction = reduce(table, reduce_options);
-  Reduction& r = result.reduction;
+  reduce_steps(table, reduce_options, r);
   r.steps.insert(r.steps.begin(), StepRecord{Step::kRead, table.n_features(), table.n_features(), read_seconds});
   if (selection_done) selection_done(table, result);
 

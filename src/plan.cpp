@@ -123,6 +123,31 @@ json screen_section(const PipelineResult& result) {
 
 }  // namespace
 
+namespace {
+
+// What ran before step 1: the samples left out for missing values, the count floor, and the
+// normalisation apply replays (the features normalised and, for quantile, the reference).
+json clean_section(const FeatureTable& t, const PipelineResult& result) {
+  const ReduceOptions& o = result.options.reduce;
+  const Reduction& r = result.reduction;
+  json sparse = json::array();
+  for (const auto& [id, rate] : result.sparse_samples) sparse.push_back({{"sample", id}, {"missing_rate", rate}});
+  json clean = {{"drop_samples_missing_above", result.options.drop_samples_missing_above},
+                {"samples_left_out", sparse},
+                {"count_floor", o.count_floor},
+                {"floor_samples", o.floor_samples},
+                {"normalize", normalize_name(o.normalize)}};
+  if (o.normalize != Normalize::kNone) {
+    json names = json::array();
+    for (const std::int64_t j : r.normalized) names.push_back(t.feature_names[static_cast<std::size_t>(j)]);
+    clean["normalized_features"] = names;
+    if (o.normalize == Normalize::kQuantile) clean["quantile_reference"] = r.quantile_reference;
+  }
+  return clean;
+}
+
+}  // namespace
+
 std::string plan_json(const FeatureTable& t, const PipelineResult& result, const RunRecord& run,
                       const PlanProjection& pp) {
   const Reduction& r = result.reduction;
@@ -209,6 +234,7 @@ std::string plan_json(const FeatureTable& t, const PipelineResult& result, const
     center.push_back(number_or_null(r.center[k]));
     spread.push_back(number_or_null(r.scale[k]));
   }
+  plan["clean"] = clean_section(t, result);
   plan["transform"] = {{"impute", impute_name(o.impute)}, {"log2", o.log2}, {"scale", o.scale}};
   if (r.knn) {
     // The nearest-neighbour fills of apply: the training values (samples x features, float32) of
@@ -353,6 +379,21 @@ Plan load_plan(const std::string& path) {
       bad_plan(path, "kept.center and kept.scale must be numbers (scale > 0) for feature " + p.names[i]);
   }
   if (const auto knn = transform.find("knn"); knn != transform.end()) p.knn = load_knn_reference(path, *knn);
+  if (const auto clean = plan.find("clean"); clean != plan.end()) {
+    const auto how = typed<std::string>(path, member(path, *clean, "normalize", "clean"), "clean.normalize", "a string");
+    if (how != "none" && how != "sum" && how != "quantile") bad_plan(path, "clean.normalize must be none, sum or quantile");
+    p.normalize = parse_normalize(how);
+    if (p.normalize != Normalize::kNone)
+      p.normalized_features = typed<std::vector<std::string>>(path, member(path, *clean, "normalized_features", "clean"),
+                                                              "clean.normalized_features", "an array of strings");
+    if (p.normalize == Normalize::kQuantile) {
+      p.quantile_reference = typed<std::vector<double>>(path, member(path, *clean, "quantile_reference", "clean"),
+                                                        "clean.quantile_reference", "an array of numbers");
+      if (p.quantile_reference.size() != p.normalized_features.size() ||
+          !std::is_sorted(p.quantile_reference.begin(), p.quantile_reference.end()))
+        bad_plan(path, "clean.quantile_reference must be ascending, one value per normalised feature");
+    }
+  }
   const auto projection = plan.find("projection");
   if (projection != plan.end() && !projection->is_null()) {
     const json& pj = *projection;
@@ -426,8 +467,32 @@ std::vector<CellFills> knn_apply_fills(const Plan& plan, const FeatureTable& dat
 
 }  // namespace
 
+namespace {
+FeatureTable apply_selection(const Plan& plan, const FeatureTable& data, bool allow_missing, ApplyReport& report,
+                             int threads);
+}  // namespace
+
 FeatureTable apply_plan(const Plan& plan, const FeatureTable& data, bool allow_missing, ApplyReport& report,
                         int threads) {
+  if (plan.normalize == Normalize::kNone) return apply_selection(plan, data, allow_missing, report, threads);
+  // First every sample normalised as in training, over the plan's features it has (a copy).
+  FeatureTable normalized = data;
+  std::unordered_map<std::string_view, std::int64_t> column_of;
+  for (std::int64_t j = 0; j < data.n_features(); ++j) column_of.emplace(data.feature_names[static_cast<std::size_t>(j)], j);
+  std::vector<std::int64_t> columns;
+  for (const auto& name : plan.normalized_features)
+    if (const auto it = column_of.find(name); it != column_of.end()) columns.push_back(it->second);
+  if (plan.normalize == Normalize::kSum)
+    normalize_sum(normalized.values, columns, normalized.sample_ids, data.source);
+  else
+    quantile_map(normalized.values, columns, plan.quantile_reference, threads);
+  return apply_selection(plan, normalized, allow_missing, report, threads);
+}
+
+namespace {
+
+FeatureTable apply_selection(const Plan& plan, const FeatureTable& data, bool allow_missing, ApplyReport& report,
+                             int threads) {
   std::unordered_map<std::string_view, std::int64_t> column_of;
   column_of.reserve(static_cast<std::size_t>(data.n_features()) * 2);
   std::unordered_map<std::string_view, int> used;
@@ -522,5 +587,7 @@ FeatureTable apply_plan(const Plan& plan, const FeatureTable& data, bool allow_m
                           "the new data must be on the same scale as the training data");
   return out;
 }
+
+}  // namespace
 
 }  // namespace pare

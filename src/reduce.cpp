@@ -73,6 +73,9 @@ void check_reduce_options(const ReduceOptions& o) {
   if (o.score.bins < 2) throw_usage_error("`bins` must be 2 or more");
   if (o.score.neighbors < 1) throw_usage_error("`neighbors` must be 1 or more");
   if (o.impute_neighbors < 1) throw_usage_error("`impute_neighbors` must be 1 or more");
+  if (o.floor_samples < 0) throw_usage_error("`floor_samples` must be 0 (no floor) or more");
+  if (o.floor_samples > 0 && !(o.count_floor > 0))
+    throw_usage_error("`floor_samples` needs `count_floor`: the value N samples must reach", "e.g. 10 reads");
   if (o.threads < 0) throw_usage_error("`threads` must be 0 (all cores) or more");
   check_stability_options(o.stability, o.keep);
   if (o.balance != Balance::kNone && o.rank_by == Criterion::kVariance)
@@ -119,6 +122,8 @@ void require_some_scored(const FeatureScores& s, Criterion c, const std::string&
 const char* step_name(Step step) {
   switch (step) {
     case Step::kRead: return "read";
+    case Step::kFloor: return "floor";
+    case Step::kNormalize: return "normalize";
     case Step::kMissing: return "missing";
     case Step::kImpute: return "impute";
     case Step::kTransform: return "transform";
@@ -471,8 +476,34 @@ void learn_knn_fills(const FeatureTable& t, const ReduceOptions& o, Reduction& r
     if (s.step == Step::kImpute) s.seconds += seconds;
 }
 
-Reduction reduce(FeatureTable& t, const ReduceOptions& o) {
-  Reduction r = start_reduction(t, o);
+void filter_floor(const FeatureTable& t, const ReduceOptions& o, Reduction& r) {
+  if (o.floor_samples <= 0) return;
+  const auto start = std::chrono::steady_clock::now();
+  const std::size_t in = r.alive.size();
+  const std::vector<char> pass = count_floor_pass(t.values, o.count_floor, o.floor_samples, internal::thread_count(o.threads));
+  std::erase_if(r.alive, [&](std::int64_t j) {
+    if (pass[static_cast<std::size_t>(j)]) return false;
+    r.drop(j, Step::kFloor, "fewer than " + std::to_string(o.floor_samples) + " samples at " + g3(o.count_floor) +
+                                " or more");
+    return true;
+  });
+  record_step(r, Step::kFloor, in, start);
+}
+
+void normalize_step(FeatureTable& t, const ReduceOptions& o, Reduction& r) {
+  if (o.normalize == Normalize::kNone) return;
+  const auto start = std::chrono::steady_clock::now();
+  r.normalized = r.alive;
+  if (o.normalize == Normalize::kSum) {
+    normalize_sum(t.values, r.normalized, t.sample_ids, t.source);
+  } else {
+    r.quantile_reference = quantile_reference(t.values, r.normalized);
+    quantile_map(t.values, r.normalized, r.quantile_reference, o.threads);
+  }
+  record_step(r, Step::kNormalize, r.alive.size(), start);
+}
+
+void reduce_steps(FeatureTable& t, const ReduceOptions& o, Reduction& r) {
   filter_missing(t, o, r);
   learn_fill(t, o, r);
   transform_step(t, o, r);
@@ -484,12 +515,19 @@ Reduction reduce(FeatureTable& t, const ReduceOptions& o) {
     rank_relevance(t, all_samples, r);
     learn_knn_fills(t, o, r);
     select_stable(t, o, r);
-    return r;
+    return;
   }
   rank_relevance(t, o, r);
   learn_knn_fills(t, o, r);
   prune_redundant(t, o, r);
   take_top(t, o, r);
+}
+
+Reduction reduce(FeatureTable& t, const ReduceOptions& o) {
+  Reduction r = start_reduction(t, o);
+  filter_floor(t, o, r);
+  normalize_step(t, o, r);
+  reduce_steps(t, o, r);
   return r;
 }
 

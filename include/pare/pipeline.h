@@ -29,6 +29,9 @@ struct PipelineOptions {
     return none;
   }();                           ///< components 0 (the default): no projection
   bool drop_outliers = false;    ///< remove the samples the screen flags before step 1
+  /// Leave out, first of all, the samples missing more than this fraction of their values
+  /// (drop_sparse_samples; 1 = none).
+  double drop_samples_missing_above = 1;
   /// Also write a class-balanced copy of the reduced matrix for training (reduce_to_folder:
   /// balanced.csv and balanced-samples.tsv; balanced_samples). apply never balances.
   BalanceExport balance_export = BalanceExport::kNone;
@@ -61,6 +64,8 @@ struct PipelineResult {
     std::int64_t samples = 0, repeated = 0, synthetic = 0;
   };
   std::optional<Balanced> balanced;
+  /// Samples left out for missing more than drop_samples_missing_above, with their missing rates.
+  std::vector<std::pair<std::string, double>> sparse_samples;
   SampleScreen screen;                   ///< of every input sample
   double screen_seconds = 0;
   RunSamples samples;
@@ -70,7 +75,8 @@ struct PipelineResult {
 /// as its workspace: the last moment the kept columns hold what the reduced matrix holds.
 using SelectionDone = std::function<void(const FeatureTable& table, const PipelineResult& result)>;
 
-/// Screens the samples of `table` (on log2(x + 1) with options.reduce.log2, each sample measured
+/// Leaves out the samples missing too much (drop_samples_missing_above), applies the count floor
+/// and the normalisation, screens the samples of `table` (on log2(x + 1) with options.reduce.log2, each sample measured
 /// from its class when there are labels), drops the flagged ones with drop_outliers, runs the
 /// selection steps and, with projection.components > 0, the truncated PCA of the kept features.
 /// `read_seconds` becomes the record of step "read". The table's values are used up (see

@@ -10,6 +10,7 @@
 #include <vector>   // std::vector
 
 #include "pare/io.h"
+#include "pare/clean.h"
 #include "pare/impute.h"
 #include "pare/matrix.h"
 #include "pare/pipeline.h"
@@ -86,6 +87,11 @@ struct Plan {
   /// --impute knn: the training values gaps are filled from (read from the plan's reference file,
   /// its SHA-256 checked); null otherwise.
   std::shared_ptr<const KnnReference> knn;
+  /// --normalize: each new sample normalised over these features (by name) before anything else;
+  /// quantile: onto this reference.
+  Normalize normalize = Normalize::kNone;
+  std::vector<std::string> normalized_features;
+  std::vector<double> quantile_reference;
 };
 
 /// The plan.json text of a finished run on `table` (as the run left it: names, delimiter, the

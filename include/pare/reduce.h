@@ -10,6 +10,7 @@
 #include <string>   // std::string
 #include <vector>   // std::vector
 
+#include "pare/clean.h"
 #include "pare/impute.h"
 #include "pare/matrix.h"
 #include "pare/prune.h"
@@ -27,6 +28,11 @@ Impute parse_impute(const std::string& name);
 const char* impute_name(Impute i);
 
 struct ReduceOptions {
+  /// Before step 1 (SPEC §9): keep a feature only when at least floor_samples samples have a raw
+  /// value >= count_floor (floor_samples 0: no floor); then normalise every sample.
+  double count_floor = 0;
+  std::int64_t floor_samples = 0;
+  Normalize normalize = Normalize::kNone;
   bool missing_filter = true;
   double drop_missing_above = 0.2;   ///< drop features whose missing rate is above this
   Impute impute = Impute::kMean;
@@ -71,6 +77,8 @@ void require_some_scored(const FeatureScores& scores, Criterion criterion, const
 /// The steps of a run, in order (SPEC §4): reading, the selection steps 1-7 and the projection.
 enum class Step : std::uint8_t {
   kRead,
+  kFloor,       ///< count floor (--count-floor, --floor-samples), on the raw values
+  kNormalize,   ///< per-sample normalisation (--normalize)
   kMissing,     ///< 1. missing-rate filter
   kImpute,      ///< 2. fill values learned
   kTransform,   ///< 3. log2(x + 1)
@@ -82,7 +90,7 @@ enum class Step : std::uint8_t {
   kProject,     ///< 8. truncated PCA / SVD
 };
 
-/// The step's name as the outputs write it: read, missing, impute, transform, variance,
+/// The step's name as the outputs write it: read, floor, normalize, missing, impute, transform, variance,
 /// relevance, stability, redundancy, top, project.
 const char* step_name(Step step);
 
@@ -133,6 +141,8 @@ struct Reduction : Selection {
   /// input feature the fills of its gaps (learn_knn_fills; empty for features not filled).
   std::shared_ptr<const KnnReference> knn;
   std::vector<CellFills> cell_fills;
+  std::vector<std::int64_t> normalized;  ///< --normalize: the features normalised (those past the floor)
+  std::vector<double> quantile_reference;  ///< --normalize quantile: learned on these samples, ascending
 };
 
 /// The steps, each a plain function of the table, the options and the reduction so far; reduce()
@@ -140,6 +150,8 @@ struct Reduction : Selection {
 /// table's values change in place: transformed (step 3), gaps of the ranked candidates filled
 /// (before step 6), the kept columns standardised with options.scale (step 7).
 Reduction start_reduction(const FeatureTable& table, const ReduceOptions& options);
+void filter_floor(const FeatureTable& table, const ReduceOptions& options, Reduction& r);       ///< floor
+void normalize_step(FeatureTable& table, const ReduceOptions& options, Reduction& r);          ///< normalize
 void filter_missing(const FeatureTable& table, const ReduceOptions& options, Reduction& r);   ///< 1
 void learn_fill(const FeatureTable& table, const ReduceOptions& options, Reduction& r);       ///< 2
 void transform_step(FeatureTable& table, const ReduceOptions& options, Reduction& r);         ///< 3
@@ -163,6 +175,10 @@ void standardise_column(std::span<float> x, double center, double scale);
 
 /// A value as the transform sees it: log2(x + 1) when `log2`, else x (in double, stored as float).
 float transform_value(float x, bool log2);
+
+/// Steps 1-7 (or stability selection) on a reduction already started and cleaned
+/// (start_reduction, filter_floor, normalize_step): reduce() without its start.
+void reduce_steps(FeatureTable& table, const ReduceOptions& options, Reduction& r);
 
 /// Runs the pipeline on `table` (labels used when present and options.relevance). The kept columns
 /// of table.values are left imputed, transformed and (with options.scale) standardised; other

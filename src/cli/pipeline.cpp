@@ -78,13 +78,22 @@ PipelineResult reduce_and_write(const InputOptions& input, const CommonOptions& 
 // The reduce options as the command line gives them, before finish_reduce_options reads them into
 // ReduceOptions.
 struct ReduceWords {
-  std::string impute, rank_by, estimator, scheme, balance, balance_export;
+  std::string impute, rank_by, estimator, scheme, balance, balance_export, normalize;
+  double drop_samples = 1;
   bool no_missing = false, no_variance = false, no_prune = false;
 };
 
 void add_reduce_options(po::options_description& desc, ReduceOptions& o, ReduceWords& w) {
   StabilityOptions& st = o.stability;
   desc.add_options()
+      ("drop-samples-missing-above", po::value(&w.drop_samples)->default_value(1, "1")->value_name("FRACTION"),
+       "0. first leave out the samples missing more than this fraction of their values (1 = none)")
+      ("count-floor", po::value(&o.count_floor)->default_value(0, "0")->value_name("C"),
+       "0. with --floor-samples N: keep a feature only when N samples have a raw value of C or more")
+      ("floor-samples", po::value(&o.floor_samples)->default_value(0)->value_name("N"), "0. see --count-floor")
+      ("normalize", po::value(&w.normalize)->value_name("HOW"),
+       "0. normalise every sample: sum (scaled to a total of 10^6) or quantile (onto a reference distribution "
+       "learned here and replayed by apply)")
       ("drop-missing-above", po::value(&o.drop_missing_above)->default_value(0.2, "0.2")->value_name("FRACTION"),
        "1. drop features missing in more than this fraction of the samples")
       ("no-missing-filter", po::bool_switch(&w.no_missing), "1. skip step 1")
@@ -144,6 +153,7 @@ void finish_reduce_options(ReduceOptions& o, const ReduceWords& w, const CommonO
     if (o.balance != Balance::kNone && !input.has_response())
       throw_usage_error("--balance needs class labels", "give --label COLUMN or --labels SHEET");
   }
+  if (!w.normalize.empty()) o.normalize = parse_normalize(w.normalize);
   o.missing_filter = !w.no_missing;
   o.variance_filter = !w.no_variance;
   o.prune = !w.no_prune;
@@ -152,6 +162,9 @@ void finish_reduce_options(ReduceOptions& o, const ReduceWords& w, const CommonO
 }
 
 void finish_balance_export(PipelineOptions& pipeline, const ReduceWords& w, const InputOptions& input) {
+  pipeline.drop_samples_missing_above = w.drop_samples;
+  if (!(w.drop_samples >= 0 && w.drop_samples <= 1))
+    throw_usage_error("--drop-samples-missing-above must be between 0 and 1 (a fraction of the features)");
   if (w.balance_export.empty()) return;
   pipeline.balance_export = parse_balance_export(w.balance_export);
   if (!input.has_response() || input.has_target())
