@@ -82,13 +82,19 @@ std::vector<char> count_floor_pass(const ConstMatrixRef& values, double floor, s
 }
 
 void normalize_sum(MatrixRef values, std::span<const std::int64_t> columns, const std::vector<std::string>& ids,
-                   const std::string& source) {
+                   const std::vector<std::string>& names, const std::string& source) {
   const Eigen::Index n = values.rows();
   std::vector<double> sum(static_cast<std::size_t>(n), 0.0);
   for (const std::int64_t j : columns) {
     const float* x = values.col(j).data();
-    for (Eigen::Index i = 0; i < n; ++i)
+    for (Eigen::Index i = 0; i < n; ++i) {
+      if (x[i] < 0)
+        throw Error(ErrorKind::kInput, source + ": feature " + names[static_cast<std::size_t>(j)] +
+                                           " has a negative value (sample " + ids[static_cast<std::size_t>(i)] +
+                                           "), so `normalize` sum cannot apply: it scales counts or other "
+                                           "non-negative amounts (quantile takes any values)");
       if (!std::isnan(x[i])) sum[static_cast<std::size_t>(i)] += static_cast<double>(x[i]);
+    }
   }
   for (Eigen::Index i = 0; i < n; ++i)
     if (!(sum[static_cast<std::size_t>(i)] > 0))

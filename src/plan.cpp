@@ -483,7 +483,7 @@ FeatureTable apply_plan(const Plan& plan, const FeatureTable& data, bool allow_m
   for (const auto& name : plan.normalized_features)
     if (const auto it = column_of.find(name); it != column_of.end()) columns.push_back(it->second);
   if (plan.normalize == Normalize::kSum)
-    normalize_sum(normalized.values, columns, normalized.sample_ids, data.source);
+    normalize_sum(normalized.values, columns, normalized.sample_ids, normalized.feature_names, data.source);
   else
     quantile_map(normalized.values, columns, plan.quantile_reference, threads);
   return apply_selection(plan, normalized, allow_missing, report, threads);

@@ -315,8 +315,10 @@ void rank_relevance(const FeatureTable& t, const ReduceOptions& o, Reduction& r)
     so.counts_chi2 = o.rank_by == Criterion::kChi2Counts;
     std::vector<ColumnStats> alive_stats(r.alive.size());
     for (std::size_t a = 0; a < r.alive.size(); ++a) alive_stats[a] = r.stats[static_cast<std::size_t>(r.alive[a])];
-    if (o.balance == Balance::kSmallest && t.has_labels())
+    if (o.balance == Balance::kSmallest && t.has_labels()) {
+      require_balanceable(t);
       r.scored_rows = balance_rows(t.labels, {}, o.seed, kBalanceStream);
+    }
     r.scores = t.has_target() ? score_against_target(t.values, r.alive, t.target, so, alive_stats)
                               : score_features(t.values, r.alive, encode_classes(t.labels), so, alive_stats,
                                                r.scored_rows);
@@ -495,7 +497,7 @@ void normalize_step(FeatureTable& t, const ReduceOptions& o, Reduction& r) {
   const auto start = std::chrono::steady_clock::now();
   r.normalized = r.alive;
   if (o.normalize == Normalize::kSum) {
-    normalize_sum(t.values, r.normalized, t.sample_ids, t.source);
+    normalize_sum(t.values, r.normalized, t.sample_ids, t.feature_names, t.source);
   } else {
     r.quantile_reference = quantile_reference(t.values, r.normalized);
     quantile_map(t.values, r.normalized, r.quantile_reference, o.threads);

@@ -293,7 +293,7 @@ std::string stability_text(const StabilityRecord& st, std::int64_t kept) {
   internal::append_rounded(bound, st.bound, 3);
   return "stability: " + thousands(o.resamples) + " subsets of " + samples + " samples (" +
          resample_scheme_name(o.scheme) + "), each keeping " + thousands(st.q) + "; " + thousands(st.selected) +
-         " features kept in at least " + percent(o.min_stability) + " of them, " + thousands(kept) +
+         (st.selected == 1 ? " feature" : " features") + " kept in at least " + percent(o.min_stability) + " of them, " + thousands(kept) +
          " after pruning on all samples\nexpected false selections among them at most " + bound +
          " (q^2 / ((2 PI - 1) p) with q " + thousands(st.q) + ", PI " + short_number(o.min_stability) + ", p " +
          thousands(st.p) + " features ranked; Meinshausen & Buhlmann 2010)\n" +

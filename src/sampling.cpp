@@ -110,6 +110,18 @@ std::vector<std::int64_t> subsample_rows(const FeatureTable& t, double amount, s
   return stratified_rows(sample_strata(t), count ? amount / n : amount, seed, kSubsampleStream);
 }
 
+void require_balanceable(const FeatureTable& t) {
+  const ClassCodes codes = encode_classes(t.labels);
+  const auto smallest = std::min_element(codes.counts.begin(), codes.counts.end());
+  if (smallest == codes.counts.end() || *smallest >= 3) return;
+  const std::string& name = codes.classes[static_cast<std::size_t>(smallest - codes.counts.begin())];
+  throw Error(ErrorKind::kInput,
+              (t.labels_source.empty() ? t.source : t.labels_source) + ": `balance` smallest would score every class on " +
+                  std::to_string(*smallest) + " sample" + (*smallest == 1 ? "" : "s") + " (class " + name + " has " +
+                  std::to_string(*smallest) + "), which says nothing; `min_class_size` 3 leaves such classes out, or "
+                  "leave out `balance`");
+}
+
 Balance parse_balance(const std::string& name) {
   if (name == "smallest") return Balance::kSmallest;
   if (name == "none") return Balance::kNone;

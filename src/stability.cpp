@@ -212,6 +212,7 @@ void select_stable(FeatureTable& t, const ReduceOptions& o, Reduction& r) {
     std::span<const std::vector<std::int64_t>> these(subsets.data() + first, count);
     std::vector<std::vector<std::int64_t>> balanced;
     if (o.balance == Balance::kSmallest && t.has_labels()) {
+      require_balanceable(t);
       for (std::size_t b = 0; b < count; ++b)
         balanced.push_back(balance_rows(t.labels, these[b], o.seed, kBalanceStream + 1 + first + b));
       these = balanced;

@@ -199,6 +199,8 @@ TEST_CASE("stability: the bound is q^2 / ((2 PI - 1) p)", "[stability]") {
   // PI = 0.6 gives 10,000 / 9,690.2.
   CHECK(pare::stability_bound(100, 48451, 0.6) == Approx(10000.0 / 9690.2).epsilon(1e-12));
   CHECK(pare::stability_bound(50, 19200, 0.9) == Approx(2500.0 / (0.8 * 19200)).epsilon(1e-12));
+  // CHECKS.md §11: q = 50, p = 19,200, PI = 0.6 gives 0.651.
+  CHECK(pare::stability_bound(50, 19200, 0.6) == Approx(0.651).margin(5e-4));
 }
 
 TEST_CASE("stability: reduce --resamples selects by the rule, writes the plan, any --threads", "[stability]") {

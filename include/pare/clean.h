@@ -33,9 +33,10 @@ std::vector<std::pair<std::string, double>> drop_sparse_samples(FeatureTable& ta
 std::vector<char> count_floor_pass(const ConstMatrixRef& values, double floor, std::int64_t samples, int threads = 0);
 
 /// Scales each row of `values` over the columns `columns` so that its observed values sum to 10^6
-/// (in double). A row whose sum is not positive is an Error(kInput) naming the sample (`ids`).
+/// (in double). A negative value is an Error(kInput) naming the feature (`names`, per column), a
+/// row whose sum is not positive one naming the sample (`ids`).
 void normalize_sum(MatrixRef values, std::span<const std::int64_t> columns, const std::vector<std::string>& ids,
-                   const std::string& source);
+                   const std::vector<std::string>& names, const std::string& source);
 
 /// The quantile reference of the rows of `values` over `columns` (p of them): for each row, its
 /// observed values sorted and read at p evenly spaced positions (linear interpolation when the row

@@ -39,6 +39,10 @@ enum class Balance {
 /// Parses smallest (the only method; "none" turns it off); throws Error(kUsage) otherwise.
 Balance parse_balance(const std::string& name);
 
+/// Throws Error(kInput) when the smallest class of `table` has fewer than 3 samples: balancing would
+/// score every class on that few (naming the class and pointing to --min-class-size).
+void require_balanceable(const FeatureTable& table);
+
 /// The stream of the run's seed the balanced scores draw from ("BA"); stability subset b uses
 /// kBalanceStream + 1 + b.
 inline constexpr std::uint64_t kBalanceStream = 0x42410000;
