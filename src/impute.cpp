@@ -149,7 +149,7 @@ std::vector<CellFills> knn_fills(const ConstMatrixRef& x, std::span<const std::i
   return out;
 }
 
-std::string knn_reference_npy(const KnnReference& ref) {
+void write_knn_reference_npy(const KnnReference& ref, const std::function<void(std::string_view)>& sink) {
   const Eigen::Index n = ref.values.rows(), p = ref.values.cols();
   std::string header = "{'descr': '<f4', 'fortran_order': False, 'shape': (" + std::to_string(n) + ", " +
                        std::to_string(p) + "), }";
@@ -161,15 +161,21 @@ std::string knn_reference_npy(const KnnReference& ref) {
   out += static_cast<char>(header.size() & 0xFF);
   out += static_cast<char>((header.size() >> 8) & 0xFF);
   out += header;
-  const std::size_t at = out.size();
-  out.resize(at + static_cast<std::size_t>(n * p) * sizeof(float));
-  char* to = out.data() + at;
-  for (Eigen::Index i = 0; i < n; ++i)
-    for (Eigen::Index j = 0; j < p; ++j, to += sizeof(float)) {
-      const float v = ref.values(i, j);
-      std::memcpy(to, &v, sizeof v);  // x86-64 and aarch64 Debian: little-endian
-    }
-  return out;
+  sink(out);
+  // Rows of samples, gathered from the column-major values a megabyte at a time.
+  const Eigen::Index rows_per_piece = std::max<Eigen::Index>(1, (Eigen::Index{1} << 20) / std::max<Eigen::Index>(4 * p, 1));
+  std::string piece;
+  for (Eigen::Index i0 = 0; i0 < n; i0 += rows_per_piece) {
+    const Eigen::Index rows = std::min(rows_per_piece, n - i0);
+    piece.resize(static_cast<std::size_t>(rows * p) * sizeof(float));
+    char* to = piece.data();
+    for (Eigen::Index i = i0; i < i0 + rows; ++i)
+      for (Eigen::Index j = 0; j < p; ++j, to += sizeof(float)) {
+        const float v = ref.values(i, j);
+        std::memcpy(to, &v, sizeof v);  // x86-64 and aarch64 Debian: little-endian
+      }
+    sink(piece);
+  }
 }
 
 Matrix read_knn_reference_npy(const std::string& path, std::int64_t rows, std::int64_t cols) {

@@ -243,9 +243,14 @@ PipelineResult reduce_to_folder(FeatureTable& table, const PipelineOptions& opti
   run_pipeline(table, options, result, run.read_seconds, selection_done);
   PlanProjection written;
   if (result.reduction.knn) {
-    const std::string bytes = knn_reference_npy(*result.reduction.knn);
-    written.impute_reference_sha256 = internal::sha256_hex(bytes);
-    files.add(written.impute_reference_file, bytes);
+    OutputFile& file = files.open(written.impute_reference_file);
+    file.write_direct();
+    internal::Sha256 hash;
+    write_knn_reference_npy(*result.reduction.knn, [&](std::string_view piece) {
+      hash.update(piece);
+      file.write(piece);
+    });
+    written.impute_reference_sha256 = hash.hex();
   }
   if (result.projection) written = write_projection(files, table, result, names);
   if (ranking_text.valid()) files.add("ranking.tsv", ranking_text.get());

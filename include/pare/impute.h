@@ -6,6 +6,8 @@
 #pragma once
 
 #include <cstdint>  // std::int64_t
+#include <functional>   // std::function
+#include <string_view>  // std::string_view
 #include <memory>   // std::shared_ptr
 #include <span>     // std::span
 #include <string>   // std::string
@@ -41,8 +43,8 @@ std::vector<CellFills> knn_fills(const ConstMatrixRef& x, std::span<const std::i
                                  bool same_rows, int threads = 0);
 
 /// The reference as a NumPy .npy file (version 1.0, little-endian float32, C order, samples x
-/// features): the bytes to write.
-std::string knn_reference_npy(const KnnReference& reference);
+/// features), handed to `sink` in pieces of about a megabyte.
+void write_knn_reference_npy(const KnnReference& reference, const std::function<void(std::string_view)>& sink);
 
 /// Reads the values of such a file (shape rows x cols expected). Throws Error(kInput) naming the
 /// file when it is not one.
