@@ -31,19 +31,17 @@ namespace {
 
 using pare::test::TempDir;
 
-// A public data set as a rows=samples CSV with a label column `class`.
+// A public data set as a rows=samples CSV with a label column `class`, and read back.
 std::string public_csv(const TempDir& dir, const std::string& name, bool& present) {
   const pare::test::PublicData d = pare::test::read_public(name, 1);
   present = d.present;
-  std::string csv = "sample";
-  for (std::size_t j = 0; j < d.p(); ++j) csv += ",f" + std::to_string(j + 1);
-  csv += ",class\n";
-  for (std::size_t i = 0; i < d.n(); ++i) {
-    csv += "s" + std::to_string(i + 1);
-    for (const auto& v : d.values[i]) csv += "," + v;
-    csv += ",c" + d.classes[i] + "\n";
-  }
-  return dir.write(name + ".csv", csv);
+  return dir.write(name + ".csv", pare::test::labelled_csv_text(d));
+}
+
+pare::FeatureTable labelled_table(const std::string& path) {
+  pare::ReadOptions read;
+  read.label_column = "class";
+  return pare::read_table(path, read);
 }
 
 std::map<std::string, std::int64_t> class_counts(const std::vector<std::string>& labels,
@@ -60,9 +58,7 @@ TEST_CASE("sampling: --subsample draws a stratified subset of the asked size, se
   bool present = false;
   const std::string path = public_csv(dir, "breast_cancer.csv", present);
   if (!present) return;
-  pare::ReadOptions read;
-  read.label_column = "class";
-  const pare::FeatureTable t = pare::read_table(path, read);
+  const pare::FeatureTable t = labelled_table(path);
   // 0.2 of 569 = 113.8 -> 114: 42.4 of 212 and 71.4 of 357 give 42 + 71, and the tie of the
   // remainders goes to the first class (c0).
   const auto rows = pare::subsample_rows(t, 0.2, 1);
@@ -91,9 +87,7 @@ TEST_CASE("sampling: --balance scores every class on the smallest class's count"
   bool present = false;
   const std::string path = public_csv(dir, "breast_cancer.csv", present);
   if (!present) return;
-  pare::ReadOptions read;
-  read.label_column = "class";
-  const pare::FeatureTable t = pare::read_table(path, read);
+  const pare::FeatureTable t = labelled_table(path);
   const auto rows = pare::balance_rows(t.labels, {}, 1, pare::kBalanceStream);
   CHECK(class_counts(t.labels, rows) == std::map<std::string, std::int64_t>{{"c0", 212}, {"c1", 212}});
   // Within a subset: the subset's smallest class.

@@ -207,15 +207,7 @@ TEST_CASE("stability: reduce --resamples selects by the rule, writes the plan, a
   TempDir dir;
   const pare::test::PublicData d = pare::test::read_public("breast_cancer.csv", 1);
   if (!d.present) return;
-  std::string csv = "sample";
-  for (std::size_t j = 0; j < d.p(); ++j) csv += ",f" + std::to_string(j + 1);
-  csv += ",class\n";
-  for (std::size_t i = 0; i < d.n(); ++i) {
-    csv += "s" + std::to_string(i + 1);
-    for (const auto& v : d.values[i]) csv += "," + v;
-    csv += ",c" + d.classes[i] + "\n";
-  }
-  const std::string data = dir.write("bc.csv", csv);
+  const std::string data = dir.write("bc.csv", pare::test::labelled_csv_text(d));
   auto run = [&](const std::string& out, const std::string& threads, const std::string& scheme) {
     return pare::test::run({"reduce", data, "--label", "class", "--keep", "8", "--max-corr", "0.8", "--resamples",
                             "30", "--min-stability", "0.7", "--resample-scheme", scheme, "--threads", threads, "--out",

@@ -58,4 +58,18 @@ inline PublicData read_public(const std::string& name, int header_lines, std::si
   return d;
 }
 
+/// The data as a rows=samples CSV: `sample` (s1, s2, ...), f1..fp as the file writes them, and
+/// the label column `class` (c0, c1, ...).
+inline std::string labelled_csv_text(const PublicData& d) {
+  std::string csv = "sample";
+  for (std::size_t j = 0; j < d.p(); ++j) csv += ",f" + std::to_string(j + 1);
+  csv += ",class\n";
+  for (std::size_t i = 0; i < d.n(); ++i) {
+    csv += "s" + std::to_string(i + 1);
+    for (const auto& v : d.values[i]) csv += "," + v;
+    csv += ",c" + d.classes[i] + "\n";
+  }
+  return csv;
+}
+
 }  // namespace pare::test

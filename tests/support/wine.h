@@ -15,18 +15,10 @@ namespace pare::test {
 inline pare::FeatureTable wine_table(const TempDir& dir, bool& present) {
   const PublicData d = read_public("wine_data.csv", 1);
   present = d.present;
-  std::string csv = "sample";
-  for (std::size_t j = 0; j < d.p(); ++j) csv += ",f" + std::to_string(j + 1);
-  csv += ",class\n";
-  for (std::size_t i = 0; i < d.n(); ++i) {
-    csv += "s" + std::to_string(i + 1);
-    for (const auto& v : d.values[i]) csv += "," + v;
-    csv += ",c" + d.classes[i] + "\n";
-  }
   pare::ReadOptions read;
   read.label_column = "class";
   if (!present) return {};
-  return pare::read_table(dir.write("wine.csv", csv), read);
+  return pare::read_table(dir.write("wine.csv", labelled_csv_text(d)), read);
 }
 
 inline pare::ReduceOptions wine_options() {
