@@ -24,7 +24,7 @@ namespace pare {
 namespace {
 
 constexpr Eigen::Index kChunk = 256;      // features per product
-constexpr Eigen::Index kSlice = 32;       // rows per product
+constexpr Eigen::Index kSlice = 128;      // rows per product
 constexpr std::size_t kBlockBytes = std::size_t{256} << 20;
 
 using MatD = Eigen::Matrix<double, Eigen::Dynamic, Eigen::Dynamic>;
