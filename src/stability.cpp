@@ -169,35 +169,12 @@ std::vector<std::int64_t> select_in_subset(const FeatureTable& t, const ReduceOp
   }
 }
 
-}  // namespace
-
-void select_stable(FeatureTable& t, const ReduceOptions& o, Reduction& r) {
-  const StabilityOptions& so = o.stability;
-  check_stability_options(so, o.keep);
-  const auto start = std::chrono::steady_clock::now();
-  const std::size_t in = r.alive.size();
-  // The features entering relevance, in input order (the subsets' ties), and their rank on all
-  // samples (r.alive's order).
-  std::vector<std::int64_t> scored = r.alive;
-  std::sort(scored.begin(), scored.end());
-  const std::vector<std::vector<std::int64_t>> subsets = draw_resamples(t, so, o.seed);
-  std::vector<float> fill(r.decisions.size(), 0.0f);
-  for (const std::int64_t j : scored)
-    fill[static_cast<std::size_t>(j)] = transform_value(r.fill[static_cast<std::size_t>(j)], o.log2);
-
-  StabilityRecord rec;
-  rec.options = so;
-  rec.seed = o.seed;
-  rec.q = o.keep;
-  rec.p = static_cast<std::int64_t>(in);
-  rec.bound = stability_bound(rec.q, rec.p, so.min_stability);
-  rec.kept_in.assign(r.decisions.size(), 0);
-  rec.subset_samples_min = std::numeric_limits<std::int64_t>::max();
-  for (const auto& s : subsets) {
-    rec.subset_samples_min = std::min(rec.subset_samples_min, static_cast<std::int64_t>(s.size()));
-    rec.subset_samples_max = std::max(rec.subset_samples_max, static_cast<std::int64_t>(s.size()));
-  }
-
+// How many subsets kept each input feature: the subsets' scores a batch at a time (score_subsets),
+// then each subset's selection (select_in_subset), subsets side by side.
+std::vector<std::int32_t> kept_in_subsets(const FeatureTable& t, const ReduceOptions& o, const Reduction& r,
+                                          std::span<const std::int64_t> scored,
+                                          const std::vector<std::vector<std::int64_t>>& subsets,
+                                          const std::vector<float>& fill) {
   const bool test = r.supervised && o.fdr < 1 && r.criterion != Criterion::kVariance;
   ScoreOptions score_options = o.score;
   score_options.threads = o.threads;
@@ -205,8 +182,8 @@ void select_stable(FeatureTable& t, const ReduceOptions& o, Reduction& r) {
   const std::size_t per_subset = std::max<std::size_t>(1, 25 * scored.size());
   const std::size_t batch =
       std::min(subsets.size(), std::max<std::size_t>(static_cast<std::size_t>(threads), kBatchBytes / per_subset));
-  {
-  ProgressStep progress("stability", so.resamples, "subsets");
+  std::vector<std::int32_t> kept_in(r.decisions.size(), 0);
+  ProgressStep progress("stability", static_cast<std::int64_t>(subsets.size()), "subsets");
   for (std::size_t first = 0; first < subsets.size(); first += batch) {
     const std::size_t count = std::min(batch, subsets.size() - first);
     std::span<const std::vector<std::int64_t>> these(subsets.data() + first, count);
@@ -236,9 +213,41 @@ void select_stable(FeatureTable& t, const ReduceOptions& o, Reduction& r) {
     }
     if (failure) std::rethrow_exception(failure);
     for (const auto& k : kept)
-      for (const std::int64_t j : k) ++rec.kept_in[static_cast<std::size_t>(j)];
+      for (const std::int64_t j : k) ++kept_in[static_cast<std::size_t>(j)];
   }
+  return kept_in;
+
+}
+
+}  // namespace
+
+void select_stable(FeatureTable& t, const ReduceOptions& o, Reduction& r) {
+  const StabilityOptions& so = o.stability;
+  check_stability_options(so, o.keep);
+  const auto start = std::chrono::steady_clock::now();
+  const std::size_t in = r.alive.size();
+  // The features entering relevance, in input order (the subsets' ties), and their rank on all
+  // samples (r.alive's order).
+  std::vector<std::int64_t> scored = r.alive;
+  std::sort(scored.begin(), scored.end());
+  const std::vector<std::vector<std::int64_t>> subsets = draw_resamples(t, so, o.seed);
+  std::vector<float> fill(r.decisions.size(), 0.0f);
+  for (const std::int64_t j : scored)
+    fill[static_cast<std::size_t>(j)] = transform_value(r.fill[static_cast<std::size_t>(j)], o.log2);
+
+  StabilityRecord rec;
+  rec.options = so;
+  rec.seed = o.seed;
+  rec.q = o.keep;
+  rec.p = static_cast<std::int64_t>(in);
+  rec.bound = stability_bound(rec.q, rec.p, so.min_stability);
+  rec.subset_samples_min = std::numeric_limits<std::int64_t>::max();
+  for (const auto& s : subsets) {
+    rec.subset_samples_min = std::min(rec.subset_samples_min, static_cast<std::int64_t>(s.size()));
+    rec.subset_samples_max = std::max(rec.subset_samples_max, static_cast<std::int64_t>(s.size()));
   }
+
+  rec.kept_in = kept_in_subsets(t, o, r, scored, subsets, fill);
 
   // Stable enough: kept in at least PI·B subsets (PI·B rounded up, with a margin for its rounding).
   const auto B = static_cast<double>(so.resamples);
