@@ -46,6 +46,37 @@ struct Side {
   }
 };
 
+// For the rows `rows` of `x`: in d the sums Σ_common (x − r)² and in common the counts of common
+// features, against every reference row (rows.size() x reference rows).
+void block_distances(const ConstMatrixRef& x, std::span<const std::int64_t> x_columns, const KnnReference& ref,
+                     std::span<const std::int64_t> rows, int threads, MatD& d, MatD& common) {
+  const Eigen::Index m = ref.values.rows(), p = ref.values.cols(), b = static_cast<Eigen::Index>(rows.size());
+  d = MatD::Zero(b, m);
+  common = MatD::Zero(b, m);
+  Side r_side, x_side;
+  for (Eigen::Index c0 = 0; c0 < p; c0 += kChunk) {
+    const Eigen::Index w = std::min(kChunk, p - c0);
+    r_side.resize(m, w);
+    x_side.resize(b, w);
+    for (Eigen::Index f = 0; f < w; ++f) {
+      for (Eigen::Index s = 0; s < m; ++s) r_side.set(s, f, ref.values(s, c0 + f));
+      const std::int64_t xc = x_columns[static_cast<std::size_t>(c0 + f)];
+      if (xc < 0) continue;
+      const float* col = x.col(xc).data();
+      for (Eigen::Index i = 0; i < b; ++i) x_side.set(i, f, col[rows[static_cast<std::size_t>(i)]]);
+    }
+    const Eigen::Index slices = (b + kSlice - 1) / kSlice;
+#pragma omp parallel for schedule(dynamic, 1) num_threads(threads)
+    for (Eigen::Index s = 0; s < slices; ++s) {
+      const Eigen::Index at = s * kSlice, h = std::min(kSlice, b - at);
+      d.middleRows(at, h).noalias() += x_side.v2.middleRows(at, h) * r_side.m.transpose();
+      d.middleRows(at, h).noalias() += x_side.m.middleRows(at, h) * r_side.v2.transpose();
+      d.middleRows(at, h).noalias() -= 2.0 * (x_side.v.middleRows(at, h) * r_side.v.transpose());
+      common.middleRows(at, h).noalias() += x_side.m.middleRows(at, h) * r_side.m.transpose();
+    }
+  }
+}
+
 }  // namespace
 
 std::vector<CellFills> knn_fills(const ConstMatrixRef& x, std::span<const std::int64_t> x_columns,
@@ -60,63 +91,32 @@ std::vector<CellFills> knn_fills(const ConstMatrixRef& x, std::span<const std::i
   const int threads = internal::thread_count(threads_asked);
   const auto k = static_cast<std::size_t>(std::max(1, ref.neighbors));
   // The rows with a gap to fill, and the gaps of each (fill positions, ascending).
-  std::vector<std::int64_t> slot(static_cast<std::size_t>(x.rows()), -1);
-  std::vector<std::int64_t> receivers;
-  std::vector<std::vector<std::int32_t>> gaps;
+  std::vector<std::vector<std::int32_t>> gaps(static_cast<std::size_t>(x.rows()));
   for (std::size_t c = 0; c < fill.size(); ++c) {
     const float* col = x.col(fill[c]).data();
-    for (Eigen::Index i = 0; i < x.rows(); ++i) {
-      if (!std::isnan(col[i])) continue;
-      if (slot[static_cast<std::size_t>(i)] < 0) {
-        slot[static_cast<std::size_t>(i)] = static_cast<std::int64_t>(gaps.size());
-        gaps.emplace_back();
-        receivers.push_back(i);
-      }
-      gaps[static_cast<std::size_t>(slot[static_cast<std::size_t>(i)])].push_back(static_cast<std::int32_t>(c));
-    }
+    for (Eigen::Index i = 0; i < x.rows(); ++i)
+      if (std::isnan(col[i])) gaps[static_cast<std::size_t>(i)].push_back(static_cast<std::int32_t>(c));
   }
-  // Receivers in row order, so each column's fills come out with rows ascending.
-  std::vector<std::size_t> by_row(receivers.size());
-  for (std::size_t r = 0; r < by_row.size(); ++r) by_row[r] = r;
-  std::sort(by_row.begin(), by_row.end(), [&](std::size_t a, std::size_t b) { return receivers[a] < receivers[b]; });
-
+  // In row order, so each column's fills come out with rows ascending.
+  std::vector<std::int64_t> receivers;
+  for (Eigen::Index i = 0; i < x.rows(); ++i)
+    if (!gaps[static_cast<std::size_t>(i)].empty()) receivers.push_back(i);
+  const std::span<const std::int64_t> rows(receivers);
   std::vector<CellFills> out(fill.size());
   const auto block = static_cast<Eigen::Index>(
       std::max<std::size_t>(kSlice, kBlockBytes / (16 * static_cast<std::size_t>(std::max<Eigen::Index>(m, 1)))));
   std::vector<std::vector<std::pair<std::int32_t, float>>> found;
-  Side r_side, x_side;
-  for (std::size_t first = 0; first < by_row.size(); first += static_cast<std::size_t>(block)) {
-    const auto b = static_cast<Eigen::Index>(std::min<std::size_t>(static_cast<std::size_t>(block), by_row.size() - first));
-    MatD d = MatD::Zero(b, m), common = MatD::Zero(b, m);
-    for (Eigen::Index c0 = 0; c0 < p; c0 += kChunk) {
-      const Eigen::Index w = std::min(kChunk, p - c0);
-      r_side.resize(m, w);
-      x_side.resize(b, w);
-      for (Eigen::Index f = 0; f < w; ++f) {
-        for (Eigen::Index s = 0; s < m; ++s) r_side.set(s, f, ref.values(s, c0 + f));
-        const std::int64_t xc = x_columns[static_cast<std::size_t>(c0 + f)];
-        if (xc < 0) continue;
-        const float* col = x.col(xc).data();
-        for (Eigen::Index i = 0; i < b; ++i) x_side.set(i, f, col[receivers[by_row[first + static_cast<std::size_t>(i)]]]);
-      }
-      const Eigen::Index slices = (b + kSlice - 1) / kSlice;
-#pragma omp parallel for schedule(dynamic, 1) num_threads(threads)
-      for (Eigen::Index s = 0; s < slices; ++s) {
-        const Eigen::Index at = s * kSlice, h = std::min(kSlice, b - at);
-        d.middleRows(at, h).noalias() += x_side.v2.middleRows(at, h) * r_side.m.transpose();
-        d.middleRows(at, h).noalias() += x_side.m.middleRows(at, h) * r_side.v2.transpose();
-        d.middleRows(at, h).noalias() -= 2.0 * (x_side.v.middleRows(at, h) * r_side.v.transpose());
-        common.middleRows(at, h).noalias() += x_side.m.middleRows(at, h) * r_side.m.transpose();
-      }
-    }
+  for (std::size_t first = 0; first < receivers.size(); first += static_cast<std::size_t>(block)) {
+    const auto b = static_cast<Eigen::Index>(std::min<std::size_t>(static_cast<std::size_t>(block), receivers.size() - first));
+    MatD d, common;
+    block_distances(x, x_columns, ref, rows.subspan(first, static_cast<std::size_t>(b)), threads, d, common);
     found.assign(static_cast<std::size_t>(b), {});
 #pragma omp parallel num_threads(threads)
     {
       std::vector<std::pair<double, std::int64_t>> order;
 #pragma omp for schedule(dynamic, 4)
       for (Eigen::Index i = 0; i < b; ++i) {
-        const std::size_t r = by_row[first + static_cast<std::size_t>(i)];
-        const std::int64_t row = receivers[r];
+        const std::int64_t row = receivers[first + static_cast<std::size_t>(i)];
         order.clear();
         for (Eigen::Index s = 0; s < m; ++s) {
           const double n_common = common(i, s);
@@ -125,7 +125,7 @@ std::vector<CellFills> knn_fills(const ConstMatrixRef& x, std::span<const std::i
           order.emplace_back(sum * static_cast<double>(p) / n_common, s);
         }
         std::sort(order.begin(), order.end());
-        for (const std::int32_t c : gaps[r]) {
+        for (const std::int32_t c : gaps[static_cast<std::size_t>(row)]) {
           const auto f = static_cast<Eigen::Index>(fill_feature[static_cast<std::size_t>(c)]);
           double sum = 0;
           std::size_t count = 0;
@@ -142,7 +142,7 @@ std::vector<CellFills> knn_fills(const ConstMatrixRef& x, std::span<const std::i
       }
     }
     for (Eigen::Index i = 0; i < b; ++i) {
-      const std::int64_t row = receivers[by_row[first + static_cast<std::size_t>(i)]];
+      const std::int64_t row = receivers[first + static_cast<std::size_t>(i)];
       for (const auto& [c, value] : found[static_cast<std::size_t>(i)]) out[static_cast<std::size_t>(c)].emplace_back(row, value);
     }
   }
