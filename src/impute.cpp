@@ -10,7 +10,9 @@
 
 #include <algorithm>  // std::sort, std::min, std::max
 #include <cmath>      // std::isnan
-#include <cstring>    // std::memcpy
+#include <cerrno>     // errno
+#include <cstring>    // std::memcpy, std::strerror
+#include <fstream>    // std::ifstream
 #include <limits>     // std::numeric_limits
 
 #include <Eigen/Dense>
@@ -179,24 +181,30 @@ void write_knn_reference_npy(const KnnReference& ref, const std::function<void(s
 }
 
 Matrix read_knn_reference_npy(const std::string& path, std::int64_t rows, std::int64_t cols) {
-  const std::string bytes = read_file_text(path);
   const auto bad = [&](const std::string& what) -> Matrix {
     throw_input_error({path}, what, "keep the impute reference pare wrote beside its plan, unchanged");
   };
-  if (bytes.size() < 10 || bytes.compare(0, 6, "\x93NUMPY") != 0 || bytes[6] != 1) return bad("not a .npy file of version 1");
-  const std::size_t length = static_cast<unsigned char>(bytes[8]) | (static_cast<std::size_t>(static_cast<unsigned char>(bytes[9])) << 8);
-  if (bytes.size() < 10 + length) return bad("a truncated .npy header");
-  const std::string header = bytes.substr(10, length);
+  std::ifstream in(path, std::ios::binary);
+  if (!in) throw Error(ErrorKind::kInput, path + ": cannot be read (" + std::strerror(errno) + ")");
+  char start[10];
+  if (!in.read(start, sizeof start) || std::string_view(start, 6) != std::string_view("\x93NUMPY", 6) || start[6] != 1)
+    return bad("not a .npy file of version 1");
+  const std::size_t length = static_cast<unsigned char>(start[8]) | (static_cast<std::size_t>(static_cast<unsigned char>(start[9])) << 8);
+  std::string header(length, '\0');
+  if (!in.read(header.data(), static_cast<std::streamsize>(length))) return bad("a truncated .npy header");
   const std::string shape = "'shape': (" + std::to_string(rows) + ", " + std::to_string(cols) + ")";
   if (header.find("'descr': '<f4'") == std::string::npos || header.find("'fortran_order': False") == std::string::npos ||
       header.find(shape) == std::string::npos)
     return bad("not float32 values of shape (" + std::to_string(rows) + ", " + std::to_string(cols) + ")");
-  const std::size_t at = 10 + length;
-  if (bytes.size() != at + static_cast<std::size_t>(rows * cols) * sizeof(float)) return bad("the data size does not match its header");
+  // Row by row (the file is C order) into the column-major matrix.
   Matrix values(rows, cols);
-  const char* from = bytes.data() + at;
-  for (std::int64_t i = 0; i < rows; ++i)
-    for (std::int64_t j = 0; j < cols; ++j, from += sizeof(float)) std::memcpy(&values(i, j), from, sizeof(float));
+  std::vector<float> row(static_cast<std::size_t>(cols));
+  for (std::int64_t i = 0; i < rows; ++i) {
+    if (!in.read(reinterpret_cast<char*>(row.data()), static_cast<std::streamsize>(row.size() * sizeof(float))))
+      return bad("the data size does not match its header");
+    for (std::int64_t j = 0; j < cols; ++j) values(i, j) = row[static_cast<std::size_t>(j)];
+  }
+  if (in.peek() != std::char_traits<char>::eof()) return bad("the data size does not match its header");
   return values;
 }
 

@@ -239,7 +239,10 @@ int command_project(const std::vector<std::string>& args, std::ostream& out) {
       "loadings.tsv, explained.tsv, plan.json (pare apply projects new samples with it),\n"
       "samples.tsv and report.html.\n\nthe projection",
       100, 50);
-  desc.add_options()("log2", po::bool_switch(&pipeline.reduce.log2),
+  std::string normalize;
+  desc.add_options()("normalize", po::value(&normalize)->value_name("HOW"),
+                     "first normalise every sample, as reduce --normalize does: sum or quantile")
+      ("log2", po::bool_switch(&pipeline.reduce.log2),
                      "analyse log2(x + 1) of the values, as reduce --log2 does")
       ("scale", po::bool_switch(&pipeline.projection.scale), "divide each centred feature by its sd");
   add_projection_options(desc, pipeline.projection, no_center, true);
@@ -250,6 +253,7 @@ int command_project(const std::vector<std::string>& args, std::ostream& out) {
   add_common_options(desc, common, "pare-project");
   if (!parse_command_line(args, desc, {{"data", &input.data}}, out)) return 0;
   pipeline.projection.center = !no_center;
+  if (!normalize.empty()) pipeline.reduce.normalize = parse_normalize(normalize);
   check_projection_options(pipeline.projection, true);
   check_input_options(input, common);
   std::vector<std::string> command_line{"pare", "project"};
