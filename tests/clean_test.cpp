@@ -4,6 +4,7 @@
 // tests/reference/clean_reference.py.
 #include <cmath>    // std::isnan
 #include <limits>   // std::numeric_limits
+#include <sstream>  // std::istringstream
 #include <string>   // std::string
 #include <vector>   // std::vector
 
@@ -11,6 +12,7 @@
 #include <nlohmann/json.hpp>
 
 #include "pare/clean.h"
+#include "pare/io.h"
 #include "support/cli_run.h"
 #include "support/temp_dir.h"
 
@@ -103,6 +105,27 @@ TEST_CASE("clean: floor, sparse samples and normalisation through reduce and app
       };
       const std::string t = line(trained), p = line(applied);
       CHECK(p.substr(0, t.size()) == t);  // the applied line has s6 appended
+    }
+  }
+  // project --normalize: the PCA of the normalised samples, and apply projects new samples the same.
+  const auto projected = pare::test::run({"project", data, "--layout", "rows=features", "--normalize", "quantile",
+                                          "--components", "2", "--out", dir.file("pca"), "--quiet"});
+  REQUIRE(projected.code == 0);
+  CHECK(nlohmann::json::parse(TempDir::read(dir.file("pca/plan.json"))).at("clean").at("normalize") == "quantile");
+  REQUIRE(pare::test::run({"apply", dir.file("pca/plan.json"), data, "--out", dir.file("pca-applied"), "--quiet"}).code == 0);
+  {
+    // The same samples get the same scores (to rounding: apply projects in another order).
+    std::istringstream trained(TempDir::read(dir.file("pca/scores.csv")));
+    std::istringstream applied(TempDir::read(dir.file("pca-applied/scores.csv")));
+    std::string a, b;
+    std::getline(trained, a);
+    std::getline(applied, b);
+    CHECK(a == b);
+    while (std::getline(trained, a) && std::getline(applied, b)) {
+      const auto x = pare::split_fields(a, ','), y = pare::split_fields(b, ',');
+      REQUIRE(x.size() == y.size());
+      CHECK(x[0] == y[0]);
+      for (std::size_t c = 1; c < x.size(); ++c) CHECK(std::stod(y[c]) == Approx(std::stod(x[c])).epsilon(1e-6).margin(1e-6));
     }
   }
   const auto bad = pare::test::run({"reduce", data, "--layout", "rows=features", "--floor-samples", "2", "--out",
