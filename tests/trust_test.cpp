@@ -311,7 +311,7 @@ TEST_CASE("trust: help shows placeholders and the steps in order", "[trust]") {
     REQUIRE(r.out.find("--data") == std::string::npos);
   }
   const Run reduce = ok({"reduce", "--help"});
-  REQUIRE(reduce.out.find("steps 1-8") != std::string::npos);
+  REQUIRE(reduce.out.find("steps 0-8") != std::string::npos);
   REQUIRE(reduce.out.find("--keep K") != std::string::npos);
   REQUIRE(reduce.out.find("--fdr Q") != std::string::npos);
   REQUIRE(reduce.out.find("--drop-missing-above FRACTION") != std::string::npos);

@@ -190,7 +190,7 @@ int command_reduce(const std::vector<std::string>& args, std::ostream& out) {
   po::options_description desc(
       "pare reduce DATA [--label COLUMN | --labels SHEET[:COLUMN] | --target COLUMN | --targets SHEET[:COLUMN]]\n"
       "            --out DIR [options]\n\n"
-      "Runs the reduction pipeline (steps 1-8 below, in order) and writes ranking.tsv,\n"
+      "Runs the reduction pipeline (steps 0-8 below, in order) and writes ranking.tsv,\n"
       "selection-log.tsv (one line per input feature: kept or dropped, by which step, why), the\n"
       "reduced matrix (reduced.csv, or reduced.tsv for tab-separated input), plan.json (replayable\n"
       "with pare apply), samples.tsv (per sample: label, missing rate, outlier distance and flag)\n"
