@@ -3,7 +3,7 @@
 (benchmarks/reference_pipeline.py: numpy on OpenBLAS, pandas, scipy, scikit-learn). Not run by CI.
 
     /usr/bin/python3 benchmarks/bench_reduce.py [--size 1000x50000] [--pare PATH] \
-        [--dir /tmp/pare-bench-data] [--seed 1] [--components 50] [--repeat 1] [--regen]
+        [--dir /tmp/pare-bench-data] [--seed 1] [--components 50] [--keep 5000] [--repeat 1] [--regen]
     make bench SIZE=2000x100000
 
 1. Generates (once; reused while the file exists, --regen rewrites it) SAMPLES x FEATURES of the
@@ -11,9 +11,11 @@
    blocks above and below |r| = 0.9), rows=samples with a `group` label column, into --dir.
 2. Reads the file once to warm the page cache, then runs, one after the other (never at the same
    time), each under /usr/bin/time -v:
-     pare reduce FILE --label group --components K --out DIR/pare
-     /usr/bin/python3 reference_pipeline.py FILE --label group --components K --out DIR/python
-   --repeat N runs the pair N times and keeps each side's fastest run (wall clock).
+     pare reduce FILE --label group --components K [--max-corr 0.9 --keep Q] --out DIR/pare-W
+     /usr/bin/python3 reference_pipeline.py FILE --label group --components K [...] --out DIR/python-W
+   for two workloads W: every survivor pruned ("all"), and the everyday one, pruning stopped at
+   --keep Q kept features (default 5000; --keep 0 runs only the first).
+   --repeat N runs each pair N times and keeps each side's fastest run (wall clock).
 3. Prints a Markdown table: seconds per step and end to end for pare and Python, the ratio
    Python / pare, CPU seconds, peak RSS of both (/usr/bin/time's maximum resident set size), the
    BLAS numpy uses, the load average before and after (wall times mean little on a busy machine).
@@ -171,78 +173,27 @@ def exact_eigenvalues(reduced_csv, label, k):
     return np.linalg.eigvalsh(gram)[::-1][:k] / (n - 1)
 
 
-def main():
-    ap = argparse.ArgumentParser(description=__doc__, formatter_class=argparse.RawDescriptionHelpFormatter)
-    default_pare = next((c for c in [os.path.join(HERE, "..", d, "pare")
-                                     for d in ("build-bench", "build/release")]
-                         if os.path.exists(c)), os.path.join(HERE, "..", "build-bench", "pare"))
-    ap.add_argument("--size", default=os.environ.get("SIZE", "1000x50000"),
-                    help="SAMPLESxFEATURES (default 1000x50000, or $SIZE)")
-    ap.add_argument("--pare", default=default_pare)
-    ap.add_argument("--dir", default="/tmp/pare-bench-data")
-    ap.add_argument("--seed", type=int, default=1)
-    ap.add_argument("--components", type=int, default=50)
-    ap.add_argument("--repeat", type=int, default=1)
-    ap.add_argument("--regen", action="store_true")
-    ap.add_argument("--no-pca-check", dest="pca_check", action="store_false",
-                    help="skip the exact eigenvalues (reads reduced.csv back; untimed)")
-    a = ap.parse_args()
-    m = re.fullmatch(r"(\d+)x(\d+)", a.size)
-    if not m:
-        print(f"bench_reduce.py: --size {a.size!r} is not SAMPLESxFEATURES (e.g. 1000x50000)",
-              file=sys.stderr)
-        return 2
-    n, p = int(m.group(1)), int(m.group(2))
-    if not os.path.exists("/usr/bin/time"):
-        print("bench_reduce.py: needs /usr/bin/time (apt-get install -y time)", file=sys.stderr)
-        return 2
-    pare = os.path.abspath(a.pare)
-    if not os.access(pare, os.X_OK):
-        print(f"bench_reduce.py: no pare binary at {pare}", file=sys.stderr)
-        return 2
-    os.makedirs(a.dir, exist_ok=True)
-    base = os.path.join(a.dir, f"planted-{n}x{p}-seed{a.seed}")
-    data = base + ".csv"
-    if a.regen or not os.path.exists(data):
-        t = time.perf_counter()
-        # Written under a temporary name: an interrupted run never leaves a truncated file that a
-        # later run would reuse.
-        rc = subprocess.run([PY, os.path.join(HERE, "make_wide_csv.py"), "--scenario", "planted",
-                             "--samples", str(n), "--features", str(p), "--seed", str(a.seed),
-                             "--out", data + ".part", "--truth", base + "-truth.tsv"]).returncode
-        if rc != 0:
-            return 1
-        os.replace(data + ".part", data)
-        print(f"generated {data} in {time.perf_counter() - t:.0f} s")
-    size = os.path.getsize(data)
-    version = subprocess.run([pare, "--version"], capture_output=True, text=True).stdout.strip()
-    print(f"data: {data}: {n:,} samples x {p:,} features, planted scenario (seed {a.seed}), "
-          f"{size / 1e6:,.0f} MB of CSV; float32 matrix {n * p * 4 / 1e6:,.0f} MB")
-    print(f"pare: {pare} ({version}); cores: {os.cpu_count()}")
-    with open(data, "rb") as f:  # warm the page cache so neither side reads from disk
-        while f.read(1 << 24):
-            pass
-
-    runs = os.path.join(a.dir, "runs", f"{n}x{p}")
-    os.makedirs(runs, exist_ok=True)
-    pare_dir, py_dir = os.path.join(runs, "pare"), os.path.join(runs, "python")
+def run_workload(a, pare, data, runs, n, p, name, options):
+    """One workload: pare and the reference side by side (--repeat times), the table, the checks.
+    Returns (exit code, Python / pare end-to-end ratio)."""
+    pare_dir, py_dir = os.path.join(runs, f"pare-{name}"), os.path.join(runs, f"python-{name}")
     k = str(a.components)
     load_before = load_average()
     best = {}
     for r in range(a.repeat):
         for side, cmd, out_dir in [
-                ("pare", [pare, "reduce", data, "--label", "group", "--components", k, "--out", pare_dir],
+                ("pare", [pare, "reduce", data, "--label", "group", "--components", k, *options, "--out", pare_dir],
                  pare_dir),
                 ("python", [PY, os.path.join(HERE, "reference_pipeline.py"), data, "--label", "group",
-                            "--components", k, "--out", py_dir], py_dir)]:
-            log = os.path.join(runs, f"{side}.log")
+                            "--components", k, *options, "--out", py_dir], py_dir)]:
+            log = os.path.join(runs, f"{side}-{name}.log")
             print(f"run {r + 1}/{a.repeat}: {side} ... (load average {load_average()})", flush=True)
             rc, wall, cpu, rss = timed(cmd, log)
             if rc != 0:
                 with open(log) as f:
                     sys.stderr.write(f.read()[-4000:])
                 print(f"bench_reduce.py: {side} failed (exit {rc}); log: {log}", file=sys.stderr)
-                return 1
+                return 1, None
             if side == "pare":
                 with open(os.path.join(out_dir, "plan.json")) as f:
                     steps = {s["step"]: s["seconds"] for s in json.load(f)["steps"]}
@@ -260,7 +211,7 @@ def main():
     blas = py_b["extra"].get("blas", "?")
     versions = py_b["extra"].get("versions", {})
     print()
-    print(f"### {n:,} x {p:,}, `pare reduce DATA --label group --components {k}`")
+    print(f"### {n:,} x {p:,}, `pare reduce DATA --label group --components {k}{''.join(' ' + e for e in options)}`")
     print()
     print(f"Python: numpy {versions.get('numpy')}, pandas {versions.get('pandas')}, scipy "
           f"{versions.get('scipy')}, scikit-learn {versions.get('sklearn')}; BLAS: {blas}")
@@ -318,7 +269,78 @@ def main():
     ok, lines = compare(pare_dir, py_dir)
     for line in lines:
         print(line)
-    return 0 if ok else 1
+    print()
+    return (0 if ok else 1), py_b["wall"] / pare_b["wall"]
+
+
+def main():
+    ap = argparse.ArgumentParser(description=__doc__, formatter_class=argparse.RawDescriptionHelpFormatter)
+    default_pare = next((c for c in [os.path.join(HERE, "..", d, "pare")
+                                     for d in ("build-bench", "build/release")]
+                         if os.path.exists(c)), os.path.join(HERE, "..", "build-bench", "pare"))
+    ap.add_argument("--size", default=os.environ.get("SIZE", "1000x50000"),
+                    help="SAMPLESxFEATURES (default 1000x50000, or $SIZE)")
+    ap.add_argument("--pare", default=default_pare)
+    ap.add_argument("--dir", default="/tmp/pare-bench-data")
+    ap.add_argument("--seed", type=int, default=1)
+    ap.add_argument("--components", type=int, default=50)
+    ap.add_argument("--repeat", type=int, default=1)
+    ap.add_argument("--regen", action="store_true")
+    ap.add_argument("--keep", type=int, default=5000,
+                    help="also run the everyday workload --max-corr 0.9 --keep K (0: only every survivor)")
+    ap.add_argument("--no-pca-check", dest="pca_check", action="store_false",
+                    help="skip the exact eigenvalues (reads reduced.csv back; untimed)")
+    a = ap.parse_args()
+    m = re.fullmatch(r"(\d+)x(\d+)", a.size)
+    if not m:
+        print(f"bench_reduce.py: --size {a.size!r} is not SAMPLESxFEATURES (e.g. 1000x50000)",
+              file=sys.stderr)
+        return 2
+    n, p = int(m.group(1)), int(m.group(2))
+    if not os.path.exists("/usr/bin/time"):
+        print("bench_reduce.py: needs /usr/bin/time (apt-get install -y time)", file=sys.stderr)
+        return 2
+    pare = os.path.abspath(a.pare)
+    if not os.access(pare, os.X_OK):
+        print(f"bench_reduce.py: no pare binary at {pare}", file=sys.stderr)
+        return 2
+    os.makedirs(a.dir, exist_ok=True)
+    base = os.path.join(a.dir, f"planted-{n}x{p}-seed{a.seed}")
+    data = base + ".csv"
+    if a.regen or not os.path.exists(data):
+        t = time.perf_counter()
+        # Written under a temporary name: an interrupted run never leaves a truncated file that a
+        # later run would reuse.
+        rc = subprocess.run([PY, os.path.join(HERE, "make_wide_csv.py"), "--scenario", "planted",
+                             "--samples", str(n), "--features", str(p), "--seed", str(a.seed),
+                             "--out", data + ".part", "--truth", base + "-truth.tsv"]).returncode
+        if rc != 0:
+            return 1
+        os.replace(data + ".part", data)
+        print(f"generated {data} in {time.perf_counter() - t:.0f} s")
+    size = os.path.getsize(data)
+    version = subprocess.run([pare, "--version"], capture_output=True, text=True).stdout.strip()
+    print(f"data: {data}: {n:,} samples x {p:,} features, planted scenario (seed {a.seed}), "
+          f"{size / 1e6:,.0f} MB of CSV; float32 matrix {n * p * 4 / 1e6:,.0f} MB")
+    print(f"pare: {pare} ({version}); cores: {os.cpu_count()}")
+    with open(data, "rb") as f:  # warm the page cache so neither side reads from disk
+        while f.read(1 << 24):
+            pass
+
+    runs = os.path.join(a.dir, "runs", f"{n}x{p}")
+    os.makedirs(runs, exist_ok=True)
+    workloads = [("all", [])]
+    if a.keep > 0:
+        workloads.append((f"keep{a.keep}", ["--max-corr", "0.9", "--keep", str(a.keep)]))
+    code, ratios = 0, []
+    for name, extra in workloads:
+        rc, ratio = run_workload(a, pare, data, runs, n, p, name, extra)
+        if ratio is None:
+            return rc
+        code = max(code, rc)
+        ratios.append((" ".join(extra) if extra else "every survivor pruned", ratio))
+    print("End to end, Python / pare: " + "; ".join(f"{w}: {r:.1f}x" for w, r in ratios))
+    return code
 
 
 if __name__ == "__main__":

@@ -234,9 +234,11 @@ def score_features(x, features, codes, n_classes, bins, mean, variance):
 
 # ---- correlation pruning -------------------------------------------------------------------
 
-def prune(x, candidates, limit, block):
+def prune(x, candidates, limit, block, max_kept=0):
     """Greedy pruning in candidate order (x: n x p float32, no gaps in the candidates' columns).
-    Returns (kept mask over candidates, partner position or -1, r with the partner)."""
+    Returns (kept mask over candidates, partner position or -1, r with the partner, candidates
+    examined). With max_kept the walk stops at the max_kept-th kept candidate, as pare's does:
+    the ones after it are not examined."""
     n = x.shape[0]
     count = candidates.size
     # Forward error bound of a float32 dot product of two unit vectors of length n (gamma_n <=
@@ -312,11 +314,18 @@ def prune(x, candidates, limit, block):
                     keep_b[b] = False
                     partner[start + b], partner_r[start + b] = start + j, r
         new = np.flatnonzero(keep_b)
+        if max_kept and nk + new.size >= max_kept:
+            new = new[:max_kept - nk]
+            last = start + new[-1]
+            kept[start + new] = True
+            partner[last + 1:] = -1
+            partner_r[last + 1:] = 0
+            return kept, partner, partner_r, last + 1
         zk[nk:nk + new.size] = zb[:, new].T
         kept_pos[nk:nk + new.size] = start + new
         kept[start + new] = True
         nk += new.size
-    return kept, partner, partner_r
+    return kept, partner, partner_r, count
 
 
 # ---- writing -------------------------------------------------------------------------------
@@ -344,6 +353,7 @@ def main():
     ap.add_argument("--min-variance", type=float, default=1e-8)
     ap.add_argument("--bins", type=int, default=10)
     ap.add_argument("--max-corr", type=float, default=0.9)
+    ap.add_argument("--keep", type=int, default=0, help="stop pruning at K kept features (0 = all)")
     ap.add_argument("--block", type=int, default=1024, help="candidates per matrix product")
     ap.add_argument("--seed", type=int, default=0, help="random_state of the randomized SVD")
     a = ap.parse_args()
@@ -436,11 +446,16 @@ def main():
         xb = x[:, cols]
         x[:, cols] = np.where(np.isnan(xb), fill[cols], xb)
     # 6. redundancy
-    kept_mask, partner, partner_r = prune(x, candidates, a.max_corr, a.block)
+    kept_mask, partner, partner_r, examined = prune(x, candidates, a.max_corr, a.block, a.keep)
     kept = candidates[kept_mask]
     rank_of = np.zeros(candidates.size, dtype=np.int64)
     rank_of[kept_mask] = np.arange(1, kept.size + 1)
-    for i in np.flatnonzero(~kept_mask):
+    # 7. top: with --keep, the candidates the walk did not reach
+    for j in candidates[examined:]:
+        step[j] = "top"
+        reason[j] = (f"not reached: the first {a.keep} were already kept (--keep {a.keep}), "
+                     "so it was not compared for redundancy")
+    for i in np.flatnonzero(~kept_mask[:examined]):
         j = candidates[i]
         step[j] = "redundancy"
         reason[j] = (f"|r| = {abs(partner_r[i]):.3f} with {names[candidates[partner[i]]]} "
