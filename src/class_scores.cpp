@@ -322,8 +322,11 @@ ClassResult finish(const float* column, std::int64_t n_rows, std::span<const int
   return r;
 }
 
-// The class tallies of the observed values of column[0..n_rows-1], in row order.
-void tally_classes(const float* column, std::int64_t n_rows, std::span<const int> codes, int k, ClassScratch& s) {
+// The class tallies of the observed values of column[0..n_rows-1], in row order, with
+// `each(v, i)` called for every observed value on the same pass.
+template <typename EachObserved>
+void tally_classes(const float* column, std::int64_t n_rows, std::span<const int> codes, int k, ClassScratch& s,
+                   EachObserved&& each) {
   s.class_count.assign(static_cast<std::size_t>(k), 0);
   s.class_sum.assign(static_cast<std::size_t>(k), 0.0);
   for (std::int64_t i = 0; i < n_rows; ++i) {
@@ -332,6 +335,7 @@ void tally_classes(const float* column, std::int64_t n_rows, std::span<const int
     const auto c = static_cast<std::size_t>(codes[static_cast<std::size_t>(i)]);
     ++s.class_count[c];
     s.class_sum[c] += static_cast<double>(v);
+    each(v, i);
   }
 }
 
@@ -364,17 +368,10 @@ ClassResult score_class_column(const float* column, std::int64_t n_rows, std::sp
   const ColumnStats stats =
       known ? *known : column_stats(std::span<const float>(column, static_cast<std::size_t>(n_rows)));
   // One pass: the class tallies and the keys together.
-  s.class_count.assign(static_cast<std::size_t>(k), 0);
-  s.class_sum.assign(static_cast<std::size_t>(k), 0.0);
   s.keys.clear();
-  for (std::int64_t i = 0; i < n_rows; ++i) {
-    const float v = column[i];
-    if (std::isnan(v)) continue;
-    const auto c = static_cast<std::size_t>(codes[static_cast<std::size_t>(i)]);
-    ++s.class_count[c];
-    s.class_sum[c] += static_cast<double>(v);
+  tally_classes(column, n_rows, codes, k, s, [&](float v, std::int64_t i) {
     s.keys.push_back(static_cast<std::uint64_t>(order_key(v)) << 32 | static_cast<std::uint32_t>(i));
-  }
+  });
   return finish(column, n_rows, codes, k, options, s, stats, wanted, [&] { sort_keys(s.keys, s.buffer); });
 }
 
@@ -387,7 +384,7 @@ ClassResult score_class_rows(const float* column, std::span<const std::int64_t> 
   for (std::size_t i = 0; i < rows.size(); ++i) s.gathered[i] = column[rows[i]];
   const float* x = s.gathered.data();
   const ColumnStats stats = column_stats(std::span<const float>(x, rows.size()));
-  tally_classes(x, n_rows, codes, k, s);
+  tally_classes(x, n_rows, codes, k, s, [](float, std::int64_t) {});
   // The sorted keys of the subset: the column's, in the same order, with the row replaced by its
   // place in `rows` (ascending rows keep ties in row order).
   // Branch-free: about half the rows are in a subset, in no pattern a predictor could learn.
