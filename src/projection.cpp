@@ -5,7 +5,7 @@
 #include <Eigen/SVD>
 
 #include <algorithm>  // std::min, std::max, std::stable_sort
-#include <cmath>      // std::sqrt, std::hypot, std::abs
+#include <cmath>      // std::sqrt, std::hypot, std::abs, std::log
 #include <limits>     // std::numeric_limits
 #include <utility>    // std::move
 #include <vector>     // std::vector
@@ -151,6 +151,32 @@ MatD gram_wide_float(const ConstMatrixRef& x, int threads) {
   return g;
 }
 
+// The lower triangle of X X^T (X float n x p, wide) in double: pieces of kGramPiece columns
+// taken in order, each added to the sum over fixed stripes of kGramStripe rows (one stripe per
+// task), so every entry is the same sum in the same order for any number of threads.
+MatD gram_wide_double(const ConstMatrixRef& x, int threads) {
+  const Index n = x.rows(), p = x.cols();
+  MatD g = MatD::Zero(n, n);
+  const Index stripes = (n + kGramStripe - 1) / kGramStripe;
+  ProgressStep progress("PCA Gram matrix", p, "features");
+  for (Index c0 = 0; c0 < p; c0 += kGramPiece) {
+    const Index w = std::min(kGramPiece, p - c0);
+    const kernels::Operand piece = columns_of(x, c0);  // n x w
+#pragma omp parallel for schedule(dynamic, 1) num_threads(threads)
+    for (Index task = 0; task < stripes; ++task) {
+      const Index s = stripes - 1 - task;
+      const Index r0 = s * kGramStripe, r1 = std::min(n, r0 + kGramStripe);
+      kernels::Operand rows = piece;
+      rows.data = x.data() + c0 * x.outerStride() + r0;
+      kernels::gemm(kernels::Shape{r1 - r0, r1, w, true, r0}, rows, kernels::transposed(piece), g.data() + r0, n,
+                    true);
+    }
+    internal::release_column_span(x, c0, c0 + w - 1);
+    progress.add(w);
+  }
+  return g;
+}
+
 // Double products of the iteration's small matrices, through the kernels too.
 kernels::Operand operand(const MatD& a) { return kernels::columns(a.data(), a.rows()); }
 
@@ -162,6 +188,25 @@ MatD product(const kernels::Operand& a, const kernels::Operand& b, Index m, Inde
 }
 
 MatD mul(const MatD& a, const MatD& b) { return product(operand(a), operand(b), a.rows(), b.cols(), a.cols()); }
+
+// The same product spread over the threads: the rows of C in fixed stripes, one stripe per task
+// (each entry is the same sum, whichever task computes it).
+MatD parallel_product(const kernels::Operand& a, const kernels::Operand& b, Index m, Index n, Index k,
+                      int threads) {
+  constexpr Index kStripe = 64;
+  MatD c(m, n);
+  const Index stripes = (m + kStripe - 1) / kStripe;
+  const bool worth_it = static_cast<double>(m) * static_cast<double>(n) * static_cast<double>(k) > 1e6;
+#pragma omp parallel for schedule(static) num_threads(threads) if (worth_it && stripes > 1)
+  for (Index s = 0; s < stripes; ++s) {
+    const Index r0 = s * kStripe, h = std::min(kStripe, m - r0);
+    kernels::Operand rows = a;
+    rows.data = static_cast<const char*>(a.data) +
+                r0 * a.row_stride * static_cast<Index>(a.single ? sizeof(float) : sizeof(double));
+    kernels::gemm(kernels::Shape{h, n, k}, rows, b, c.data() + r0, m, false);
+  }
+  return c;
+}
 
 // A^T B.
 MatD mul_tn(const MatD& a, const MatD& b) {
@@ -398,25 +443,23 @@ Factors dense_pca(const ConstMatrixRef& x, bool wide, Index k, int threads, Proj
 }
 
 // The short side's Gram operator M = X X^T (wide) or X^T X (tall), applied as two products with X
-// (in float or double), never formed; or, with `use_gram` (wide, float), formed once in double
-// and applied as one product.
+// (in float or double), never formed; or, with `use_gram` (wide), formed once in double (from
+// float or double products) and applied as one product.
 class GramOperator {
  public:
   GramOperator(const ConstMatrixRef& x, bool wide, bool use_float, bool use_gram, int threads)
       : x_(x), wide_(wide), use_float_(use_float), use_gram_(use_gram), threads_(threads) {
-    if (use_gram_) g_lower_ = gram_wide_float(x_, threads_);
+    if (use_gram_) {
+      g_ = use_float_ ? gram_wide_float(x_, threads_) : gram_wide_double(x_, threads_);
+      g_.triangularView<Eigen::StrictlyUpper>() = g_.transpose();
+    }
   }
 
   // M Q.
   MatD apply(const MatD& q) const {
     if (use_gram_) {
-      // G Q with G symmetric, its lower triangle stored.
       const Index n = x_.rows();
-      kernels::Operand g = kernels::columns(g_lower_.data(), n);
-      g.lower_symmetric = true;
-      MatD y(n, q.cols());
-      kernels::gemm(kernels::Shape{n, q.cols(), n}, g, kernels::columns(q.data(), n), y.data(), n, false);
-      return y;
+      return parallel_product(operand(g_), operand(q), n, q.cols(), n, threads_);
     }
     if (use_float_) {
       const MatF qf = q.cast<float>();
@@ -432,7 +475,7 @@ class GramOperator {
   const ConstMatrixRef& x_;
   bool wide_, use_float_, use_gram_;
   int threads_;
-  MatD g_lower_;  // with use_gram: the lower triangle of X X^T
+  MatD g_;  // with use_gram: X X^T
 };
 
 // The first block of the Krylov space: `block` normal columns from the seed, orthonormalised.
@@ -444,62 +487,84 @@ MatD start_block(Index m, Index block, std::uint64_t seed) {
   return orthonormal_columns(start);
 }
 
-// One block Krylov iteration: `y` = M times the newest block is orthogonalised against every
-// block of the basis (two passes), its coefficients extend T by a block row and column, and the
-// QR of the remainder gives the next block and its R factor (the residuals' source).
+// The Krylov basis: orthonormal columns [0, used) of `v`, grown block by block, and the projected
+// matrix T = V^T M V over every column but the newest block's (M times the newest block is the
+// next iteration's product).
+struct KrylovBasis {
+  MatD v;          // m x capacity
+  Index used = 0;  // columns in use
+  Index last = 0;  // width of the newest block: columns [used - last, used)
+  MatD t;          // (used - last) x (used - last)
+
+  kernels::Operand columns() const { return kernels::columns(v.data(), v.rows()); }
+  MatD newest() const { return v.middleCols(used - last, last); }
+  void append(const MatD& block) {
+    v.middleCols(used, block.cols()) = block;
+    used += block.cols();
+    last = block.cols();
+  }
+};
+
+// V^T A over the basis columns in use (used x a.cols()).
+MatD basis_tn(const KrylovBasis& kb, const MatD& a, int threads) {
+  return parallel_product(kernels::transposed(kb.columns()), operand(a), kb.used, a.cols(), kb.v.rows(), threads);
+}
+
+// A minus V C over the basis columns in use.
+void subtract_basis(const KrylovBasis& kb, const MatD& c, MatD& a, int threads) {
+  a -= parallel_product(kb.columns(), operand(c), kb.v.rows(), c.cols(), kb.used, threads);
+}
+
+// One block Krylov iteration: `y` = M times the newest block is orthogonalised against the whole
+// basis (two passes, each one product with all basis columns), its coefficients extend T by the
+// newest block's row and column, and the QR of the remainder gives the next block and its R
+// factor (the residuals' source).
 struct KrylovStep {
   MatD next;  // the next block, orthonormal and orthogonal to the basis
   MatD r;     // R = next^T y for the orthogonalised y
 };
 
-KrylovStep extend_basis(const std::vector<MatD>& basis, MatD& t, MatD y, Index block) {
-  const Index b = static_cast<Index>(basis.size());
-  MatD coef = MatD::Zero(b * block, block);
-  for (int pass = 0; pass < 2; ++pass)
-    for (Index j = 0; j < b; ++j) {
-      const MatD c = mul_tn(basis[static_cast<std::size_t>(j)], y);
-      y -= mul(basis[static_cast<std::size_t>(j)], c);
-      coef.middleRows(j * block, block) += c;
-    }
-  MatD grown = MatD::Zero(b * block, b * block);
-  grown.topLeftCorner((b - 1) * block, (b - 1) * block) = t;
-  grown.rightCols(block) = coef;
-  grown.bottomRows(block) = coef.transpose();
-  const MatD diagonal = coef.bottomRows(block);
-  grown.bottomRightCorner(block, block) = (diagonal + diagonal.transpose()) / 2;
-  t.swap(grown);
+KrylovStep extend_basis(KrylovBasis& kb, MatD y, int threads) {
+  const Index w = kb.last, old = kb.used - w;
+  MatD coef = MatD::Zero(kb.used, y.cols());
+  for (int pass = 0; pass < 2; ++pass) {
+    const MatD c = basis_tn(kb, y, threads);
+    subtract_basis(kb, c, y, threads);
+    coef += c;
+  }
+  MatD grown(kb.used, kb.used);
+  grown.topLeftCorner(old, old) = kb.t;
+  grown.rightCols(w) = coef;
+  grown.bottomLeftCorner(w, old) = coef.topRows(old).transpose();
+  const MatD diagonal = coef.bottomRows(w);
+  grown.bottomRightCorner(w, w) = (diagonal + diagonal.transpose()) / 2;
+  kb.t.swap(grown);
 
   KrylovStep step;
   step.next = orthonormal_columns(y);
   step.r = mul_tn(step.next, y);
   // Guard against a nearly invariant space: make the new block orthogonal again.
-  for (Index j = 0; j < b; ++j)
-    step.next -= mul(basis[static_cast<std::size_t>(j)], mul_tn(basis[static_cast<std::size_t>(j)], step.next));
+  subtract_basis(kb, basis_tn(kb, step.next, threads), step.next, threads);
   step.next = orthonormal_columns(step.next);
   return step;
 }
 
 // The convergence test: the largest residual ||R s_last|| of the leading k Ritz pairs relative to
-// the largest Ritz value, s_last the last `block` rows of a Ritz vector's coordinates (largest
-// first) on a basis of b blocks.
-double ritz_residual(const RitzPairs& pairs, const MatD& r, Index b, Index block, Index k) {
+// the largest Ritz value, s_last the rows of a Ritz vector's coordinates (largest first) on the
+// newest block.
+double ritz_residual(const RitzPairs& pairs, const MatD& r, const KrylovBasis& kb, Index k) {
   const VecD& theta = pairs.values();
-  const MatD tail = pairs.rows(b * block - block, block, k);
+  const MatD tail = pairs.rows(kb.used - kb.last, kb.last, k);
   double worst = 0;
   const double top = std::max(theta(0), 1e-300);
   for (Index c = 0; c < k; ++c) worst = std::max(worst, (r * tail.col(c)).norm() / top);
   return worst;
 }
 
-// The leading `block` Ritz vectors (m x block): the basis times their coordinates.
-MatD ritz_vectors(const RitzPairs& pairs, const std::vector<MatD>& basis, Index m, Index block) {
-  const auto b = static_cast<Index>(basis.size());
-  const MatD svec = pairs.rows(0, b * block, block);
-  MatD ritz = MatD::Zero(m, block);
-  for (Index j = 0; j < b; ++j)
-    kernels::gemm(kernels::Shape{m, block, block}, operand(basis[static_cast<std::size_t>(j)]),
-                  kernels::columns(svec.data() + j * block, svec.rows()), ritz.data(), m, true);
-  return ritz;
+// The leading `count` Ritz vectors (m x count): the basis times their coordinates.
+MatD ritz_vectors(const RitzPairs& pairs, const KrylovBasis& kb, Index count, int threads) {
+  const MatD svec = pairs.rows(0, kb.used, count);
+  return parallel_product(kb.columns(), operand(svec), kb.v.rows(), count, kb.used, threads);
 }
 
 // The final Rayleigh-Ritz step in double: the SVD of X^T U (wide) or X U (tall) on the Ritz space.
@@ -509,7 +574,9 @@ Factors rayleigh_ritz(const ConstMatrixRef& x, const MatD& ritz, bool wide, Inde
     const Triplets svd = leading_svd(times_t<double>(x, ritz, threads), k);  // of X^T U, p x block
     f.sigma = svd.sigma;
     f.loadings = svd.u;
-    f.scores = mul(ritz, svd.v) * f.sigma.asDiagonal();
+    // X V, not U W Sigma: the scores are the analysed matrix times the loadings to rounding, not
+    // to the Ritz residual (so apply reproduces them).
+    f.scores = times<double>(x, f.loadings, threads);
   } else {
     const Triplets svd = leading_svd(times<double>(x, ritz, threads), k);  // of X U, n x block
     f.sigma = svd.sigma;
@@ -534,8 +601,8 @@ enum class KrylovEnd {
 // matrix products that run at GEMM speed, which is why it beats both Lanczos with single vectors
 // (memory-bound matrix-vector products) and randomized subspace iteration here (see
 // notebooks-free-docs/numerics.md). Large matrices iterate with float32 products; the final
-// Rayleigh-Ritz step is in double.
-KrylovEnd krylov_pca(const ConstMatrixRef& x, const ProjectionOptions& o, Index block, int threads, Projection& out,
+// Rayleigh-Ritz step, on the leading `keep` = K + oversample Ritz vectors, is in double.
+KrylovEnd krylov_pca(const ConstMatrixRef& x, const ProjectionOptions& o, Index keep, int threads, Projection& out,
                      Factors& f) {
   const Index n = x.rows(), p = x.cols(), m = std::min(n, p), k = o.components;
   const bool wide = n <= p;
@@ -544,43 +611,72 @@ KrylovEnd krylov_pca(const ConstMatrixRef& x, const ProjectionOptions& o, Index 
       o.float_products || static_cast<double>(n) * static_cast<double>(p) > static_cast<double>(Index{1} << 24);
   out.precision = use_float ? "float" : "double";
   const double tolerance = use_float ? std::max(o.tolerance, 3e-5) : o.tolerance;
-  // A wide matrix of up to 32 blocks' worth of samples: its Gram matrix X X^T is formed once
+  // A wide matrix of up to 32 `keep`s of samples: its Gram matrix X X^T is formed once
   // (n^2 p / 2 products), which costs less than the two products per Krylov block (2 n p b each)
-  // of the usual eight or more blocks (n / 2 < 16 b); the blocks then multiply by the n x n Gram
-  // matrix.
-  const bool use_gram = use_float && wide && n <= 32 * block;
+  // over the usual space of four or more `keep`s of columns (n / 2 < 16 keep); the blocks then
+  // multiply by the n x n Gram matrix.
+  const bool use_gram = wide && n <= 32 * keep;
   if (use_gram) out.method = "block Krylov on the Gram matrix";
   const GramOperator op(x, wide, use_float, use_gram, threads);
+  // Block width: on the Gram matrix a product costs little, and narrow blocks (a quarter of
+  // `keep`, 8 to 16 columns) reach the tolerance in a smaller space, which keeps the eigenproblems
+  // of T small: at 1,000 x 5,000 and K = 50, 22 blocks of 15 columns against 11 of 60, in a
+  // quarter of the time. Applied as two products with X, every block is a pass over the data, so
+  // one block holds all `keep` columns (fewer passes). The `block` option overrides both.
+  const Index block = o.block > 0             ? std::min<Index>(o.block, keep)
+                      : use_gram              ? std::min<Index>(keep, std::clamp<Index>((keep + 3) / 4, 8, 16))
+                                              : keep;
 
-  std::vector<MatD> basis{start_block(m, block, o.seed)};
-  MatD t(0, 0);
+  // By default the space may grow to 60 `keep`s of columns; it stops short of the short side.
+  const Index max_blocks = o.max_iterations > 0 ? o.max_iterations : (60 * keep + block - 1) / block;
+  KrylovBasis kb;
+  kb.v.resize(m, std::min(m, 4 * keep + block));
+  kb.append(start_block(m, block, o.seed));
   ProgressStep progress("PCA", 0, "blocks");  // how many it takes is not known in advance
-  for (int it = 1; it <= o.max_iterations; ++it) {
+  bool checked = false;
+  // On the Gram matrix, checks are skipped while the residuals' geometric decay says the tolerance
+  // is still far: the next check comes after half the blocks the last two checks predict (a check
+  // solves the eigenproblem of T, whose cost grows with the cube of the space, and the blocks are
+  // cheap). With two products per block every block is checked: a block costs more than a check.
+  Index next_check = 0, last_check = 0;
+  double last_residual = 0;
+  for (Index it = 1; it <= max_blocks; ++it) {
     progress.add(1);
-    const Index b = static_cast<Index>(basis.size());
-    KrylovStep step = extend_basis(basis, t, op.apply(basis.back()), block);
-    const RitzPairs pairs(t);
-    if (!pairs.ok()) throw Error(ErrorKind::kOther, "PCA: the eigensolver failed");
-    const double worst = ritz_residual(pairs, step.r, b, block, k);
-    out.iterations = it;
-    out.residual = worst;
-    const bool exhausted = (b + 1) * block > m;
-    // Another whole block no longer fits beside the basis (b blocks, under m columns), so the
-    // Krylov space cannot grow to meet the tolerance: compute exactly instead. By now the
-    // iteration has cost about as much as the dense method.
-    if (worst > tolerance && exhausted) return KrylovEnd::kExhausted;
-    if (worst <= tolerance) {
-      f = rayleigh_ritz(x, ritz_vectors(pairs, basis, m, block), wide, k, threads);
-      return KrylovEnd::kConverged;
+    KrylovStep step = extend_basis(kb, op.apply(kb.newest()), threads);
+    out.iterations = static_cast<int>(it);
+    if (kb.used >= keep && (it >= next_check || kb.used + block > m || it == max_blocks)) {
+      // enough Ritz pairs to test and to keep
+      const RitzPairs pairs(kb.t);
+      if (!pairs.ok()) throw Error(ErrorKind::kOther, "PCA: the eigensolver failed");
+      out.residual = ritz_residual(pairs, step.r, kb, k);
+      checked = true;
+      if (out.residual <= tolerance) {
+        f = rayleigh_ritz(x, ritz_vectors(pairs, kb, keep, threads), wide, k, threads);
+        return KrylovEnd::kConverged;
+      }
+      next_check = it + 1;
+      if (last_check > 0 && out.residual < last_residual) {
+        const double rate = std::log(out.residual / last_residual) / static_cast<double>(it - last_check);
+        const double to_go = std::log(tolerance / out.residual) / rate;
+        if (use_gram && to_go >= 4) next_check = it + static_cast<Index>(to_go / 2);
+      }
+      last_check = it;
+      last_residual = out.residual;
     }
-    basis.push_back(std::move(step.next));
+    // Another block no longer fits beside the basis, so the Krylov space cannot grow to meet the
+    // tolerance: compute exactly instead. By now the iteration has cost about as much as the
+    // dense method.
+    if (kb.used + block > m) return KrylovEnd::kExhausted;
+    if (kb.used + block > kb.v.cols()) kb.v.conservativeResize(m, std::min(m, 2 * kb.v.cols()));
+    kb.append(step.next);
   }
   // A status, not an error: the caller decides (a run stops, the sample screen goes without).
   out.converged = false;
-  out.status = "PCA did not converge: after " + std::to_string(o.max_iterations) +
-               " Krylov blocks the largest relative residual is " + std::to_string(out.residual) + " (tolerance " +
-               std::to_string(tolerance) + ")";
-  out.iterations = o.max_iterations;
+  out.status = "PCA did not converge: after " + std::to_string(max_blocks) + " Krylov blocks of " +
+               std::to_string(block) + " columns ";
+  out.status += checked ? "the largest relative residual is " + std::to_string(out.residual) + " (tolerance " +
+                              std::to_string(tolerance) + ")"
+                        : "the space is still narrower than the " + std::to_string(keep) + " Ritz vectors needed";
   return KrylovEnd::kNotConverged;
 }
 
@@ -626,12 +722,12 @@ Projection truncated_pca(MatrixRef x, const ProjectionOptions& o) {
   out.total_variance = frobenius2 / static_cast<double>(n - 1);
 
   const bool wide = n <= p;
-  const Index block = std::min(m, k + std::max<std::int64_t>(0, o.oversample));
+  const Index keep = std::min(m, k + std::max<std::int64_t>(0, o.oversample));
   Factors f;
-  if (m <= 256 || 2 * block >= m) {
+  if (m <= 256 || 2 * keep >= m) {
     f = dense_pca(x, wide, k, threads, out);  // small side
   } else {
-    switch (krylov_pca(x, o, block, threads, out, f)) {
+    switch (krylov_pca(x, o, keep, threads, out, f)) {
       case KrylovEnd::kConverged:
         break;
       case KrylovEnd::kExhausted:

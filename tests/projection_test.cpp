@@ -331,9 +331,9 @@ TEST_CASE("SVD worked example of a 4 x 5 matrix (uncentred)", "[projection]") {
 
 TEST_CASE("block Krylov and dense agree with the eigensolver on the Gram matrix", "[projection]") {
   // Reference: Eigen::SelfAdjointEigenSolver on X^T X formed in double in this test, for the
-  // matrix truncated_pca analysed. The path is chosen by shape: min(n, p) = 300 > 256 with
+  // matrix truncated_pca analysed. The path is chosen by shape: min(n, p) >= 300 > 256 with
   // K + oversample = 16 runs block Krylov; oversample 300 forces the dense path on the same data.
-  // Tolerances: Krylov stops when every Ritz residual ||r|| <= 1e-7 x theta_1; then eigenvalue
+  // Tolerances: Krylov stops when every Ritz residual ||r|| <= 1e-8 x theta_1 (the default); then eigenvalue
   // errors are at most ||r||^2 / gap (Golub & Van Loan §8.1, Kato-Temple) and vector errors
   // ||r|| / gap, with gaps here >= 5% of theta_1: sigma to 1e-9 relative, loadings to 1e-5,
   // subspace angle sine 1e-5. The dense path is exact to rounding of a Gram matrix, whose
@@ -342,7 +342,9 @@ TEST_CASE("block Krylov and dense agree with the eigensolver on the Gram matrix"
     Index n, p;
     bool center, scale;
   };
-  for (const Shape s : {Shape{300, 700, true, false}, Shape{300, 700, false, false},
+  // A wide matrix of up to 32 (K + oversample) = 512 samples iterates on its Gram matrix, formed
+  // once; a wider one (600 x 1,400) and a tall one apply X twice per block.
+  for (const Shape s : {Shape{300, 700, true, false}, Shape{600, 1400, false, false},
                         Shape{900, 300, true, true}, Shape{300, 700, true, true}}) {
     const Index k = 6;
     const pare::Matrix data = decaying(s.n, s.p, 7 + static_cast<std::uint64_t>(s.n));
@@ -357,7 +359,7 @@ TEST_CASE("block Krylov and dense agree with the eigensolver on the Gram matrix"
     INFO(s.n << " x " << s.p << (s.center ? " centred" : " uncentred") << (s.scale ? " scaled" : "")
              << ": Krylov " << krylov.iterations << " blocks, residual " << krylov.residual << " ("
              << krylov.precision << ")");
-    REQUIRE(krylov.method == "block Krylov");
+    REQUIRE(krylov.method == (s.n <= s.p && s.n <= 512 ? "block Krylov on the Gram matrix" : "block Krylov"));
     REQUIRE(krylov.precision == "double");  // n p < 2^24
     REQUIRE(dense.method == "dense");
     REQUIRE(xk == xd);  // the same analysed matrix
@@ -532,19 +534,28 @@ TEST_CASE("K out of range is a usage error naming the limit", "[projection]") {
 }
 
 TEST_CASE("no convergence is a status, and a run that needs the PCA stops on it", "[projection]") {
-  // One Krylov block and a tolerance no floating-point residual can meet: truncated_pca returns
-  // with converged false and says how far it got (projection.h), without throwing.
+  // Three Krylov blocks (of 8 columns, for K + 10 = 15 Ritz vectors) and a tolerance no
+  // floating-point residual can meet: truncated_pca returns with converged false and says how far
+  // it got (projection.h), without throwing.
   pare::Matrix x = decaying(300, 700, 5);
   pare::ProjectionOptions o;
   o.components = 5;
-  o.max_iterations = 1;
+  o.max_iterations = 3;
   o.tolerance = 1e-300;
-  const pare::Projection pr = pare::truncated_pca(x, o);
+  pare::Matrix copy = x;
+  const pare::Projection pr = pare::truncated_pca(copy, o);
   REQUIRE_FALSE(pr.converged);
   REQUIRE(pr.status.find("did not converge") != std::string::npos);
-  REQUIRE(pr.iterations == 1);
+  REQUIRE(pr.status.find("largest relative residual") != std::string::npos);
+  REQUIRE(pr.iterations == 3);
   REQUIRE(pr.residual > 0);
   REQUIRE(pr.scores.size() == 0);
+  // One block of 8 columns never holds the 15 Ritz vectors a check needs: the status says so.
+  o.max_iterations = 1;
+  copy = x;
+  const pare::Projection short_space = pare::truncated_pca(copy, o);
+  REQUIRE_FALSE(short_space.converged);
+  REQUIRE(short_space.status.find("narrower than the 15 Ritz vectors") != std::string::npos);
   // run_pipeline turns it into an error naming the options that help.
   pare::FeatureTable table;
   table.values.resize(300, 700);
@@ -567,12 +578,13 @@ TEST_CASE("no convergence is a status, and a run that needs the PCA stops on it"
 
 TEST_CASE("results are bit-identical for 1 and 2 threads", "[projection]") {
   // SPEC §5: outputs must not depend on --threads. Dense (wide and tall) and block Krylov (wide
-  // and tall), centred and scaled: every output compared bit for bit.
+  // on the Gram matrix, wide with two products per block, tall), centred and scaled: every output
+  // compared bit for bit.
   struct Case {
     Index n, p, k;
   };
-  for (const Case c :
-       {Case{60, 500, 5}, Case{500, 60, 5}, Case{300, 1200, 8}, Case{1500, 300, 8}}) {
+  for (const Case c : {Case{60, 500, 5}, Case{500, 60, 5}, Case{300, 1200, 8}, Case{700, 1400, 8},
+                       Case{1500, 300, 8}}) {
     const pare::Matrix data = decaying(c.n, c.p, 99);
     const pare::Projection one = run_pca(data, c.k, true, true, 10, 1);
     const pare::Projection two = run_pca(data, c.k, true, true, 10, 2);

@@ -17,9 +17,14 @@ struct ProjectionOptions {
   std::int64_t components = 2;   ///< K, 1 <= K <= min(n, p)
   bool center = true;            ///< false: truncated SVD of the raw values
   bool scale = false;            ///< divide each centred column by its sd (correlation PCA)
-  double tolerance = 1e-7;       ///< convergence: every Ritz residual <= tolerance x largest eigenvalue
-  int max_iterations = 60;       ///< Krylov blocks before giving up
-  std::int64_t oversample = 10;  ///< block size is K + oversample
+  double tolerance = 1e-8;       ///< convergence: every Ritz residual <= tolerance x largest eigenvalue
+  /// Krylov blocks before giving up; 0: as many as keep the space within 60 (K + oversample)
+  /// columns.
+  int max_iterations = 0;
+  std::int64_t oversample = 10;  ///< K + oversample Ritz vectors go into the final Rayleigh-Ritz step
+  /// Krylov block width; 0: on a Gram matrix formed once, a quarter of K + oversample between 8
+  /// and 16 columns, otherwise K + oversample.
+  std::int64_t block = 0;
   std::uint64_t seed = 1;        ///< starting block
   int threads = 0;
   /// Iterate with float32 products (and a tolerance of at least 3e-5) whatever the size; above

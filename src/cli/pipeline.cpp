@@ -34,10 +34,10 @@ void add_projection_options(po::options_description& desc, ProjectionOptions& o,
        (step + (required ? "number of components K (1 to min(samples, features))"
                          : "truncated PCA: number of components K (0 = none)")).c_str())
       ("no-center", po::bool_switch(&no_center), (step + "do not centre: plain truncated SVD").c_str())
-      ("tolerance", po::value(&o.tolerance)->default_value(1e-7, "1e-07")->value_name("T"),
+      ("tolerance", po::value(&o.tolerance)->default_value(1e-8, "1e-08")->value_name("T"),
        (step + "convergence: Ritz residuals <= this x the largest eigenvalue").c_str())
-      ("max-iterations", po::value(&o.max_iterations)->default_value(60)->value_name("N"),
-       (step + "Krylov blocks before giving up").c_str());
+      ("max-iterations", po::value(&o.max_iterations)->default_value(0)->value_name("N"),
+       (step + "Krylov blocks before giving up (0: as many as fit in 60 x (K + 10) columns)").c_str());
 }
 
 // Reads, reduces and writes; shared by `reduce`, `project` and `demo`. `subsample` (> 0): the run
@@ -176,7 +176,7 @@ void check_projection_options(const ProjectionOptions& o, bool required) {
   if (o.components < (required ? 1 : 0))
     throw_usage_error(required ? "--components must be 1 or more" : "--components must be 0 (none) or more");
   if (!(o.tolerance > 0 && o.tolerance < 1)) throw_usage_error("--tolerance must be above 0 and below 1");
-  if (o.max_iterations < 1) throw_usage_error("--max-iterations must be 1 or more");
+  if (o.max_iterations < 0) throw_usage_error("--max-iterations must be 0 (automatic) or more");
 }
 
 }  // namespace
