@@ -1,10 +1,9 @@
 // The scores of one feature against class codes (binned MI and the chi-square test, the kNN MI, the
-// one-way ANOVA F, the counts chi-square): the per-feature work of score_features, and the same on a
-// subset of the rows with the feature's sort shared (internal/class_scores.h).
+// one-way ANOVA F, the counts chi-square): the per-feature work of score_features, and the same on
+// a subset of the rows with the feature's sort shared (internal/class_scores.h).
 #include "internal/class_scores.h"
 
-
-#include <algorithm>  // std::stable_sort, std::partition_point
+#include <algorithm>  // std::stable_sort, std::partition_point, std::lower_bound
 #include <cmath>      // std::isnan, std::isfinite
 #include <limits>     // std::numeric_limits
 #include <numeric>    // std::iota
@@ -21,7 +20,7 @@ using internal::defined_bit;
 using internal::KnnScratch;
 using internal::order_key;
 using internal::sort_keys;
-
+using internal::select_positions;
 
 // psi(m) for the integers 0 < m <= n by the recurrence psi(m + 1) = psi(m) + 1/m, psi(1) = -Euler's
 // gamma: a per-thread table grown on demand (the kNN estimator needs psi of counts only), returned
@@ -34,7 +33,6 @@ const double* psi_table(std::int64_t n) {
   }
   return table.data();
 }
-
 
 // The kNN estimator on values sorted ascending, `y[i]` the class of `x[i]`.
 //
@@ -126,8 +124,8 @@ double knn_mi_sorted(std::span<const double> x, std::span<const int> y, int clas
       if (d > 0) {
         // The open ball |x - x_i| < d: the distances are formed as in the walk (xi - v, v - xi).
         ki = 1 + inside;
-        const double* lo = std::partition_point(
-            all_begin, all_end, [&](double v) { return v < xi && !(xi - v < d); });
+        const double* lo = std::partition_point(all_begin, all_end,
+                                                [&](double v) { return v < xi && !(xi - v < d); });
         const double* hi =
             std::partition_point(lo, all_end, [&](double v) { return v <= xi || v - xi < d; });
         m = hi - lo;
@@ -149,11 +147,12 @@ double knn_mi_sorted(std::span<const double> x, std::span<const int> y, int clas
 
 }  // namespace
 
-
-double knn_mutual_information(std::span<const double> x, std::span<const int> y, int classes, int k) {
+double knn_mutual_information(std::span<const double> x, std::span<const int> y, int classes,
+                              int k) {
   std::vector<std::size_t> order(x.size());
   std::iota(order.begin(), order.end(), std::size_t{0});
-  std::stable_sort(order.begin(), order.end(), [&](std::size_t a, std::size_t b) { return x[a] < x[b]; });
+  std::stable_sort(order.begin(), order.end(),
+                   [&](std::size_t a, std::size_t b) { return x[a] < x[b]; });
   std::vector<double> xs(x.size());
   std::vector<int> ys(x.size());
   for (std::size_t i = 0; i < order.size(); ++i) {
@@ -191,11 +190,13 @@ int table_df(const std::vector<double>& table, int rows, int cols) {
 // column[0..n_rows-1], in row order): the flags, the counts chi-square, the bin x class table
 // with MI and the chi-square test, and F. `sorted_keys()` leaves in s.keys the observed values'
 // keys (order_key << 32 | row) sorted by value, ties in row order; it is called only when the
-// table or the kNN MI needs them.
-template <typename SortedKeys>
+// table or the kNN MI needs them. `threshold_table(bins)` may build the table of `bins` (< n)
+// equal-frequency bins into s.table without those keys and return true, or return false.
+template <typename SortedKeys, typename ThresholdTable>
 ClassResult finish(const float* column, std::int64_t n_rows, std::span<const int> codes, int k,
-                   const ScoreOptions& options, ClassScratch& s, const ColumnStats& stats, const ClassWanted& wanted,
-                   SortedKeys&& sorted_keys) {
+                   const ScoreOptions& options, ClassScratch& s, const ColumnStats& stats,
+                   const ClassWanted& wanted, SortedKeys&& sorted_keys,
+                   ThresholdTable&& threshold_table) {
   ClassResult r;
   r.variance = stats.n >= 2 ? stats.variance : 0.0;
   r.missing_rate = stats.missing_rate();
@@ -243,7 +244,7 @@ ClassResult finish(const float* column, std::int64_t n_rows, std::span<const int
   if (r.flags & kScoreConstant) return r;  // defined result: the other scores 0, p-values 1
 
   const bool binned = options.mi == MiEstimator::kBinned;
-  if (wanted.table || (wanted.mi && !binned && finite)) sorted_keys();
+  bool keys_sorted = false;
   if (wanted.table) {
     // Equal-frequency bins (SPEC §4) and the bin x class table. With bins >= n, floor(B L / n) is
     // strictly increasing in L, so bin L gives the same partition (the same table up to empty
@@ -252,16 +253,20 @@ ClassResult finish(const float* column, std::int64_t n_rows, std::span<const int
     const bool by_rank = static_cast<std::int64_t>(options.bins) >= n;
     const int bins = by_rank ? static_cast<int>(n) : options.bins;
     s.table.assign(static_cast<std::size_t>(bins) * ku, 0.0);
-    std::int64_t run_start = 0;
-    for (std::int64_t i = 0; i < n; ++i) {
-      const std::uint64_t key = s.keys[static_cast<std::size_t>(i)];
-      if (i > 0 && (key >> 32) != (s.keys[static_cast<std::size_t>(i - 1)] >> 32)) run_start = i;
-      const auto b = by_rank ? static_cast<std::size_t>(run_start)
-                             : static_cast<std::size_t>(static_cast<std::uint64_t>(bins) *
-                                                        static_cast<std::uint64_t>(run_start) /
-                                                        static_cast<std::uint64_t>(n));
-      const int c = codes[key & 0xFFFFFFFFu];
-      s.table[b * ku + static_cast<std::size_t>(c)] += 1.0;
+    if (by_rank || !threshold_table(bins)) {
+      sorted_keys();
+      keys_sorted = true;
+      std::int64_t run_start = 0;
+      for (std::int64_t i = 0; i < n; ++i) {
+        const std::uint64_t key = s.keys[static_cast<std::size_t>(i)];
+        if (i > 0 && (key >> 32) != (s.keys[static_cast<std::size_t>(i - 1)] >> 32)) run_start = i;
+        const auto b = by_rank ? static_cast<std::size_t>(run_start)
+                               : static_cast<std::size_t>(static_cast<std::uint64_t>(bins) *
+                                                          static_cast<std::uint64_t>(run_start) /
+                                                          static_cast<std::uint64_t>(n));
+        const int c = codes[key & 0xFFFFFFFFu];
+        s.table[b * ku + static_cast<std::size_t>(c)] += 1.0;
+      }
     }
     if (wanted.mi && binned) r.mi = mutual_information(s.table, bins, k);
     // pearson_chi2 drops empty bins and classes: df = (r - 1)(c - 1) of the non-empty table, and
@@ -276,7 +281,8 @@ ClassResult finish(const float* column, std::int64_t n_rows, std::span<const int
     if (binned && r.chi2_df > 0) r.defined |= defined_bit(Criterion::kMi);
   }
   if (wanted.mi && !binned && finite) {
-    // The keys are sorted by value already: the estimator takes them in that order.
+    if (!keys_sorted) sorted_keys();
+    // The estimator takes the values in the keys' order.
     s.values.clear();
     s.labels.clear();
     for (const std::uint64_t key : s.keys) {
@@ -306,7 +312,8 @@ ClassResult finish(const float* column, std::int64_t n_rows, std::span<const int
   for (std::int64_t i = 0; i < n_rows; ++i) {
     const float v = column[i];
     if (std::isnan(v)) continue;
-    const double d = static_cast<double>(v) - s.class_mean[static_cast<std::size_t>(codes[static_cast<std::size_t>(i)])];
+    const double d = static_cast<double>(v) -
+                     s.class_mean[static_cast<std::size_t>(codes[static_cast<std::size_t>(i)])];
     within += d * d;
   }
   const double f_df1 = static_cast<double>(classes_observed - 1);
@@ -322,21 +329,68 @@ ClassResult finish(const float* column, std::int64_t n_rows, std::span<const int
   return r;
 }
 
-// The class tallies of the observed values of column[0..n_rows-1], in row order, with
-// `each(v, i)` called for every observed value on the same pass.
+// The class tallies of the observed values of column[0..n_rows-1], with `each(v, i)` called for
+// every observed value on the same pass, in row order. Row i adds to lane i mod 4 of its class and
+// the lanes are added in order at the end: neighbouring rows of one class no longer wait on each
+// other's addition (a chain through memory that set the pace of this loop).
+constexpr std::size_t kLanes = 4;
+
 template <typename EachObserved>
-void tally_classes(const float* column, std::int64_t n_rows, std::span<const int> codes, int k, ClassScratch& s,
-                   EachObserved&& each) {
-  s.class_count.assign(static_cast<std::size_t>(k), 0);
-  s.class_sum.assign(static_cast<std::size_t>(k), 0.0);
+void tally_classes(const float* column, std::int64_t n_rows, std::span<const int> codes, int k,
+                   ClassScratch& s, EachObserved&& each) {
+  const auto ku = static_cast<std::size_t>(k);
+  s.lane_count.assign(kLanes * ku, 0);
+  s.lane_sum.assign(kLanes * ku, 0.0);
   for (std::int64_t i = 0; i < n_rows; ++i) {
     const float v = column[i];
     if (std::isnan(v)) continue;
-    const auto c = static_cast<std::size_t>(codes[static_cast<std::size_t>(i)]);
-    ++s.class_count[c];
-    s.class_sum[c] += static_cast<double>(v);
+    const std::size_t at = (static_cast<std::size_t>(i) % kLanes) * ku +
+                           static_cast<std::size_t>(codes[static_cast<std::size_t>(i)]);
+    ++s.lane_count[at];
+    s.lane_sum[at] += static_cast<double>(v);
     each(v, i);
   }
+  s.class_count.assign(ku, 0);
+  s.class_sum.assign(ku, 0.0);
+  for (std::size_t lane = 0; lane < kLanes; ++lane)
+    for (std::size_t c = 0; c < ku; ++c) {
+      s.class_count[c] += s.lane_count[lane * ku + c];
+      s.class_sum[c] += s.lane_sum[lane * ku + c];
+    }
+}
+
+// The bin x class table of `bins` equal-frequency bins from the observed values' order keys and
+// codes (in row order), without sorting rows: value v has bin floor(B L(v) / n), L(v) the number of
+// values below v, and floor(B L / n) >= b exactly when L >= r_b = ceil(b n / B), that is when the
+// r_b-th smallest value is below v. So bin(v) counts the thresholds t_b = the r_b-th smallest
+// values (b = 1 .. B - 1) below v, found by a radix select (not a sort). Counts go to four lanes
+// (as in tally_classes) and are whole numbers, so the table is exactly the one built from the
+// sorted rows. [kmin, kmax] holds every key.
+void table_by_thresholds(ClassScratch& s, int bins, int k, std::uint32_t kmin, std::uint32_t kmax) {
+  const auto n = static_cast<std::int64_t>(s.value_keys.size());
+  const auto ku = static_cast<std::size_t>(k), bu = static_cast<std::size_t>(bins);
+  s.sorted_values = s.value_keys;
+  s.sort_buffer.resize(s.value_keys.size());
+  s.positions.resize(bu - 1);
+  s.thresholds.resize(bu - 1);
+  for (std::int64_t b = 1; b < bins; ++b) s.positions[static_cast<std::size_t>(b - 1)] = (b * n + bins - 1) / bins - 1;
+  select_positions(s.sorted_values.data(), s.sort_buffer.data(), 0, n, kmin, kmax, s.positions.data(),
+                   s.thresholds.data(), bins - 1);
+  const std::uint32_t* t = s.thresholds.data();
+  s.lane_table.assign(kLanes * bu * ku, 0);
+  for (std::int64_t i = 0; i < n; ++i) {
+    const std::uint32_t key = s.value_keys[static_cast<std::size_t>(i)];
+    std::size_t bin = 0;
+    if (bins <= 64) {
+      for (int b = 0; b < bins - 1; ++b) bin += t[b] < key;
+    } else {
+      bin = static_cast<std::size_t>(std::lower_bound(t, t + bu - 1, key) - t);
+    }
+    ++s.lane_table[((static_cast<std::size_t>(i) % kLanes) * bu + bin) * ku +
+                   static_cast<std::size_t>(s.value_codes[static_cast<std::size_t>(i)])];
+  }
+  for (std::size_t lane = 0; lane < kLanes; ++lane)
+    for (std::size_t j = 0; j < bu * ku; ++j) s.table[j] += static_cast<double>(s.lane_table[lane * bu * ku + j]);
 }
 
 }  // namespace
@@ -358,26 +412,37 @@ void sorted_value_keys(const float* column, std::int64_t n_rows, std::vector<std
   keys.clear();
   for (std::int64_t i = 0; i < n_rows; ++i)
     if (!std::isnan(column[i]))
-      keys.push_back(static_cast<std::uint64_t>(order_key(column[i])) << 32 | static_cast<std::uint32_t>(i));
+      keys.push_back(static_cast<std::uint64_t>(order_key(column[i])) << 32 |
+                     static_cast<std::uint32_t>(i));
   sort_keys(keys, buffer);
 }
 
-ClassResult score_class_column(const float* column, std::int64_t n_rows, std::span<const int> codes, int k,
-                               const ScoreOptions& options, ClassScratch& s, const ColumnStats* known,
-                               const ClassWanted& wanted) {
+ClassResult score_class_column(const float* column, std::int64_t n_rows, std::span<const int> codes,
+                               int k, const ScoreOptions& options, ClassScratch& s,
+                               const ColumnStats* known, const ClassWanted& wanted) {
   const ColumnStats stats =
-      known ? *known : column_stats(std::span<const float>(column, static_cast<std::size_t>(n_rows)));
-  // One pass: the class tallies and the keys together.
-  s.keys.clear();
+      known ? *known
+            : column_stats(std::span<const float>(column, static_cast<std::size_t>(n_rows)));
+  // One pass: the class tallies, and the values' order keys with their classes for the table.
+  s.value_keys.clear();
+  s.value_codes.clear();
   tally_classes(column, n_rows, codes, k, s, [&](float v, std::int64_t i) {
-    s.keys.push_back(static_cast<std::uint64_t>(order_key(v)) << 32 | static_cast<std::uint32_t>(i));
+    s.value_keys.push_back(order_key(v));
+    s.value_codes.push_back(codes[static_cast<std::size_t>(i)]);
   });
-  return finish(column, n_rows, codes, k, options, s, stats, wanted, [&] { sort_keys(s.keys, s.buffer); });
+  return finish(
+      column, n_rows, codes, k, options, s, stats, wanted,
+      [&] { sorted_value_keys(column, n_rows, s.keys, s.buffer); },
+      [&](int bins) {
+        table_by_thresholds(s, bins, k, order_key(stats.min), order_key(stats.max));
+        return true;
+      });
 }
 
 ClassResult score_class_rows(const float* column, std::span<const std::int64_t> rows,
-                             std::span<const std::int32_t> position, std::span<const std::uint64_t> sorted,
-                             std::span<const int> codes, int k, const ScoreOptions& options, ClassScratch& s,
+                             std::span<const std::int32_t> position,
+                             std::span<const std::uint64_t> sorted, std::span<const int> codes,
+                             int k, const ScoreOptions& options, ClassScratch& s,
                              const ClassWanted& wanted) {
   const auto n_rows = static_cast<std::int64_t>(rows.size());
   s.gathered.resize(rows.size());
@@ -388,16 +453,19 @@ ClassResult score_class_rows(const float* column, std::span<const std::int64_t> 
   // The sorted keys of the subset: the column's, in the same order, with the row replaced by its
   // place in `rows` (ascending rows keep ties in row order).
   // Branch-free: about half the rows are in a subset, in no pattern a predictor could learn.
-  return finish(x, n_rows, codes, k, options, s, stats, wanted, [&] {
-    s.keys.resize(sorted.size() + 1);
-    std::uint64_t* to = s.keys.data();
-    for (const std::uint64_t key : sorted) {
-      const std::int32_t at = position[key & 0xFFFFFFFFu];
-      *to = (key & 0xFFFFFFFF00000000u) | static_cast<std::uint32_t>(at);
-      to += at >= 0;
-    }
-    s.keys.resize(static_cast<std::size_t>(to - s.keys.data()));
-  });
+  return finish(
+      x, n_rows, codes, k, options, s, stats, wanted,
+      [&] {
+        s.keys.resize(sorted.size() + 1);
+        std::uint64_t* to = s.keys.data();
+        for (const std::uint64_t key : sorted) {
+          const std::int32_t at = position[key & 0xFFFFFFFFu];
+          *to = (key & 0xFFFFFFFF00000000u) | static_cast<std::uint32_t>(at);
+          to += at >= 0;
+        }
+        s.keys.resize(static_cast<std::size_t>(to - s.keys.data()));
+      },
+      [](int) { return false; });
 }
 
 }  // namespace internal

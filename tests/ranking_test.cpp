@@ -1040,3 +1040,57 @@ TEST_CASE("mutual_information and chi-square give equal tables equal bits", "[ra
     REQUIRE(da == db);
   }
 }
+
+TEST_CASE("the binned table of score_features is the table of equal_frequency_bins", "[ranking][bins]") {
+  using Eigen::Index;
+  // score_features builds the bin x class table from the bins' thresholds (a radix select of the
+  // order statistics, src/class_scores.cpp), not from sorted rows. Reference: equal_frequency_bins
+  // (the SPEC rank rule, tested above) and a table counted here; MI and chi-square must be the same
+  // bits. Columns: continuous, heavy ties (values 0..4), mostly zeros, negative and -0/+0, a wide
+  // range of magnitudes, with gaps; bins from 2 to above n.
+  std::mt19937_64 gen(20261205);
+  const Index n = 301;
+  const int k = 3;
+  std::vector<std::string> labels;
+  for (Index i = 0; i < n; ++i) labels.push_back(std::string(1, static_cast<char>('a' + (i * 7 + i / 5) % k)));
+  const ClassCodes classes = pare::encode_classes(labels);
+  std::normal_distribution<float> normal(0.0f, 1.0f);
+  std::uniform_int_distribution<int> small(0, 4);
+  std::uniform_real_distribution<double> unit(0.0, 1.0);
+  Matrix m(n, 5);
+  for (Index i = 0; i < n; ++i) {
+    m(i, 0) = normal(gen);
+    m(i, 1) = static_cast<float>(small(gen));
+    m(i, 2) = unit(gen) < 0.85 ? 0.0f : static_cast<float>(small(gen) + 1);
+    m(i, 3) = unit(gen) < 0.1 ? (unit(gen) < 0.5 ? -0.0f : 0.0f) : -std::abs(normal(gen));
+    m(i, 4) = static_cast<float>(std::exp(12.0 * normal(gen)));
+    for (Index j = 0; j < 5; ++j)
+      if (unit(gen) < 0.05) m(i, j) = std::numeric_limits<float>::quiet_NaN();
+  }
+  const std::vector<std::int64_t> features{0, 1, 2, 3, 4};
+  for (const int bins : {2, 3, 7, 10, 33, 64, 65, 100, 299, 400}) {
+    pare::ScoreOptions o;
+    o.bins = bins;
+    const FeatureScores s = pare::score_features(m, features, classes, o);
+    for (Index j = 0; j < 5; ++j) {
+      std::vector<double> values;
+      std::vector<int> codes;
+      for (Index i = 0; i < n; ++i)
+        if (!std::isnan(m(i, j))) {
+          values.push_back(static_cast<double>(m(i, j)) + 0.0);
+          codes.push_back(classes.codes[static_cast<std::size_t>(i)]);
+        }
+      const auto observed = static_cast<int>(values.size());
+      const int rows = std::min(bins, observed);  // bins >= n: one bin per rank (the same table)
+      const std::vector<int> bin = pare::equal_frequency_bins(values, observed <= bins ? observed : bins);
+      std::vector<double> table(static_cast<std::size_t>(rows * k), 0.0);
+      for (std::size_t i = 0; i < values.size(); ++i) table[static_cast<std::size_t>(bin[i] * k + codes[i])] += 1;
+      int df = 0;
+      const double chi2 = pare::pearson_chi2(table, rows, k, df);
+      INFO("bins " << bins << ", column " << j);
+      CHECK(s.mi[static_cast<std::size_t>(j)] == pare::mutual_information(table, rows, k));
+      CHECK(s.chi2[static_cast<std::size_t>(j)] == chi2);
+      CHECK(s.chi2_df[static_cast<std::size_t>(j)] == df);
+    }
+  }
+}

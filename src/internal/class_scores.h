@@ -30,6 +30,15 @@ struct ClassScratch {
   std::vector<double> class_sum, class_mean;
   std::vector<std::int64_t> class_count;
   std::vector<float> gathered;  ///< score_class_rows: the column's values at the rows
+  std::vector<std::int64_t> lane_count;  ///< tally_classes: per-lane class counts
+  std::vector<double> lane_sum;          ///< tally_classes: per-lane class sums
+  /// score_class_column: the observed values' order keys and class codes in row order, the radix
+  /// select's buffers, the bins' thresholds and their sorted positions, the per-lane bin x class
+  /// counts.
+  std::vector<std::uint32_t> value_keys, sorted_values, sort_buffer, thresholds;
+  std::vector<int> value_codes;
+  std::vector<std::int64_t> positions;
+  std::vector<std::int32_t> lane_table;
   KnnScratch knn;
 };
 
