@@ -635,9 +635,10 @@ KrylovEnd krylov_pca(const ConstMatrixRef& x, const ProjectionOptions& o, Index 
   ProgressStep progress("PCA", 0, "blocks");  // how many it takes is not known in advance
   bool checked = false;
   // On the Gram matrix, checks are skipped while the residuals' geometric decay says the tolerance
-  // is still far: the next check comes after half the blocks the last two checks predict (a check
-  // solves the eigenproblem of T, whose cost grows with the cube of the space, and the blocks are
-  // cheap). With two products per block every block is checked: a block costs more than a check.
+  // is still far: the next check comes after half the blocks the last two checks predict, and at
+  // most a quarter of the blocks so far later (a check solves the eigenproblem of T, whose cost
+  // grows with the cube of the space, and the blocks are cheap). With two products per block every
+  // block is checked: a block costs more than a check.
   Index next_check = 0, last_check = 0;
   double last_residual = 0;
   for (Index it = 1; it <= max_blocks; ++it) {
@@ -658,7 +659,9 @@ KrylovEnd krylov_pca(const ConstMatrixRef& x, const ProjectionOptions& o, Index 
       if (last_check > 0 && out.residual < last_residual) {
         const double rate = std::log(out.residual / last_residual) / static_cast<double>(it - last_check);
         const double to_go = std::log(tolerance / out.residual) / rate;
-        if (use_gram && to_go >= 4) next_check = it + static_cast<Index>(to_go / 2);
+        // Early residuals can stall and then fall fast, so a jump is at most a quarter of the
+        // blocks so far: the overshoot past convergence stays within that.
+        if (use_gram && to_go >= 4) next_check = it + std::min(static_cast<Index>(to_go / 2), std::max<Index>(1, it / 4));
       }
       last_check = it;
       last_residual = out.residual;
