@@ -1,7 +1,8 @@
 // Time and accuracy of truncated_pca on a synthetic wide matrix with a decaying spectrum (not run
 // by CI).
 //
-//   build/bench/benchmarks/bench_pca [n=1000] [p=5000] [K=50] [threads=2] [repeats=5] [float] [tolerance]
+//   build/bench/benchmarks/bench_pca [n=1000] [p=5000] [K=50] [threads=2] [repeats=5] [float]
+//   [tolerance]
 //
 // The matrix is the kind bench_project.py writes: 300 latent components with singular values
 // proportional to (i + 1)^-0.8 carrying about 60% of the sum of squares, Gaussian noise for the
@@ -9,18 +10,19 @@
 // the exact eigendecomposition of the n x n Gram matrix of the centred data in double (Eigen's
 // SelfAdjointEigenSolver). Prints the fastest of `repeats` runs, the method, the Krylov blocks and
 // the largest relative error of the K eigenvalues.
-#include <Eigen/Eigenvalues>
-#include <Eigen/QR>
-#include <Eigen/SVD>
-
 #include <algorithm>
 #include <chrono>
 #include <cmath>
 #include <cstdio>
 #include <cstdlib>
 
-#include "internal/random.h"
+#include <Eigen/Eigenvalues>
+#include <Eigen/QR>
+#include <Eigen/SVD>
+
 #include "pare/projection.h"
+
+#include "internal/random.h"
 
 int main(int argc, char** argv) {
   const long n = argc > 1 ? std::atol(argv[1]) : 1000;
@@ -71,18 +73,25 @@ int main(int argc, char** argv) {
     pare::Matrix copy = data;
     const auto start = std::chrono::steady_clock::now();
     pca = pare::truncated_pca(copy, o);
-    best = std::min(best, std::chrono::duration<double>(std::chrono::steady_clock::now() - start).count());
+    best = std::min(
+        best, std::chrono::duration<double>(std::chrono::steady_clock::now() - start).count());
   }
   double worst = 0;
-  for (long c = 0; c < k; ++c) worst = std::max(worst, std::abs(pca.eigenvalues(c) - exact(c)) / exact(c));
+  for (long c = 0; c < k; ++c)
+    worst = std::max(worst, std::abs(pca.eigenvalues(c) - exact(c)) / exact(c));
   // The largest principal angle between the exact and computed K-dimensional score subspaces.
   const Eigen::MatrixXd u_pare = Eigen::HouseholderQR<Eigen::MatrixXd>(pca.scores).householderQ() *
                                  Eigen::MatrixXd::Identity(n, k);
-  const Eigen::VectorXd cosines = Eigen::JacobiSVD<Eigen::MatrixXd>(exact_u.transpose() * u_pare).singularValues();
-  const double angle = std::asin(std::min(1.0, std::sqrt(std::max(0.0, 1 - cosines(k - 1) * cosines(k - 1)))));
-  std::printf("bench_pca: %ld x %ld, K = %ld, %d threads: %.3f s (fastest of %d), %s, %s products, %d blocks, "
-              "max relative eigenvalue error %.1e, largest principal angle %.1e, gap lambda_K / lambda_K+1 = %.4f\n",
-              n, p, k, threads, best, repeats, pca.method.c_str(), pca.precision.c_str(), pca.iterations, worst, angle,
-              exact(k - 1) / exact(k));
+  const Eigen::VectorXd cosines =
+      Eigen::JacobiSVD<Eigen::MatrixXd>(exact_u.transpose() * u_pare).singularValues();
+  const double angle =
+      std::asin(std::min(1.0, std::sqrt(std::max(0.0, 1 - cosines(k - 1) * cosines(k - 1)))));
+  std::printf(
+      "bench_pca: %ld x %ld, K = %ld, %d threads: %.3f s (fastest of %d), %s, %s products, %d "
+      "blocks, "
+      "max relative eigenvalue error %.1e, largest principal angle %.1e, gap lambda_K / lambda_K+1 "
+      "= %.4f\n",
+      n, p, k, threads, best, repeats, pca.method.c_str(), pca.precision.c_str(), pca.iterations,
+      worst, angle, exact(k - 1) / exact(k));
   return 0;
 }

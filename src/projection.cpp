@@ -115,16 +115,17 @@ MatD gram(const ConstMatrixRef& x, bool wide, int threads) {
   return g;
 }
 
-// The lower triangle of X X^T (X float n x p, wide) in double from float products: pieces of
-// kGramPiece columns taken in order, each piece's product computed in float over fixed stripes of
+// The lower triangle of X X^T (X float n x p, wide) in double, from float or double products:
+// pieces of kGramPiece columns taken in order, each piece's product computed over fixed stripes of
 // kGramStripe rows (one stripe per task; which entries a task computes does not change them) and
-// added to the double sum. A float product of 2,048 terms is within about 3e-6 of its value
-// (relative, typically); the final Rayleigh-Ritz step in double (truncated_pca) makes the
-// eigenvalues accurate regardless.
+// added to the double sum, so every entry is the same sum in the same order for any number of
+// threads. In float, a product of 2,048 terms is within about 3e-6 of its value (relative,
+// typically); the final Rayleigh-Ritz step in double (truncated_pca) makes the eigenvalues
+// accurate regardless.
 constexpr Index kGramPiece = 2048;
 constexpr Index kGramStripe = 128;
 
-MatD gram_wide_float(const ConstMatrixRef& x, int threads) {
+MatD gram_wide(const ConstMatrixRef& x, bool float_products, int threads) {
   const Index n = x.rows(), p = x.cols();
   MatD g = MatD::Zero(n, n);
   const Index stripes = (n + kGramStripe - 1) / kGramStripe;
@@ -138,38 +139,17 @@ MatD gram_wide_float(const ConstMatrixRef& x, int threads) {
       // threads finish together.
       const Index s = stripes - 1 - task;
       const Index r0 = s * kGramStripe, r1 = std::min(n, r0 + kGramStripe), h = r1 - r0;
-      MatF part(h, r1);
       kernels::Operand rows = piece;
       rows.data = x.data() + c0 * x.outerStride() + r0;
-      kernels::gemm(kernels::Shape{h, r1, w, true, r0}, rows, kernels::transposed(piece), part.data(), h, false);
+      const kernels::Shape lower{h, r1, w, true, r0};
+      if (!float_products) {
+        kernels::gemm(lower, rows, kernels::transposed(piece), g.data() + r0, n, true);
+        continue;
+      }
+      MatF part(h, r1);
+      kernels::gemm(lower, rows, kernels::transposed(piece), part.data(), h, false);
       for (Index j = 0; j < r1; ++j)
         for (Index i = std::max<Index>(0, j - r0); i < h; ++i) g(r0 + i, j) += static_cast<double>(part(i, j));
-    }
-    internal::release_column_span(x, c0, c0 + w - 1);
-    progress.add(w);
-  }
-  return g;
-}
-
-// The lower triangle of X X^T (X float n x p, wide) in double: pieces of kGramPiece columns
-// taken in order, each added to the sum over fixed stripes of kGramStripe rows (one stripe per
-// task), so every entry is the same sum in the same order for any number of threads.
-MatD gram_wide_double(const ConstMatrixRef& x, int threads) {
-  const Index n = x.rows(), p = x.cols();
-  MatD g = MatD::Zero(n, n);
-  const Index stripes = (n + kGramStripe - 1) / kGramStripe;
-  ProgressStep progress("PCA Gram matrix", p, "features");
-  for (Index c0 = 0; c0 < p; c0 += kGramPiece) {
-    const Index w = std::min(kGramPiece, p - c0);
-    const kernels::Operand piece = columns_of(x, c0);  // n x w
-#pragma omp parallel for schedule(dynamic, 1) num_threads(threads)
-    for (Index task = 0; task < stripes; ++task) {
-      const Index s = stripes - 1 - task;
-      const Index r0 = s * kGramStripe, r1 = std::min(n, r0 + kGramStripe);
-      kernels::Operand rows = piece;
-      rows.data = x.data() + c0 * x.outerStride() + r0;
-      kernels::gemm(kernels::Shape{r1 - r0, r1, w, true, r0}, rows, kernels::transposed(piece), g.data() + r0, n,
-                    true);
     }
     internal::release_column_span(x, c0, c0 + w - 1);
     progress.add(w);
@@ -450,7 +430,7 @@ class GramOperator {
   GramOperator(const ConstMatrixRef& x, bool wide, bool use_float, bool use_gram, int threads)
       : x_(x), wide_(wide), use_float_(use_float), use_gram_(use_gram), threads_(threads) {
     if (use_gram_) {
-      g_ = use_float_ ? gram_wide_float(x_, threads_) : gram_wide_double(x_, threads_);
+      g_ = gram_wide(x_, use_float_, threads_);
       g_.triangularView<Eigen::StrictlyUpper>() = g_.transpose();
     }
   }
@@ -749,138 +729,6 @@ Eigen::MatrixXd project_rows(const ConstMatrixRef& x, const Eigen::VectorXd& cen
   MatD z = x.cast<double>();
   for (Index j = 0; j < z.cols(); ++j) z.col(j) = (z.col(j).array() - center(j)) / scale(j);
   return mul(z, loadings);
-}
-
-}  // namespace pare
-
-#include <charconv>     // std::from_chars
-#include <string_view>  // std::string_view
-
-#include "internal/format.h"
-#include "pare/io.h"
-
-namespace pare {
-
-std::string scores_csv(const Eigen::MatrixXd& scores, const std::vector<std::string>& sample_ids) {
-  // Ids and numbers only, headed `sample` whatever the input's id column was called, so the file
-  // reads as a numeric table with the ids as row names; per-sample facts are in samples.tsv.
-  std::string out = "sample";
-  for (Index c = 0; c < scores.cols(); ++c) out += ",PC" + std::to_string(c + 1);
-  out += '\n';
-  for (Index i = 0; i < scores.rows(); ++i) {
-    internal::append_field(out, sample_ids[static_cast<std::size_t>(i)], ',');
-    for (Index c = 0; c < scores.cols(); ++c) {
-      out += ',';
-      internal::append_number(out, scores(i, c));
-    }
-    out += '\n';
-  }
-  return out;
-}
-
-void write_loadings_tsv(const Eigen::MatrixXd& loadings, const std::vector<std::string>& names,
-                        const std::function<void(std::string_view)>& sink) {
-  std::string head = "feature";
-  for (Index c = 0; c < loadings.cols(); ++c) head += "\tPC" + std::to_string(c + 1);
-  head += '\n';
-  sink(head);
-  // Pieces of 1,024 lines formatted in parallel, a round of 4 per thread at a time, handed to
-  // `sink` in order (the text of a round, not of the whole file, is in memory at once).
-  constexpr Index kLines = 1024;
-  const int threads = internal::thread_count(0);
-  const Index pieces = (loadings.rows() + kLines - 1) / kLines, round = 4 * static_cast<Index>(threads);
-  std::vector<std::string> text(static_cast<std::size_t>(round));
-  for (Index first = 0; first < pieces; first += round) {
-    const Index count = std::min(round, pieces - first);
-#pragma omp parallel for schedule(dynamic, 1) num_threads(threads)
-    for (Index i = 0; i < count; ++i) {
-      std::string& t = text[static_cast<std::size_t>(i)];
-      t.clear();
-      const Index piece = first + i;
-      for (Index j = piece * kLines; j < std::min(loadings.rows(), (piece + 1) * kLines); ++j) {
-        internal::append_field(t, names[static_cast<std::size_t>(j)], '\t');
-        for (Index c = 0; c < loadings.cols(); ++c) {
-          t += '\t';
-          internal::append_number(t, loadings(j, c));
-        }
-        t += '\n';
-      }
-    }
-    for (Index i = 0; i < count; ++i) sink(text[static_cast<std::size_t>(i)]);
-  }
-}
-
-std::string loadings_tsv(const Eigen::MatrixXd& loadings, const std::vector<std::string>& names) {
-  std::string out;
-  write_loadings_tsv(loadings, names, [&](std::string_view piece) { out += piece; });
-  return out;
-}
-
-std::string explained_tsv(const Projection& pr) {
-  std::string out = "component\teigenvalue\tratio\tcumulative_ratio\tsingular_value\n";
-  for (Index c = 0; c < pr.singular_values.size(); ++c) {
-    out += "PC" + std::to_string(c + 1);
-    for (double v : {pr.eigenvalues(c), pr.ratio(c), pr.cumulative(c), pr.singular_values(c)}) {
-      out += '\t';
-      internal::append_number(out, v);
-    }
-    out += '\n';
-  }
-  return out;
-}
-
-Eigen::MatrixXd read_loadings_tsv(const std::string& path, const std::vector<std::string>& names) {
-  // Parsed in double (the matrix reader stores float32), so the values are exactly those written.
-  const std::string text = read_file_text(path);
-  std::size_t pos = 0;
-  std::int64_t line = 0;
-  Eigen::MatrixXd loadings;
-  Index columns = -1;
-  std::size_t row = 0;
-  std::int64_t next_line = 1;
-  while (pos < text.size()) {
-    // A record ends at the first line break outside quotes (a quoted name may hold one).
-    std::size_t end = pos;
-    bool quoted = false;
-    line = next_line;
-    for (; end < text.size(); ++end) {
-      if (text[end] == '"') quoted = !quoted;
-      if (text[end] == '\n') {
-        ++next_line;
-        if (!quoted) break;
-      }
-    }
-    std::string_view content(text.data() + pos, end - pos);
-    if (!content.empty() && content.back() == '\r') content.remove_suffix(1);
-    pos = end + 1;
-    if (content.empty()) continue;
-    const auto fields = split_fields(content, '\t');
-    if (line == 1) {
-      columns = static_cast<Index>(fields.size()) - 1;
-      if (columns < 1) throw_input_error({path, 1}, "the loadings file has no component columns");
-      loadings.resize(static_cast<Index>(names.size()), columns);
-      continue;
-    }
-    if (static_cast<Index>(fields.size()) != columns + 1)
-      throw_input_error({path, line}, "line has " + std::to_string(fields.size()) + " fields, the header has " +
-                                          std::to_string(columns + 1));
-    if (row >= names.size() || fields[0] != names[row])
-      throw_input_error({path, line, 1}, "the loadings do not list the plan's features in the plan's order",
-                        "use the loadings.tsv written with this plan");
-    for (Index c = 0; c < columns; ++c) {
-      const std::string& f = fields[static_cast<std::size_t>(c + 1)];
-      double v = 0;
-      const auto r = std::from_chars(f.data(), f.data() + f.size(), v);
-      if (r.ec != std::errc() || r.ptr != f.data() + f.size())
-        throw_input_error({path, line}, "cannot read \"" + f + "\" as a number");
-      loadings(static_cast<Index>(row), c) = v;
-    }
-    ++row;
-  }
-  if (columns < 0 || row != names.size())
-    throw_input_error({path}, "the loadings file lists " + std::to_string(row) + " features, the plan " +
-                                  std::to_string(names.size()));
-  return loadings;
 }
 
 }  // namespace pare

@@ -4,10 +4,10 @@
 #pragma once
 
 #include <algorithm>  // std::sort, std::upper_bound, std::copy, std::fill, std::min, std::max
-#include <bit>      // std::bit_cast
-#include <cstddef>  // std::size_t
-#include <cstdint>  // std::uint32_t, std::uint64_t, std::int64_t
-#include <vector>   // std::vector
+#include <bit>        // std::bit_cast
+#include <cstddef>    // std::size_t
+#include <cstdint>    // std::uint32_t, std::uint64_t, std::int64_t
+#include <vector>     // std::vector
 
 namespace pare::internal {
 
@@ -42,9 +42,9 @@ inline void sort_keys(std::vector<std::uint64_t>& keys, std::vector<std::uint64_
 // their places in sorted order) and searched further. `from` and `to` are scratch arrays of the
 // same length; both are changed within [lo, hi). Small ranges are sorted; a range of equal keys
 // needs nothing.
-inline void select_positions(std::uint32_t* from, std::uint32_t* to, std::int64_t lo, std::int64_t hi,
-                             std::uint32_t kmin, std::uint32_t kmax, const std::int64_t* pos, std::uint32_t* out,
-                             int m) {
+inline void select_positions(std::uint32_t* from, std::uint32_t* to, std::int64_t lo,
+                             std::int64_t hi, std::uint32_t kmin, std::uint32_t kmax,
+                             const std::int64_t* pos, std::uint32_t* out, int m) {
   if (m == 0) return;
   if (kmin == kmax) {
     std::fill(out, out + m, kmin);
@@ -55,7 +55,8 @@ inline void select_positions(std::uint32_t* from, std::uint32_t* to, std::int64_
     for (int j = 0; j < m; ++j) out[j] = from[pos[j]];
     return;
   }
-  const int bucket_bits = std::min(10, static_cast<int>(std::bit_width(static_cast<std::uint64_t>(hi - lo))));
+  const int bucket_bits =
+      std::min(10, static_cast<int>(std::bit_width(static_cast<std::uint64_t>(hi - lo))));
   const int shift = std::max(0, static_cast<int>(std::bit_width(kmax - kmin)) - bucket_bits);
   const auto buckets = static_cast<std::int64_t>((kmax - kmin) >> shift) + 1;
   std::uint32_t count[1025] = {};
@@ -64,7 +65,8 @@ inline void select_positions(std::uint32_t* from, std::uint32_t* to, std::int64_
   start[0] = lo;
   for (std::int64_t b = 0; b < buckets; ++b) start[b + 1] = start[b] + count[b + 1];
   bool wanted[1024] = {};
-  for (int j = 0; j < m; ++j) wanted[std::upper_bound(start + 1, start + buckets + 1, pos[j]) - (start + 1)] = true;
+  for (int j = 0; j < m; ++j)
+    wanted[std::upper_bound(start + 1, start + buckets + 1, pos[j]) - (start + 1)] = true;
   std::int64_t fill[1024];
   std::copy(start, start + buckets, fill);
   for (std::int64_t i = lo; i < hi; ++i) {
