@@ -82,32 +82,23 @@ Mat<S> times_t(const ConstMatrixRef& x, const Mat<S>& y, int threads) {
   return w;
 }
 
-// The lower triangle of the Gram matrix of the short side in double: X X^T (wide) or X^T X
-// (tall), summed over fixed groups of pieces in order. The upper triangle is zero (the
-// eigensolver reads only the lower one).
-MatD gram(const ConstMatrixRef& x, bool wide, int threads) {
+// The lower triangle of X^T X (X float n x p, tall) in double, summed over fixed groups of pieces
+// of rows in order. The upper triangle is zero (the eigensolver reads only the lower one).
+MatD gram_tall(const ConstMatrixRef& x, int threads) {
   const Index n = x.rows(), p = x.cols();
-  const Index m = wide ? n : p, len = wide ? p : n;
-  const Index per_group = ((len + kGroups - 1) / kGroups + kPiece - 1) / kPiece * kPiece;
-  const Index groups = (len + per_group - 1) / per_group;
+  const Index per_group = ((n + kGroups - 1) / kGroups + kPiece - 1) / kPiece * kPiece;
+  const Index groups = (n + per_group - 1) / per_group;
   std::vector<MatD> partial(static_cast<std::size_t>(groups));
 #pragma omp parallel for schedule(dynamic, 1) num_threads(threads)
   for (Index g = 0; g < groups; ++g) {
     MatD& acc = partial[static_cast<std::size_t>(g)];
-    acc.setZero(m, m);
-    const Index end = std::min(len, (g + 1) * per_group);
-    for (Index c0 = g * per_group; c0 < end; c0 += kPiece) {
-      const Index w = std::min(kPiece, end - c0);
-      const kernels::Shape lower{m, m, w, true, 0};
-      if (wide) {
-        const kernels::Operand piece = columns_of(x, c0);  // n x w
-        kernels::gemm(lower, piece, kernels::transposed(piece), acc.data(), m, true);
-        internal::release_column_span(x, c0, c0 + w - 1);
-      } else {
-        const kernels::Operand rows = kernels::columns(x.data() + c0, x.outerStride());  // w x p
-        kernels::gemm(lower, kernels::transposed(rows), rows, acc.data(), m, true);
-        internal::release_column_span(x, 0, x.cols() - 1);
-      }
+    acc.setZero(p, p);
+    const Index end = std::min(n, (g + 1) * per_group);
+    for (Index r0 = g * per_group; r0 < end; r0 += kPiece) {
+      const Index w = std::min(kPiece, end - r0);
+      const kernels::Operand rows = kernels::columns(x.data() + r0, x.outerStride());  // w x p
+      kernels::gemm(kernels::Shape{p, p, w, true, 0}, kernels::transposed(rows), rows, acc.data(), p, true);
+      internal::release_column_span(x, 0, x.cols() - 1);
     }
   }
   MatD g = partial[0];
@@ -402,7 +393,8 @@ Factors dense_pca(const ConstMatrixRef& x, bool wide, Index k, int threads, Proj
   out.precision = "double";
   out.residual = 0;
   Factors f;
-  const MatD g = gram(x, wide, threads);
+  // The lower triangle of the short side's Gram matrix (the upper one is zero).
+  const MatD g = wide ? gram_wide(x, false, threads) : gram_tall(x, threads);
   Eigen::SelfAdjointEigenSolver<MatD> es(g);
   if (es.info() != Eigen::Success) throw Error(ErrorKind::kOther, "PCA: the eigensolver failed");
   MatD vectors = es.eigenvectors().rightCols(k).rowwise().reverse();
