@@ -434,7 +434,8 @@ ClassResult score_class_column(const float* column, std::int64_t n_rows, std::sp
       column, n_rows, codes, k, options, s, stats, wanted,
       [&] { sorted_value_keys(column, n_rows, s.keys, s.buffer); },
       [&](int bins) {
-        table_by_thresholds(s, bins, k, order_key(stats.min), order_key(stats.max));
+        // (min and max are values of the float column, so exact as floats)
+        table_by_thresholds(s, bins, k, order_key(static_cast<float>(stats.min)), order_key(static_cast<float>(stats.max)));
         return true;
       });
 }

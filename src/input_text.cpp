@@ -127,7 +127,7 @@ InputText InputText::read_bytes(const std::string& path, int fd, bool regular, s
       text.map_size_ = size;
       text.data_ = static_cast<const char*>(p);
       text.size_ = size;
-      ::madvise(p, size, MADV_SEQUENTIAL);
+      text.fd_ = ::fcntl(fd, F_DUPFD_CLOEXEC, 0);  // for read_at; -1 (mapping only) if it fails
       return text;
     }
   }
@@ -180,11 +180,12 @@ InputText InputText::inflate_to_cache(const InputText& compressed, const std::st
   if (size > 0) {
     void* p = ::mmap(nullptr, size, PROT_READ, MAP_SHARED, cache, 0);
     const int err = errno;
-    ::close(cache);
-    if (p == MAP_FAILED)
+    if (p == MAP_FAILED) {
+      ::close(cache);
       throw Error(ErrorKind::kOutput,
                   path + ": cannot map its inflated text: " + std::strerror(err));
-    ::madvise(p, size, MADV_SEQUENTIAL);
+    }
+    out.fd_ = cache;  // for read_at
     out.map_ = p;
     out.map_size_ = size;
     out.data_ = static_cast<const char*>(p);
@@ -292,6 +293,8 @@ InputText::InputText(InputText&& other) noexcept {
 InputText& InputText::operator=(InputText&& other) noexcept {
   if (this == &other) return *this;
   if (map_) ::munmap(map_, map_size_);
+  if (fd_ >= 0) ::close(fd_);
+  fd_ = std::exchange(other.fd_, -1);
   map_ = std::exchange(other.map_, nullptr);
   map_size_ = std::exchange(other.map_size_, 0);
   inflated_ = std::move(other.inflated_);  // the mapping changes owner, not address
@@ -309,8 +312,24 @@ void InputText::release(const char* begin, const char* end, bool done) const {
   if (e > b) ::madvise(reinterpret_cast<void*>(b), e - b, MADV_DONTNEED);
 }
 
+bool InputText::readable_at() const { return fd_ >= 0; }
+
+void InputText::read_at(const char* at, std::size_t bytes, char* into) const {
+  auto offset = static_cast<off_t>(at - data_);
+  while (bytes > 0) {
+    const ssize_t got = ::pread(fd_, into, bytes, offset);
+    if (got < 0 && errno == EINTR) continue;
+    if (got < 0) throw Error(ErrorKind::kInput, std::string("cannot read the input: ") + std::strerror(errno));
+    if (got == 0) throw Error(ErrorKind::kInput, "the input file became shorter while it was read");
+    bytes -= static_cast<std::size_t>(got);
+    into += got;
+    offset += got;
+  }
+}
+
 InputText::~InputText() {
   if (map_) ::munmap(map_, map_size_);
+  if (fd_ >= 0) ::close(fd_);
 }
 
 }  // namespace pare::internal

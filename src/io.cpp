@@ -40,6 +40,7 @@ using internal::kMissing;
 using internal::name_problem;
 using internal::NaTokens;
 using internal::parse_cell;
+using internal::plain_decimal_end;
 using internal::read_arriving_header;
 using internal::read_header;
 using internal::read_text_field;
@@ -91,19 +92,54 @@ std::vector<Chunk> cut_chunks(const char* begin, const char* end, std::size_t mi
   return chunks;
 }
 
+// A chunk of a file's text is read into a buffer in windows of whole lines, this long unless a
+// line is longer (see InputText::readable_at).
+constexpr std::size_t kWindowBytes = std::size_t{1} << 20;
+
 // Calls fn(line_begin, line_end, line_number_within_chunk) for each line of the chunk, the '\r'
-// of a CRLF line break removed.
+// of a CRLF line break removed, until fn returns false. The lines of a file's text are read into
+// `buffer`, so the pointers fn gets are valid only during the call.
 template <typename Fn>
-void for_each_line(const Chunk& chunk, Fn&& fn) {
-  const char* p = chunk.begin;
+void for_each_line(const internal::InputText& input, const Chunk& chunk, std::vector<char>& buffer, Fn&& fn) {
   std::int64_t line = 0;
-  while (p < chunk.end) {
-    const char* nl = static_cast<const char*>(std::memchr(p, '\n', static_cast<std::size_t>(chunk.end - p)));
-    const char* e = nl ? nl : chunk.end;
-    ++line;
-    const char* le = (e > p && e[-1] == '\r') ? e - 1 : e;
-    if (!fn(p, le, line)) return;
-    p = nl ? nl + 1 : chunk.end;
+  // The lines of [p, end), which ends at a line end or at the chunk's end; false when fn stops.
+  auto lines = [&](const char* p, const char* end) {
+    while (p < end) {
+      const char* nl = static_cast<const char*>(std::memchr(p, '\n', static_cast<std::size_t>(end - p)));
+      const char* e = nl ? nl : end;
+      ++line;
+      const char* le = (e > p && e[-1] == '\r') ? e - 1 : e;
+      if (!fn(p, le, line)) return false;
+      p = nl ? nl + 1 : end;
+    }
+    return true;
+  };
+  if (!input.readable_at()) {
+    lines(chunk.begin, chunk.end);
+    return;
+  }
+  const auto total = static_cast<std::size_t>(chunk.end - chunk.begin);
+  if (buffer.size() < kWindowBytes) buffer.resize(kWindowBytes);
+  std::size_t done = 0, have = 0;  // bytes of the chunk handed out; bytes in the buffer after them
+  while (done < total) {
+    const std::size_t more = std::min(buffer.size() - have, total - done - have);
+    input.read_at(chunk.begin + done + have, more, buffer.data() + have);
+    have += more;
+    const char* const b = buffer.data();
+    const char* stop = b + have;  // the end of the whole lines in the buffer
+    if (done + have < total) {
+      const void* nl = ::memrchr(b, '\n', have);
+      if (!nl) {  // a line longer than the buffer
+        buffer.resize(2 * buffer.size());
+        continue;
+      }
+      stop = static_cast<const char*>(nl) + 1;
+    }
+    if (!lines(b, stop)) return;
+    const auto used = static_cast<std::size_t>(stop - b);
+    std::memmove(buffer.data(), buffer.data() + used, have - used);
+    done += used;
+    have -= used;
   }
 }
 
@@ -120,12 +156,14 @@ bool starts_with_field(const char* b, const char* e, std::string_view name, char
 namespace {
 
 // First pass over the chunks: count lines and records, find the label row (rows=features).
+// `windows` holds a buffer for each of the `threads` (see for_each_line).
 void count_records(std::span<Chunk> chunks, const std::string& label_row, char delim,
-                   int threads, const internal::InputText& input) {
+                   int threads, const internal::InputText& input, std::vector<std::vector<char>>& windows) {
 #pragma omp parallel for schedule(dynamic, 1) num_threads(threads)
   for (std::int64_t i = 0; i < static_cast<std::int64_t>(chunks.size()); ++i) {
     Chunk& c = chunks[static_cast<std::size_t>(i)];
-    for_each_line(c, [&](const char* b, const char* e, std::int64_t line) {
+    std::vector<char>& window = windows[static_cast<std::size_t>(omp_get_thread_num())];
+    for_each_line(input, c, window, [&](const char* b, const char* e, std::int64_t line) {
       c.lines = line;
       if (b == e) return true;
       if (!label_row.empty() && starts_with_field(b, e, label_row, delim)) {
@@ -228,7 +266,8 @@ const char* arrive_in_chunks(const internal::InputText& input, const Header& h,
       want = have.size() + std::max<std::size_t>(size / 4, std::size_t{1} << 20);
       continue;
     }
-    count_records(fresh, label_row, delim, 1, input);
+    std::vector<std::vector<char>> windows(1);  // (unused: arriving text is in memory)
+    count_records(fresh, label_row, delim, 1, input, windows);
     for (const Chunk& f : fresh) {
       chunks.push_back(f);
       Chunk& c = chunks.back();
@@ -276,6 +315,7 @@ class RecordReader {
       : h_(h),
         na_(na),
         ctx_{h.delimiter, &na, options.allow_inf},
+        plain_cells_(!na.has_numeric()),
         layout_(layout),
         kinds_(std::move(kinds)),
         ids_(ids),
@@ -300,6 +340,7 @@ class RecordReader {
       fail(failure, line, 1, id_what_ + in_quotes(id) + " " + problem, kNameHint);
       return false;
     }
+    internal::DelimiterScan scan(q, e, delim);
     for (std::int64_t j = 1; j < n_fields; ++j) {
       if (q >= e) {
         fail(
@@ -314,8 +355,16 @@ class RecordReader {
         if (!read_text(q, b, e, line, record, j, k, failure)) return false;
         continue;
       }
-      const char* cell = q;
+      // The common cell first: a plain decimal that fills its field (the field's end comes from
+      // the scan, so this value does not wait on the one before).
+      const char* field_end = scan.next(q);
       float v;
+      if (plain_cells_ && plain_decimal_end(q, e, v) == field_end) {
+        values[k * stride] = v;
+        q = field_end;
+        continue;
+      }
+      const char* cell = q;
       const CellStatus s = parse_cell(q, e, ctx_, v);
       if (s != CellStatus::kOk) {
         const std::string& header_name = h_.fields[static_cast<std::size_t>(j)];
@@ -361,6 +410,7 @@ class RecordReader {
   const Header& h_;
   const NaTokens& na_;
   const CellContext ctx_;
+  const bool plain_cells_;  // no missing-value token looks like a number: try plain decimals first
   const Layout layout_;
   const std::vector<std::int64_t> kinds_;
   std::vector<std::string>& ids_;
@@ -387,8 +437,9 @@ void read_records(const std::string& path, const internal::InputText& input, con
                   const ReadOptions& options, int threads, FeatureTable& t, Records& records,
                   ProgressStep& progress) {
   const std::int64_t width = records.width;
+  std::vector<std::vector<char>> windows(static_cast<std::size_t>(threads));  // see for_each_line
   auto parse = [&](Chunk& c, std::size_t index, const Slice& s, int thread) {
-    records.parse(c, index, s, thread);
+    records.parse(c, index, s, thread, input, windows[static_cast<std::size_t>(thread)]);
     input.release(c.begin, c.end, true);
     progress.add(c.end - c.begin);
   };
@@ -417,7 +468,7 @@ void read_records(const std::string& path, const internal::InputText& input, con
   const std::vector<Chunk> late = cut_chunks(rest, text.data() + text.size(), records.chunk_bytes);
   chunks.insert(chunks.end(), late.begin(), late.end());
   count_records(std::span<Chunk>(chunks).subspan(first_late), records.label_row, h.delimiter,
-                threads, input);
+                threads, input, windows);
   const std::int64_t total = number_chunks(chunks, h.first_data_line);
   records.counted(chunks);
   if (total == 0)
@@ -477,7 +528,8 @@ struct SampleRecords {
     record_lines.resize(static_cast<std::size_t>(records));
   }
 
-  void parse(Chunk& c, std::size_t, const Slice& s, int thread) {
+  void parse(Chunk& c, std::size_t, const Slice& s, int thread, const internal::InputText& input,
+             std::vector<char>& window) {
     std::vector<float>& block = blocks[static_cast<std::size_t>(thread)];
     block.resize(static_cast<std::size_t>(row_block * width));
     std::int64_t block_first = c.first_record;  // record of block row 0
@@ -497,7 +549,7 @@ struct SampleRecords {
       in_block = 0;
     };
     std::int64_t record = c.first_record;
-    for_each_line(c, [&](const char* b, const char* e, std::int64_t local_line) {
+    for_each_line(input, c, window, [&](const char* b, const char* e, std::int64_t local_line) {
       if (b == e) return true;
       const std::int64_t line = c.first_line + local_line - 1;
       record_lines[static_cast<std::size_t>(record)] = line;
@@ -651,9 +703,10 @@ struct FeatureRecords {
     return true;
   }
 
-  void parse(Chunk& c, std::size_t index, const Slice& s, int) {
+  void parse(Chunk& c, std::size_t index, const Slice& s, int, const internal::InputText& input,
+             std::vector<char>& window) {
     std::int64_t record = c.first_record;
-    for_each_line(c, [&](const char* b, const char* e, std::int64_t local_line) {
+    for_each_line(input, c, window, [&](const char* b, const char* e, std::int64_t local_line) {
       if (b == e) return true;
       const std::int64_t line = c.first_line + local_line - 1;
       if (index == label_chunk && local_line == c.label_line) return read_label_line(c, b, e, line);

@@ -8,6 +8,8 @@
 #include <charconv>  // std::to_chars
 #include <fast_float/fast_float.h>
 #include <cmath>     // std::isnan, std::isinf
+#include <cstdio>    // std::snprintf
+#include <cstdlib>   // std::abs
 #include <cstring>   // std::memcmp
 #include <limits>    // std::numeric_limits
 #include <random>    // std::mt19937_64
@@ -599,6 +601,54 @@ TEST_CASE("files larger than one 4 MiB chunk read bit-identically with 1 and 2 t
   two_labels.insert(two_labels.rfind("\nf" + std::to_string(kFeatures - 1) + ",") + 1, label_line);
   two_labels.insert(two_labels.find('\n') + 1, label_line);
   same_error(two_labels, "two-labels.csv", labelled);
+}
+
+TEST_CASE("lines longer than the reader's 1 MiB window with CRLF and no final line break", "[io]") {
+  // The reader copies a file's text into a buffer of 1 MiB (kWindowBytes in src/io.cpp), grown
+  // for a longer line: each line here is about 1.4 MB. The gzip text (read in place) must agree.
+  TempDir dir;
+  constexpr int kSamples = 3, kFeatures = 200000;
+  std::string text = "id";
+  for (int j = 0; j < kFeatures; ++j) {
+    text += ",f";
+    text += std::to_string(j);
+  }
+  text += "\r\n";
+  pare::Matrix expected(kSamples, kFeatures);
+  for (int i = 0; i < kSamples; ++i) {
+    text += 's';
+    text += std::to_string(i);
+    for (int j = 0; j < kFeatures; ++j) {
+      const int v = static_cast<int>((i * 7919LL + j * 104729LL) % 20011) - 10000;  // -10000 .. 10010
+      expected(i, j) = static_cast<float>(v) / 100.0f;        // what "-12.34" parses to
+      char cell[16];
+      std::snprintf(cell, sizeof cell, ",%s%d.%02d", v < 0 ? "-" : "", std::abs(v) / 100, std::abs(v) % 100);
+      text += cell;
+    }
+    if (i + 1 < kSamples) text += "\r\n";  // the last line has no line break
+  }
+  REQUIRE(text.size() / kSamples > (std::size_t{1} << 20));
+  const auto path = dir.write("long.csv", text);
+  ReadOptions two = options();
+  two.threads = 2;
+  const FeatureTable t = pare::read_table(path, two);
+  REQUIRE(t.n_samples() == kSamples);
+  REQUIRE(t.n_features() == kFeatures);
+  REQUIRE(t.sample_ids.back() == "s2");
+  REQUIRE(same_bits(t.values, expected));
+  require_same_table(t, pare::read_table(gzip_file(dir, "long.csv.gz", {text}, 1), two));
+
+  // A bad cell near the end of the second line: its line and column as in the file.
+  std::string broken = text;
+  const auto second_end = broken.find("\r\n", broken.find("\r\ns1,") + 2);
+  broken.insert(second_end - 1, "x");
+  const auto broken_path = dir.write("long-broken.csv", broken);
+  const std::size_t line_start = broken.rfind('\n', second_end) + 1;
+  const std::size_t cell_start = broken.rfind(',', second_end) + 1;
+  const std::string where = broken_path + ":3:" + std::to_string(cell_start - line_start + 1) + ": ";
+  const std::string message = error_of([&] { pare::read_table(broken_path, two); });
+  INFO(message);
+  REQUIRE(message.rfind(where, 0) == 0);
 }
 
 TEST_CASE("duplicate feature names are made unique, the same way in both layouts", "[io]") {

@@ -49,6 +49,15 @@ class InputText {
   /// large read near the size of the matrix instead of matrix plus text.
   void release(const char* begin, const char* end, bool done) const;
 
+  /// True when the text is a file's (the plain file, or a gzip file's text inflated into a cache
+  /// file) and read_at can copy parts of it. Copying through the file into a buffer that is used
+  /// again and again is cheaper than reading through the mapping: each page of a mapping costs a
+  /// page fault the first time it is touched, and an expensive one under some virtual machines.
+  bool readable_at() const;
+  /// Copies the `bytes` of the text at `at` (inside view()) into `into`. Throws Error(kInput) when
+  /// the file cannot be read or has become shorter.
+  void read_at(const char* at, std::size_t bytes, char* into) const;
+
  private:
   InputText() = default;
   // The steps of open: the file's bytes as they are (mapped, or read from a pipe), then for a
@@ -61,6 +70,7 @@ class InputText {
                                      std::size_t memory_cap);
 
   void* map_ = nullptr;  // file mapping, when the file is plain text
+  int fd_ = -1;          // the mapped file, for read_at
   std::size_t map_size_ = 0;
   GrowableBuffer inflated_;  // inflated text, when the file is gzip
   const char* data_ = "";

@@ -12,6 +12,10 @@
 #include <string>       // std::string
 #include <string_view>  // std::string_view
 
+#if defined(__SSE2__)
+#include <emmintrin.h>  // _mm_cmpeq_epi8, _mm_movemask_epi8
+#endif
+
 #include "internal/text_fields.h"
 #include "pare/io.h"
 
@@ -76,10 +80,11 @@ inline std::uint32_t digits_value(std::uint64_t word, int count) {
 // without the general parser: its digits m and fraction length d give m / 10^d, and while
 // m <= 2^24 and d <= 10 both are exact in float32, so the one IEEE division is the correctly
 // rounded value (the exact-operands fast path of W. D. Clinger, "How to read floating point
-// numbers accurately", PLDI 1990; common practice in number parsers). Anything else (more
-// digits, an exponent, a leading '.', a trailing '.', another character before the delimiter)
-// returns false and is left to fast_float. tests/io_test.cpp checks it against fast_float.
-inline bool parse_plain_decimal(const char*& p, const char* e, char delim, float& value) {
+// numbers accurately", PLDI 1990; common practice in number parsers). Returns where the number
+// ends (the caller checks that the field ends there), or nullptr for anything else (more digits,
+// an exponent, a leading '.', a trailing '.'), which is left to fast_float. tests/io_test.cpp
+// checks it against fast_float.
+inline const char* plain_decimal_end(const char* p, const char* e, float& value) {
   static constexpr float kPow10[] = {1e0f, 1e1f, 1e2f, 1e3f, 1e4f, 1e5f, 1e6f, 1e7f, 1e8f, 1e9f};
   static constexpr std::uint32_t kPow10Int[] = {1, 10, 100, 1000, 10000, 100000, 1000000, 10000000, 100000000};
   const char* s = p;
@@ -93,21 +98,20 @@ inline bool parse_plain_decimal(const char*& p, const char* e, char delim, float
       std::uint64_t word;
       std::memcpy(&word, s, sizeof word);
       whole = leading_digits(word);
-      if (whole == 0 || whole == 8) return false;
+      if (whole == 0 || whole == 8) return nullptr;
       s += whole;
       m = digits_value(word, static_cast<int>(whole));
       if (*s == '.') {
         std::memcpy(&word, s + 1, sizeof word);
         fraction = leading_digits(word);
-        if (fraction == 0 || fraction == 8 || whole + fraction > 9) return false;
+        if (fraction == 0 || fraction == 8 || whole + fraction > 9) return nullptr;
         m = m * kPow10Int[fraction] + digits_value(word, static_cast<int>(fraction));
         s += 1 + fraction;
       }
-      if (m > (std::uint32_t{1} << 24) || *s != delim) return false;
+      if (m > (std::uint32_t{1} << 24)) return nullptr;
       const float v = static_cast<float>(m) / kPow10[fraction];
       value = negative ? -v : v;
-      p = s;
-      return true;
+      return s;
     }
   }
   const char* const digits = s;
@@ -117,14 +121,81 @@ inline bool parse_plain_decimal(const char*& p, const char* e, char delim, float
     const char* const f = ++s;
     while (s < e && static_cast<unsigned char>(*s - '0') < 10 && whole + (s - f) < 10) m = 10 * m + static_cast<std::uint32_t>(*s++ - '0');
     fraction = s - f;
-    if (fraction == 0) return false;
+    if (fraction == 0) return nullptr;
   }
-  if (whole == 0 || whole + fraction > 9 || m > (std::uint32_t{1} << 24) || (s < e && *s != delim)) return false;
+  if (whole == 0 || whole + fraction > 9 || m > (std::uint32_t{1} << 24)) return nullptr;
   const float v = static_cast<float>(m) / kPow10[fraction];
   value = negative ? -v : v;
+  return s;
+}
+
+// The plain decimal at `p` (see plain_decimal_end) when its field ends with it: then `p` moves to
+// the delimiter (or the line end `e`).
+inline bool parse_plain_decimal(const char*& p, const char* e, char delim, float& value) {
+  const char* s = plain_decimal_end(p, e, value);
+  if (!s || (s < e && *s != delim)) return false;
   p = s;
   return true;
 }
+
+// The delimiters of one line, found 64 bytes at a time (a bit per byte), so that where a field
+// ends is known before its value is read: reading one value then does not wait on reading the
+// one before it, and the processor overlaps them (the idea of the structural index of simdjson,
+// Langdale and Lemire, "Parsing gigabytes of JSON per second", VLDB Journal 2019).
+class DelimiterScan {
+ public:
+  DelimiterScan(const char* line_begin, const char* line_end, char delim) : e_(line_end), delim_(delim) {
+    load(line_begin);
+  }
+
+  // The first delimiter at or after `q` (inside the line, or at its end), or the line end.
+  const char* next(const char* q) {
+    if (q < block_ || q - block_ >= 64) load(q);
+    std::uint64_t m = mask_ & (~std::uint64_t{0} << (q - block_));
+    while (m == 0) {
+      if (e_ - block_ <= 64) return e_;
+      load(block_ + 64);
+      m = mask_;
+    }
+    return block_ + std::countr_zero(m);
+  }
+
+ private:
+  void load(const char* at) {
+    block_ = at;
+    const std::ptrdiff_t n = e_ - at;
+    if (n >= 64) {
+      mask_ = equal_bits(at);
+      return;
+    }
+    char tail[64] = {};
+    if (n > 0) std::memcpy(tail, at, static_cast<std::size_t>(n));
+    mask_ = n > 0 ? equal_bits(tail) & ((std::uint64_t{1} << n) - 1) : 0;
+  }
+
+  // Bit i set when at[i] is the delimiter, for the 64 bytes at `at`.
+  std::uint64_t equal_bits(const char* at) const {
+#if defined(__SSE2__)
+    const __m128i d = _mm_set1_epi8(delim_);
+    std::uint64_t bits = 0;
+    for (int i = 0; i < 4; ++i) {
+      const __m128i bytes = _mm_loadu_si128(reinterpret_cast<const __m128i*>(at + 16 * i));
+      bits |= static_cast<std::uint64_t>(static_cast<std::uint32_t>(_mm_movemask_epi8(_mm_cmpeq_epi8(bytes, d))))
+              << (16 * i);
+    }
+    return bits;
+#else
+    std::uint64_t bits = 0;
+    for (int i = 0; i < 64; ++i) bits |= static_cast<std::uint64_t>(at[i] == delim_) << i;
+    return bits;
+#endif
+  }
+
+  const char* e_;
+  char delim_;
+  const char* block_ = nullptr;
+  std::uint64_t mask_ = 0;
+};
 
 // Parses one numeric cell at `p` on a line ending at `e`. Leaves `p` at the delimiter or `e`.
 // The fast path is one fast_float call; everything unusual (missing tokens, quotes, spaces, '+',
