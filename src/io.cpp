@@ -98,9 +98,11 @@ constexpr std::size_t kWindowBytes = std::size_t{1} << 20;
 
 // Calls fn(line_begin, line_end, line_number_within_chunk) for each line of the chunk, the '\r'
 // of a CRLF line break removed, until fn returns false. The lines of a file's text are read into
-// `buffer`, so the pointers fn gets are valid only during the call.
+// `buffer`, so the pointers fn gets are valid only during the call; a file that cannot be read
+// (it shrank, or the device failed) becomes the chunk's failure (this runs on OpenMP threads,
+// where an exception must not escape).
 template <typename Fn>
-void for_each_line(const internal::InputText& input, const Chunk& chunk, std::vector<char>& buffer, Fn&& fn) {
+void for_each_line(const internal::InputText& input, Chunk& chunk, std::vector<char>& buffer, Fn&& fn) {
   std::int64_t line = 0;
   // The lines of [p, end), which ends at a line end or at the chunk's end; false when fn stops.
   auto lines = [&](const char* p, const char* end) {
@@ -123,7 +125,12 @@ void for_each_line(const internal::InputText& input, const Chunk& chunk, std::ve
   std::size_t done = 0, have = 0;  // bytes of the chunk handed out; bytes in the buffer after them
   while (done < total) {
     const std::size_t more = std::min(buffer.size() - have, total - done - have);
-    input.read_at(chunk.begin + done + have, more, buffer.data() + have);
+    try {
+      input.read_at(chunk.begin + done + have, more, buffer.data() + have);
+    } catch (const Error& e) {
+      fail(chunk.failure, 0, 0, e.what());
+      return;
+    }
     have += more;
     const char* const b = buffer.data();
     const char* stop = b + have;  // the end of the whole lines in the buffer

@@ -5,6 +5,7 @@
 #include "internal/input_text.h"
 
 #include <sys/stat.h>  // mkfifo
+#include <unistd.h>    // truncate
 
 #include <cstdint>  // std::uint64_t
 #include <fstream>  // std::ofstream
@@ -81,6 +82,38 @@ TEST_CASE("input text: a plain file is mapped whole, not streamed", "[input_text
   const InputText empty = InputText::open(dir.write("empty.csv", ""));
   CHECK(empty.view().empty());
   CHECK(empty.expected_size() == 0);
+}
+
+TEST_CASE("input text: read_at copies parts of a file; a file that shrank is an input error", "[input_text]") {
+  TempDir dir;
+  const std::string text = table_text(300'000, 4);
+  const std::string path = dir.write("parts.csv", text);
+  const InputText input = InputText::open(path);
+  REQUIRE(input.readable_at());
+  const char* base = input.view().data();
+  std::string part(1000, '\0');
+  for (const std::size_t at : {std::size_t{0}, std::size_t{4095}, text.size() - 1000}) {
+    input.read_at(base + at, part.size(), part.data());
+    CHECK(part == text.substr(at, part.size()));
+  }
+  // Cut after it was opened: reading past the new end fails, with a message rather than a crash.
+  REQUIRE(::truncate(path.c_str(), 1000) == 0);
+  input.read_at(base, 1000, part.data());
+  CHECK(part == text.substr(0, 1000));
+  try {
+    input.read_at(base + 500, 1000, part.data());
+    FAIL("no error");
+  } catch (const pare::Error& e) {
+    CHECK(e.kind() == pare::ErrorKind::kInput);
+    CHECK(std::string(e.what()).find("became shorter") != std::string::npos);
+  }
+  // A pipe's text, read into memory, has no file behind it.
+  const std::string fifo = dir.file("fifo-parts");
+  REQUIRE(::mkfifo(fifo.c_str(), 0600) == 0);
+  std::thread writer([&] { std::ofstream(fifo, std::ios::binary) << "id,a\ns1,1\n"; });
+  const InputText piped = InputText::open(fifo);
+  writer.join();
+  CHECK_FALSE(piped.readable_at());
 }
 
 TEST_CASE("input text: a pipe is read to its end", "[input_text]") {
