@@ -322,7 +322,8 @@ TEST_CASE("annotation columns in a gzip export of several read chunks, parsed wh
   if (d.cells.empty()) return;
   TempDir dir;
   // 13 x 800 feature lines of about 1 kB: about 10 MB, three or more 4 MiB chunks of the reader
-  // (kChunkBytes in src/io.cpp), so chunks are parsed as the stream arrives and at its end.
+  // (kChunkBytes in src/internal/text_chunks.h), so chunks are parsed as the stream arrives and at
+  // its end.
   constexpr int kCopies = 800;
   const std::string text = wine_by_features(d, kCopies);
   INFO("bytes: " << text.size());

@@ -486,8 +486,8 @@ TEST_CASE("a header name with a quoted line break does not shift later line numb
 TEST_CASE("files larger than one 4 MiB chunk read bit-identically with 1 and 2 threads", "[io]") {
   TempDir dir;
   // 2400 samples x 400 features of shortest-round-trip float text: about 9.6 MB per layout, so
-  // the reader (which cuts text into chunks of about 4 MiB, kChunkBytes in src/io.cpp) parses
-  // each file as three chunks.
+  // the reader (which cuts text into chunks of about 4 MiB, kChunkBytes in
+  // src/internal/text_chunks.h) parses each file as three chunks.
   constexpr int kSamples = 2400, kFeatures = 400;
   std::mt19937_64 rng(20240611);  // fixed seed
   std::normal_distribution<float> normal(0.0f, 100.0f);
@@ -604,8 +604,9 @@ TEST_CASE("files larger than one 4 MiB chunk read bit-identically with 1 and 2 t
 }
 
 TEST_CASE("lines longer than the reader's 1 MiB window with CRLF and no final line break", "[io]") {
-  // The reader copies a file's text into a buffer of 1 MiB (kWindowBytes in src/io.cpp), grown
-  // for a longer line: each line here is about 1.4 MB. The gzip text (read in place) must agree.
+  // The reader copies a file's text into a buffer of 1 MiB (kWindowBytes in
+  // src/internal/text_chunks.h), grown for a longer line: each line here is about 1.4 MB. The gzip
+  // text (read in place) must agree.
   TempDir dir;
   constexpr int kSamples = 3, kFeatures = 200000;
   std::string text = "id";
