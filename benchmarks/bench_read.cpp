@@ -25,7 +25,8 @@ double fastest(int repeats, const std::function<void()>& run) {
   for (int r = 0; r < repeats; ++r) {
     const auto start = std::chrono::steady_clock::now();
     run();
-    best = std::min(best, std::chrono::duration<double>(std::chrono::steady_clock::now() - start).count());
+    best = std::min(
+        best, std::chrono::duration<double>(std::chrono::steady_clock::now() - start).count());
   }
   return best;
 }
@@ -55,7 +56,8 @@ int main(int argc, char** argv) {
   const double hash = fastest(repeats, [&] { (void)pare::internal::sha256_file(path); });
   request.hash = true;
   const double both = fastest(repeats, [&] { (void)pare::load_data(request); });
-  std::printf("bench_read: %s, %.1f MB, %zu values, %d threads\n", path.c_str(), mb, cells, threads);
+  std::printf("bench_read: %s, %.1f MB, %zu values, %d threads\n", path.c_str(), mb, cells,
+              threads);
   std::printf("%-28s %8s %8s\n", "", "seconds", "MB/s");
   std::printf("%-28s %8.3f %8.0f\n", "read_table", parse, mb / parse);
   std::printf("%-28s %8.3f %8.0f\n", "SHA-256", hash, mb / hash);

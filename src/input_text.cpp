@@ -319,7 +319,8 @@ void InputText::read_at(const char* at, std::size_t bytes, char* into) const {
   while (bytes > 0) {
     const ssize_t got = ::pread(fd_, into, bytes, offset);
     if (got < 0 && errno == EINTR) continue;
-    if (got < 0) throw Error(ErrorKind::kInput, std::string("cannot read the input: ") + std::strerror(errno));
+    if (got < 0)
+      throw Error(ErrorKind::kInput, std::string("cannot read the input: ") + std::strerror(errno));
     if (got == 0) throw Error(ErrorKind::kInput, "the input file became shorter while it was read");
     bytes -= static_cast<std::size_t>(got);
     into += got;

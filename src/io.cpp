@@ -25,33 +25,33 @@
 namespace pare {
 
 using internal::any_failure;
-using internal::check_names;
 using internal::CellContext;
+using internal::CellStatus;
+using internal::check_names;
 using internal::Chunk;
 using internal::count_records;
 using internal::cut_chunks;
-using internal::for_each_line;
-using internal::kChunkBytes;
-using internal::number_chunks;
-using internal::rethrow_first;
-using internal::CellStatus;
 using internal::fail;
 using internal::fail_cell;
 using internal::Failure;
+using internal::for_each_line;
 using internal::Header;
 using internal::header_names_hint;
+using internal::in_quotes;
+using internal::kChunkBytes;
+using internal::kMissing;
+using internal::kNameHint;
 using internal::label_field_of;
 using internal::label_option;
-using internal::in_quotes;
-using internal::kNameHint;
-using internal::kMissing;
 using internal::name_problem;
 using internal::NaTokens;
+using internal::number_chunks;
 using internal::parse_cell;
 using internal::plain_decimal_end;
 using internal::read_arriving_header;
 using internal::read_header;
 using internal::read_text_field;
+using internal::rethrow_first;
 using internal::split_fields_at;
 
 namespace {

@@ -233,11 +233,11 @@ SampleScreen screen_samples(const ConstMatrixRef& m, const ScreenOptions& o,
   // Float32 products and a residual of 3e-5: the scores only have to place samples well enough
   // to flag far ones, and this halves the screen's cost (performance.md).
   po.float_products = true;
-  // 30 extra Ritz vectors rather than 10: with K + 30 >= n / 32 (n up to 1,056 samples at K = 3) the
-  // iteration multiplies by the n x n Gram matrix, formed once, in narrow blocks, where two
-  // products with the data per block would take 20 or more blocks for three components at
-  // 1,000 x 5,000 (0.17-0.19 s against 0.10-0.15 s on the make-bench file); more Ritz vectors
-  // only sharpen the K kept.
+  // 30 extra Ritz vectors rather than 10: while n <= 32 (K + 30) (1,056 samples at K = 3) the
+  // iteration then multiplies by the n x n Gram matrix, formed once, in narrow blocks, where two
+  // products with the data per block took 23 blocks for three components at 1,000 x 5,000
+  // (0.17-0.19 s against 0.10-0.12 s with the Gram matrix on the make-bench file); more Ritz
+  // vectors only sharpen the K kept.
   po.oversample = 30;
   po.center = true;
   // Standardised (correlation PCA): a feature on a large scale must not decide alone who is far

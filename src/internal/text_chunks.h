@@ -2,8 +2,6 @@
 // the table readers (src/io.cpp), shared by both layouts. Private to the library.
 #pragma once
 
-#include <omp.h>
-
 #include <algorithm>    // std::max, std::min
 #include <cstddef>      // std::size_t
 #include <cstdint>      // std::int64_t
@@ -12,6 +10,8 @@
 #include <string>       // std::string
 #include <string_view>  // std::string_view
 #include <vector>       // std::vector
+
+#include <omp.h>
 
 #include "pare/error.h"
 
@@ -29,11 +29,11 @@ constexpr std::size_t kChunkBytes = std::size_t{4} << 20;
 struct Chunk {
   const char* begin = nullptr;
   const char* end = nullptr;
-  std::int64_t lines = 0;      // line breaks (= lines) in the chunk
-  std::int64_t records = 0;    // non-blank lines that are data records
-  std::int64_t label_line = 0;  // 1-based line within the chunk of the label row, 0 if none
+  std::int64_t lines = 0;              // line breaks (= lines) in the chunk
+  std::int64_t records = 0;            // non-blank lines that are data records
+  std::int64_t label_line = 0;         // 1-based line within the chunk of the label row, 0 if none
   std::int64_t second_label_line = 0;  // another label row in the same chunk, 0 if none
-  std::int64_t first_line = 0;  // 1-based file line of the chunk's first line
+  std::int64_t first_line = 0;         // 1-based file line of the chunk's first line
   std::int64_t first_record = 0;
   Failure failure;
 };
@@ -42,7 +42,8 @@ struct Chunk {
 // row blocks of rows=samples to fill (it depends on the header only, never on --threads).
 // With `arriving`, the text past `end` is still to come: only chunks of full size that end at a
 // line end are cut, and the rest is left for later.
-inline std::vector<Chunk> cut_chunks(const char* begin, const char* end, std::size_t min_bytes = 0, bool arriving = false) {
+inline std::vector<Chunk> cut_chunks(const char* begin, const char* end, std::size_t min_bytes = 0,
+                                     bool arriving = false) {
   const std::size_t chunk_bytes = std::max(kChunkBytes, min_bytes);
   std::vector<Chunk> chunks;
   const char* p = begin;
@@ -50,7 +51,8 @@ inline std::vector<Chunk> cut_chunks(const char* begin, const char* end, std::si
     if (arriving && static_cast<std::size_t>(end - p) <= chunk_bytes) break;
     const char* stop = p + std::min<std::size_t>(chunk_bytes, static_cast<std::size_t>(end - p));
     if (stop < end) {
-      const char* nl = static_cast<const char*>(std::memchr(stop, '\n', static_cast<std::size_t>(end - stop)));
+      const char* nl =
+          static_cast<const char*>(std::memchr(stop, '\n', static_cast<std::size_t>(end - stop)));
       if (!nl && arriving) break;
       stop = nl ? nl + 1 : end;
     }
@@ -78,7 +80,8 @@ void for_each_line(const InputText& input, Chunk& chunk, std::vector<char>& buff
   // The lines of [p, end), which ends at a line end or at the chunk's end; false when fn stops.
   auto lines = [&](const char* p, const char* end) {
     while (p < end) {
-      const char* nl = static_cast<const char*>(std::memchr(p, '\n', static_cast<std::size_t>(end - p)));
+      const char* nl =
+          static_cast<const char*>(std::memchr(p, '\n', static_cast<std::size_t>(end - p)));
       const char* e = nl ? nl : end;
       ++line;
       const char* le = (e > p && e[-1] == '\r') ? e - 1 : e;
@@ -132,7 +135,8 @@ inline bool starts_with_field(const char* b, const char* e, std::string_view nam
 // First pass over the chunks: count lines and records, find the label row (rows=features).
 // `windows` holds a buffer for each of the `threads` (see for_each_line).
 inline void count_records(std::span<Chunk> chunks, const std::string& label_row, char delim,
-                   int threads, const InputText& input, std::vector<std::vector<char>>& windows) {
+                          int threads, const InputText& input,
+                          std::vector<std::vector<char>>& windows) {
 #pragma omp parallel for schedule(dynamic, 1) num_threads(threads)
   for (std::int64_t i = 0; i < static_cast<std::int64_t>(chunks.size()); ++i) {
     Chunk& c = chunks[static_cast<std::size_t>(i)];
@@ -145,7 +149,8 @@ inline void count_records(std::span<Chunk> chunks, const std::string& label_row,
           c.label_line = line;
           return true;
         }
-        if (c.second_label_line == 0) c.second_label_line = line;  // reported once lines are numbered
+        if (c.second_label_line == 0)
+          c.second_label_line = line;  // reported once lines are numbered
         return true;
       }
       ++c.records;
