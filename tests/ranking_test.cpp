@@ -1046,7 +1046,7 @@ TEST_CASE("the binned table of score_features is the table of equal_frequency_bi
   // score_features builds the bin x class table from the bins' thresholds (a radix select of the
   // order statistics, src/class_scores.cpp), not from sorted rows. Reference: equal_frequency_bins
   // (the SPEC rank rule, tested above) and a table counted here; MI and chi-square must be the same
-  // bits. Columns: continuous, heavy ties (values 0..4), mostly zeros, negative and -0/+0, a wide
+  // bits, and F those of a run without thresholds. Columns: continuous, heavy ties (values 0..4), mostly zeros, negative and -0/+0, a wide
   // range of magnitudes, with gaps; bins from 2 to above n.
   std::mt19937_64 gen(20261205);
   const Index n = 301;
@@ -1068,6 +1068,11 @@ TEST_CASE("the binned table of score_features is the table of equal_frequency_bi
       if (unit(gen) < 0.05) m(i, j) = std::numeric_limits<float>::quiet_NaN();
   }
   const std::vector<std::int64_t> features{0, 1, 2, 3, 4};
+  // F does not depend on the bins: every run must give the bits of a run with bins >= n (where
+  // the table comes from sorted rows, not thresholds).
+  pare::ScoreOptions by_rank;
+  by_rank.bins = 1000;
+  const FeatureScores f_reference = pare::score_features(m, features, classes, by_rank);
   for (const int bins : {2, 3, 7, 10, 33, 64, 65, 100, 299, 400}) {
     pare::ScoreOptions o;
     o.bins = bins;
@@ -1091,6 +1096,8 @@ TEST_CASE("the binned table of score_features is the table of equal_frequency_bi
       CHECK(s.mi[static_cast<std::size_t>(j)] == pare::mutual_information(table, rows, k));
       CHECK(s.chi2[static_cast<std::size_t>(j)] == chi2);
       CHECK(s.chi2_df[static_cast<std::size_t>(j)] == df);
+      CHECK(s.f[static_cast<std::size_t>(j)] == f_reference.f[static_cast<std::size_t>(j)]);
+      CHECK(s.f_p[static_cast<std::size_t>(j)] == f_reference.f_p[static_cast<std::size_t>(j)]);
     }
   }
 }
